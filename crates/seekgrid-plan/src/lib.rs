@@ -1,0 +1,1 @@
+//! Search planning for seekgrid (work in progress).
