@@ -1,0 +1,571 @@
+//! Environment estimates: total water current and wind, constant, as a time series or gridded.
+//!
+//! Direction conventions (DESIGN.md, "Invariants"): a current is given by the true bearing it
+//! flows *toward* ([`Convention::Toward`]), a wind by the true bearing it blows *from*
+//! ([`Convention::From`]). Gridded fields carry velocity components `u_kn` (east) and `v_kn`
+//! (north) instead, which always say where the water or air moves toward, as in ocean and weather
+//! model output; the convention does not apply to them.
+
+use crate::Time;
+use crate::error::DriftError;
+use seekgrid_core::units::{MPS_PER_KNOT, bearing_to_unit_vector};
+
+/// A speed and direction with their 1-sigma errors.
+///
+/// `direction_deg` is a true bearing, degrees clockwise from north; for a current it is the
+/// direction the water flows toward, for a wind the direction it blows from (see
+/// [`Convention`]). Speeds in knots; for wind, the speed is read as the 10 m wind U10 that the
+/// leeway model expects.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct VectorEstimate {
+    /// Speed, knots (>= 0).
+    pub speed_kn: f64,
+    /// Direction, true degrees (toward for current, from for wind).
+    pub direction_deg: f64,
+    /// 1-sigma error of the speed, knots (>= 0).
+    pub speed_sigma_kn: f64,
+    /// 1-sigma error of the direction, degrees (>= 0).
+    pub direction_sigma_deg: f64,
+}
+
+impl VectorEstimate {
+    /// The nominal velocity (no error) as (east, north) knots in the direction of motion.
+    ///
+    /// With [`Convention::From`] the vector points to `direction_deg + 180`.
+    #[must_use]
+    pub fn velocity_kn(&self, convention: Convention) -> (f64, f64) {
+        let (e, n) = bearing_to_unit_vector(convention.toward_bearing_deg(self.direction_deg));
+        (self.speed_kn * e, self.speed_kn * n)
+    }
+
+    /// The nominal velocity (no error) as (east, north) metres per second in the direction of
+    /// motion: [`VectorEstimate::velocity_kn`] times 1852/3600.
+    #[must_use]
+    pub fn velocity_mps(&self, convention: Convention) -> (f64, f64) {
+        let (e, n) = self.velocity_kn(convention);
+        (e * MPS_PER_KNOT, n * MPS_PER_KNOT)
+    }
+
+    pub(crate) fn validate(&self, field: &str) -> Result<(), DriftError> {
+        for (name, value) in [
+            ("speed_kn", self.speed_kn),
+            ("direction_deg", self.direction_deg),
+            ("speed_sigma_kn", self.speed_sigma_kn),
+            ("direction_sigma_deg", self.direction_sigma_deg),
+        ] {
+            if !value.is_finite() {
+                return Err(DriftError::NotFinite {
+                    field: format!("{field}.{name}"),
+                    value,
+                });
+            }
+            if name != "direction_deg" && value < 0.0 {
+                return Err(DriftError::Negative {
+                    field: format!("{field}.{name}"),
+                    value,
+                });
+            }
+        }
+        Ok(())
+    }
+}
+
+/// How the `direction_deg` of a [`VectorEstimate`] is read.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Convention {
+    /// The direction of motion (currents: "setting toward 090").
+    Toward,
+    /// The direction of origin (winds: "wind from 270" moves air toward 090).
+    From,
+}
+
+impl Convention {
+    /// The convention of the total water current in a [`crate::DriftScenario`].
+    pub const CURRENT: Convention = Convention::Toward;
+    /// The convention of the wind in a [`crate::DriftScenario`].
+    pub const WIND: Convention = Convention::From;
+
+    /// The true bearing of motion for a direction given in this convention, degrees in [0, 360).
+    #[must_use]
+    pub fn toward_bearing_deg(self, direction_deg: f64) -> f64 {
+        match self {
+            Convention::Toward => seekgrid_core::units::normalise_deg(direction_deg),
+            Convention::From => seekgrid_core::units::normalise_deg(direction_deg + 180.0),
+        }
+    }
+}
+
+/// One node of a gridded field: position, time and velocity components.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct GridSample {
+    /// Longitude, degrees east.
+    pub lon_deg: f64,
+    /// Latitude, degrees north.
+    pub lat_deg: f64,
+    /// Valid time.
+    pub time: Time,
+    /// Eastward velocity component, knots (positive toward east).
+    pub u_kn: f64,
+    /// Northward velocity component, knots (positive toward north).
+    pub v_kn: f64,
+}
+
+/// A velocity field on a regular longitude/latitude/time lattice, interpolated trilinearly.
+///
+/// Outside the lattice, in space or time, the value at the nearest edge is used (held
+/// constant), as a [`Environment::Series`] is beyond its ends; give a lattice that covers the
+/// whole drift. An axis with a single node is constant along that axis. The sigmas apply to
+/// every node. Build it with [`GriddedField::from_samples`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct GriddedField {
+    lon0_deg: f64,
+    dlon_deg: f64,
+    nlon: usize,
+    lat0_deg: f64,
+    dlat_deg: f64,
+    nlat: usize,
+    t0: Time,
+    dt_s: f64,
+    nt: usize,
+    /// Velocity components, index `(it * nlat + ilat) * nlon + ilon`.
+    u_kn: Vec<f64>,
+    v_kn: Vec<f64>,
+    speed_sigma_kn: f64,
+    direction_sigma_deg: f64,
+}
+
+/// The distinct values of one lattice axis, checked to be evenly spaced.
+fn regular_axis(mut values: Vec<f64>, axis: &str) -> Result<(f64, f64, usize), DriftError> {
+    values.sort_by(f64::total_cmp);
+    let span = values[values.len() - 1] - values[0];
+    let tol = 1e-9 * span.abs().max(1.0);
+    values.dedup_by(|a, b| (*a - *b).abs() <= tol);
+    let n = values.len();
+    if n == 1 {
+        return Ok((values[0], 0.0, 1));
+    }
+    let step = span / (n - 1) as f64;
+    for (i, v) in values.iter().enumerate() {
+        let expected = values[0] + step * i as f64;
+        if (v - expected).abs() > 1e-6 * step {
+            return Err(DriftError::BadGrid {
+                field: "gridded".to_owned(),
+                what: format!(
+                    "{axis} values are not evenly spaced ({v} where {expected} was expected); give samples on a regular lattice"
+                ),
+            });
+        }
+    }
+    Ok((values[0], step, n))
+}
+
+fn axis_index(value: f64, start: f64, step: f64) -> usize {
+    if step == 0.0 {
+        0
+    } else {
+        ((value - start) / step).round() as usize
+    }
+}
+
+impl GriddedField {
+    /// A field from its nodes, in any order. The nodes must form a complete regular lattice:
+    /// evenly spaced longitudes, latitudes and times, one sample per node.
+    ///
+    /// # Errors
+    /// [`DriftError::BadGrid`] when there are no samples, a value is not finite, the spacing is
+    /// uneven, a node is missing or given twice; [`DriftError::NotFinite`] or
+    /// [`DriftError::Negative`] for a bad sigma.
+    pub fn from_samples(
+        samples: &[GridSample],
+        speed_sigma_kn: f64,
+        direction_sigma_deg: f64,
+    ) -> Result<Self, DriftError> {
+        let bad = |what: String| DriftError::BadGrid {
+            field: "gridded".to_owned(),
+            what,
+        };
+        for (name, value) in [
+            ("gridded.speed_sigma_kn", speed_sigma_kn),
+            ("gridded.direction_sigma_deg", direction_sigma_deg),
+        ] {
+            if !value.is_finite() {
+                return Err(DriftError::NotFinite {
+                    field: name.to_owned(),
+                    value,
+                });
+            }
+            if value < 0.0 {
+                return Err(DriftError::Negative {
+                    field: name.to_owned(),
+                    value,
+                });
+            }
+        }
+        let Some(first) = samples.first() else {
+            return Err(bad("it has no samples; give at least one node".to_owned()));
+        };
+        if let Some(i) = samples.iter().position(|s| {
+            !(s.lon_deg.is_finite()
+                && s.u_kn.is_finite()
+                && s.v_kn.is_finite()
+                && (-90.0..=90.0).contains(&s.lat_deg))
+        }) {
+            return Err(bad(format!(
+                "sample {i} has a non-finite value or a latitude outside -90..90; check that row"
+            )));
+        }
+        let t0 = samples.iter().map(|s| s.time).min().unwrap_or(first.time);
+        let secs = |t: Time| (t - t0).as_seconds_f64();
+        let (lon0, dlon, nlon) = regular_axis(samples.iter().map(|s| s.lon_deg).collect(), "lon")?;
+        let (lat0, dlat, nlat) = regular_axis(samples.iter().map(|s| s.lat_deg).collect(), "lat")?;
+        let (_, dt, nt) = regular_axis(samples.iter().map(|s| secs(s.time)).collect(), "time")?;
+        let nodes = nlon * nlat * nt;
+        if nodes != samples.len() {
+            return Err(bad(format!(
+                "{} samples do not fill the {nlon} x {nlat} x {nt} (lon x lat x time) lattice of {nodes} nodes; give exactly one sample per node",
+                samples.len()
+            )));
+        }
+        let mut u = vec![f64::NAN; nodes];
+        let mut v = vec![f64::NAN; nodes];
+        for (i, s) in samples.iter().enumerate() {
+            let ilon = axis_index(s.lon_deg, lon0, dlon);
+            let ilat = axis_index(s.lat_deg, lat0, dlat);
+            let it = axis_index(secs(s.time), 0.0, dt);
+            let k = (it * nlat + ilat) * nlon + ilon;
+            if !u[k].is_nan() {
+                return Err(bad(format!(
+                    "sample {i} at [{}, {}] {} repeats a node; give each node once",
+                    s.lon_deg,
+                    s.lat_deg,
+                    s.time.to_rfc3339()
+                )));
+            }
+            u[k] = s.u_kn;
+            v[k] = s.v_kn;
+        }
+        Ok(Self {
+            lon0_deg: lon0,
+            dlon_deg: dlon,
+            nlon,
+            lat0_deg: lat0,
+            dlat_deg: dlat,
+            nlat,
+            t0,
+            dt_s: dt,
+            nt,
+            u_kn: u,
+            v_kn: v,
+            speed_sigma_kn,
+            direction_sigma_deg,
+        })
+    }
+
+    /// Lattice shape: (longitudes, latitudes, times).
+    #[must_use]
+    pub fn shape(&self) -> (usize, usize, usize) {
+        (self.nlon, self.nlat, self.nt)
+    }
+
+    /// 1-sigma speed error at every node, knots.
+    #[must_use]
+    pub fn speed_sigma_kn(&self) -> f64 {
+        self.speed_sigma_kn
+    }
+
+    /// 1-sigma direction error at every node, degrees.
+    #[must_use]
+    pub fn direction_sigma_deg(&self) -> f64 {
+        self.direction_sigma_deg
+    }
+
+    /// The interpolated velocity (u east, v north) in knots at a position and time: trilinear
+    /// in longitude, latitude and time, held at the edge value outside the lattice.
+    #[must_use]
+    pub fn velocity_kn_at(&self, lon_deg: f64, lat_deg: f64, time: Time) -> (f64, f64) {
+        self.velocity_kn_at_s(lon_deg, lat_deg, (time - self.t0).as_seconds_f64())
+    }
+
+    /// As [`GriddedField::velocity_kn_at`] with the time in seconds after the first lattice time.
+    pub(crate) fn velocity_kn_at_s(&self, lon_deg: f64, lat_deg: f64, t_s: f64) -> (f64, f64) {
+        // Bring the longitude to the turn nearest the lattice centre (antimeridian lattices).
+        let centre = self.lon0_deg + 0.5 * self.dlon_deg * (self.nlon - 1) as f64;
+        let lon = lon_deg - 360.0 * ((lon_deg - centre) / 360.0).round();
+        let (i0, wi) = bracket(lon, self.lon0_deg, self.dlon_deg, self.nlon);
+        let (j0, wj) = bracket(lat_deg, self.lat0_deg, self.dlat_deg, self.nlat);
+        let (k0, wk) = bracket(t_s, 0.0, self.dt_s, self.nt);
+        let i1 = (i0 + 1).min(self.nlon - 1);
+        let j1 = (j0 + 1).min(self.nlat - 1);
+        let k1 = (k0 + 1).min(self.nt - 1);
+        let idx = |i: usize, j: usize, k: usize| (k * self.nlat + j) * self.nlon + i;
+        let mut u = 0.0;
+        let mut v = 0.0;
+        for (k, wk) in [(k0, 1.0 - wk), (k1, wk)] {
+            for (j, wj) in [(j0, 1.0 - wj), (j1, wj)] {
+                for (i, wi) in [(i0, 1.0 - wi), (i1, wi)] {
+                    let w = wk * wj * wi;
+                    if w != 0.0 {
+                        u += w * self.u_kn[idx(i, j, k)];
+                        v += w * self.v_kn[idx(i, j, k)];
+                    }
+                }
+            }
+        }
+        (u, v)
+    }
+}
+
+/// Lower node index and weight of the upper node along one axis, clamped to the lattice.
+fn bracket(x: f64, start: f64, step: f64, n: usize) -> (usize, f64) {
+    if n == 1 || step == 0.0 {
+        return (0, 0.0);
+    }
+    let f = ((x - start) / step).clamp(0.0, (n - 1) as f64);
+    let i = (f.floor() as usize).min(n - 2);
+    (i, f - i as f64)
+}
+
+/// An estimate of the total water current or of the wind over the drift.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Environment {
+    /// One vector for all times and places.
+    Constant(VectorEstimate),
+    /// A time series: linear interpolation of the (east, north) components between samples,
+    /// held constant before the first and after the last sample. Each sample carries its own
+    /// sigmas (repeat the same sigmas for one error for all); sigmas are interpolated linearly
+    /// too. Times must be strictly increasing.
+    Series(Vec<(Time, VectorEstimate)>),
+    /// A gridded field (velocity components, see [`GriddedField`]).
+    Gridded(GriddedField),
+}
+
+impl Environment {
+    /// The nominal velocity (no error) at a position and time as (east, north) metres per
+    /// second in the direction of motion, reading directions with `convention`
+    /// ([`Convention::CURRENT`] for the current, [`Convention::WIND`] for the wind). The
+    /// convention does not affect gridded fields, whose components already point along the
+    /// motion.
+    ///
+    /// A convenience for callers and tests; the simulation uses a prepared form.
+    /// An empty series gives (0, 0).
+    #[must_use]
+    pub fn velocity_mps(
+        &self,
+        lon_deg: f64,
+        lat_deg: f64,
+        time: Time,
+        convention: Convention,
+    ) -> (f64, f64) {
+        let prepared = Prepared::new(self, time, convention);
+        let s = prepared.sample(Some((lon_deg, lat_deg)), 0.0);
+        (s.u_kn * MPS_PER_KNOT, s.v_kn * MPS_PER_KNOT)
+    }
+
+    /// Whether the value depends on position (a gridded field).
+    #[must_use]
+    pub fn varies_in_space(&self) -> bool {
+        matches!(self, Environment::Gridded(_))
+    }
+
+    pub(crate) fn validate(&self, field: &str) -> Result<(), DriftError> {
+        match self {
+            Environment::Constant(v) => v.validate(field),
+            Environment::Series(samples) => {
+                if samples.is_empty() {
+                    return Err(DriftError::EmptySeries {
+                        field: field.to_owned(),
+                    });
+                }
+                for (i, (t, v)) in samples.iter().enumerate() {
+                    v.validate(&format!("{field}.series[{i}]"))?;
+                    if i > 0 && *t <= samples[i - 1].0 {
+                        return Err(DriftError::UnorderedSeries {
+                            field: field.to_owned(),
+                            index: i,
+                            time: t.to_rfc3339(),
+                            previous: samples[i - 1].0.to_rfc3339(),
+                        });
+                    }
+                }
+                Ok(())
+            }
+            // Checked on construction.
+            Environment::Gridded(_) => Ok(()),
+        }
+    }
+}
+
+/// The nominal value and its sigmas at one place and time (knots, toward).
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct EnvSample {
+    pub u_kn: f64,
+    pub v_kn: f64,
+    /// Unit (east, north) direction of motion to use when (u, v) is zero: the direction the
+    /// estimate states for a calm, or (0, 0) when it states none (a gridded node).
+    pub calm_e: f64,
+    pub calm_n: f64,
+    pub speed_sigma_kn: f64,
+    pub direction_sigma_deg: f64,
+}
+
+/// An environment ready for the inner loop: times in seconds after an origin, vectors as
+/// toward components in knots.
+#[derive(Debug)]
+pub(crate) enum Prepared<'a> {
+    Constant(EnvSample),
+    Series {
+        t_s: Vec<f64>,
+        samples: Vec<EnvSample>,
+    },
+    Gridded {
+        field: &'a GriddedField,
+        /// Seconds from the field's first time to the origin.
+        offset_s: f64,
+    },
+}
+
+fn env_sample(v: &VectorEstimate, convention: Convention) -> EnvSample {
+    let (u, w) = v.velocity_kn(convention);
+    let (calm_e, calm_n) = bearing_to_unit_vector(convention.toward_bearing_deg(v.direction_deg));
+    EnvSample {
+        u_kn: u,
+        v_kn: w,
+        calm_e,
+        calm_n,
+        speed_sigma_kn: v.speed_sigma_kn,
+        direction_sigma_deg: v.direction_sigma_deg,
+    }
+}
+
+impl<'a> Prepared<'a> {
+    pub(crate) fn new(env: &'a Environment, origin: Time, convention: Convention) -> Self {
+        match env {
+            Environment::Constant(v) => Prepared::Constant(env_sample(v, convention)),
+            Environment::Series(s) => Prepared::Series {
+                t_s: s
+                    .iter()
+                    .map(|(t, _)| (*t - origin).as_seconds_f64())
+                    .collect(),
+                samples: s.iter().map(|(_, v)| env_sample(v, convention)).collect(),
+            },
+            Environment::Gridded(field) => Prepared::Gridded {
+                field,
+                offset_s: (origin - field.t0).as_seconds_f64(),
+            },
+        }
+    }
+
+    /// Times (seconds after the origin) where the interpolation has a kink.
+    pub(crate) fn breaks(&self) -> Vec<f64> {
+        match self {
+            Prepared::Constant(_) => Vec::new(),
+            Prepared::Series { t_s, .. } => t_s.clone(),
+            Prepared::Gridded { field, offset_s } => (0..field.nt)
+                .map(|k| k as f64 * field.dt_s - offset_s)
+                .collect(),
+        }
+    }
+
+    pub(crate) fn is_uniform(&self) -> bool {
+        !matches!(self, Prepared::Gridded { .. })
+    }
+
+    /// The nominal sample at `t_s` seconds after the origin; `lon_lat` is needed only for
+    /// gridded fields (a uniform environment ignores it).
+    #[inline]
+    pub(crate) fn sample(&self, lon_lat: Option<(f64, f64)>, t_s: f64) -> EnvSample {
+        match self {
+            Prepared::Constant(s) => *s,
+            Prepared::Series {
+                t_s: times,
+                samples,
+            } => {
+                let n = times.len();
+                if n == 0 {
+                    return EnvSample {
+                        u_kn: 0.0,
+                        v_kn: 0.0,
+                        calm_e: 0.0,
+                        calm_n: 0.0,
+                        speed_sigma_kn: 0.0,
+                        direction_sigma_deg: 0.0,
+                    };
+                }
+                if t_s <= times[0] {
+                    return samples[0];
+                }
+                if t_s >= times[n - 1] {
+                    return samples[n - 1];
+                }
+                // First index with time > t_s; 1..n-1 here.
+                let j = times.partition_point(|&x| x <= t_s);
+                let (a, b) = (&samples[j - 1], &samples[j]);
+                let w = (t_s - times[j - 1]) / (times[j] - times[j - 1]);
+                let lerp = |x: f64, y: f64| x + w * (y - x);
+                // A calm in between takes the direction of the nearer sample.
+                let near = if w < 0.5 { a } else { b };
+                EnvSample {
+                    u_kn: lerp(a.u_kn, b.u_kn),
+                    v_kn: lerp(a.v_kn, b.v_kn),
+                    calm_e: near.calm_e,
+                    calm_n: near.calm_n,
+                    speed_sigma_kn: lerp(a.speed_sigma_kn, b.speed_sigma_kn),
+                    direction_sigma_deg: lerp(a.direction_sigma_deg, b.direction_sigma_deg),
+                }
+            }
+            Prepared::Gridded { field, offset_s } => {
+                let (lon, lat) = lon_lat.unwrap_or((field.lon0_deg, field.lat0_deg));
+                let (u, v) = field.velocity_kn_at_s(lon, lat, t_s + offset_s);
+                EnvSample {
+                    u_kn: u,
+                    v_kn: v,
+                    calm_e: 0.0,
+                    calm_n: 0.0,
+                    speed_sigma_kn: field.speed_sigma_kn,
+                    direction_sigma_deg: field.direction_sigma_deg,
+                }
+            }
+        }
+    }
+}
+
+/// One particle's persistent error draws for one environment.
+#[derive(Debug, Clone, Copy, Default)]
+pub(crate) struct EnvDraw {
+    /// Standard normal draw scaling the speed sigma.
+    pub z_speed: f64,
+    /// Standard normal draw scaling the direction sigma.
+    pub z_dir: f64,
+    /// Unit vector (east, north) of this particle's bearing for a calm (zero nominal speed) of
+    /// an estimate that states no direction (a gridded node), drawn uniformly: such a calm
+    /// has no direction, so its speed error points anywhere.
+    pub calm_e: f64,
+    pub calm_n: f64,
+}
+
+/// The particle's own version of a nominal sample: speed + z_speed * sigma along the nominal
+/// bearing turned by z_dir * sigma (clockwise for positive). A speed that comes out negative
+/// reverses the vector, which keeps the along-direction error an unbiased normal.
+///
+/// Returns the vector (east, north knots) and the unit vector of the turned bearing.
+#[inline]
+pub(crate) fn perturb(s: &EnvSample, d: &EnvDraw) -> ((f64, f64), (f64, f64)) {
+    let speed = s.u_kn.hypot(s.v_kn);
+    let (ue, un) = if speed > 0.0 {
+        (s.u_kn / speed, s.v_kn / speed)
+    } else if s.calm_e != 0.0 || s.calm_n != 0.0 {
+        (s.calm_e, s.calm_n)
+    } else {
+        (d.calm_e, d.calm_n)
+    };
+    let new_speed = speed + d.z_speed * s.speed_sigma_kn;
+    let delta = d.z_dir * s.direction_sigma_deg;
+    let (te, tn) = if delta == 0.0 {
+        (ue, un)
+    } else {
+        let (sn, cs) = delta.to_radians().sin_cos();
+        // A bearing b turned to b + delta: (sin(b+d), cos(b+d)).
+        (ue * cs + un * sn, un * cs - ue * sn)
+    };
+    ((new_speed * te, new_speed * tn), (te, tn))
+}

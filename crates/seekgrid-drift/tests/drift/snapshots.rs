@@ -1,0 +1,89 @@
+//! Positions between records, adrift times and weights.
+
+use crate::common::*;
+use approx::assert_abs_diff_eq;
+use geo::Coord;
+use seekgrid_drift::*;
+
+#[test]
+fn particles_wait_at_their_start_until_adrift_then_move() {
+    // 1 kn toward 090° exactly; adrift times spread over 2 h. Between records positions_at
+    // must reproduce 1 kn x (t - adrift) for every particle (the motion is linear).
+    let mut s = scenario(
+        Environment::Constant(exact(1.0, 90.0)),
+        Environment::Constant(exact(0.0, 0.0)),
+        Leeway::NONE,
+    );
+    s.adrift_latest = hours(2.0);
+    s.particles = 200;
+    let run = run(&s, 4.0, 3600.0, None);
+    let adrift = run.adrift_times();
+    assert!(adrift.iter().all(|t| *t >= t0() && *t <= hours(2.0)));
+    let early = adrift.iter().filter(|t| **t < hours(1.0)).count();
+    assert!(
+        early > 60 && early < 140,
+        "{early} of 200 adrift in the first hour"
+    );
+    for th in [0.0, 0.5, 1.0, 1.7, 2.0, 3.3, 4.0] {
+        let snap = run.positions_at(hours(th));
+        for (i, adrift_i) in adrift.iter().enumerate() {
+            let since_h = ((hours(th) - *adrift_i).as_seconds_f64() / 3600.0).max(0.0);
+            let (e, n) = true_displacement_nm(Coord {
+                x: snap.x_m[i],
+                y: snap.y_m[i],
+            });
+            assert_abs_diff_eq!(e, since_h, epsilon = 1e-6);
+            assert_abs_diff_eq!(n, 0.0, epsilon = 1e-6);
+            assert_eq!(snap.adrift[i], hours(th) >= *adrift_i);
+        }
+    }
+}
+
+#[test]
+fn times_outside_the_run_are_clamped_to_its_ends() {
+    let s = scenario(
+        Environment::Constant(exact(1.0, 0.0)),
+        Environment::Constant(exact(0.0, 0.0)),
+        Leeway::NONE,
+    );
+    let run = run(&s, 2.0, 3600.0, None);
+    assert_eq!(run.positions_at(hours(-3.0)), run.positions_at(hours(0.0)));
+    assert_eq!(run.positions_at(hours(9.0)), run.positions_at(hours(2.0)));
+    assert_eq!(run.record_times(), vec![hours(0.0), hours(1.0), hours(2.0)]);
+    assert_eq!(run.end(), hours(2.0));
+}
+
+#[test]
+fn initial_weights_are_equal_and_sum_to_one() {
+    let mut s = scenario(
+        Environment::Constant(exact(1.0, 0.0)),
+        Environment::Constant(exact(0.0, 0.0)),
+        Leeway::NONE,
+    );
+    s.particles = 7;
+    let run = run(&s, 1.0, 3600.0, None);
+    let w = run.initial_weights();
+    assert_eq!(w.len(), 7);
+    assert_abs_diff_eq!(
+        seekgrid_core::neumaier_sum(w.iter().copied()),
+        1.0,
+        epsilon = 1e-15
+    );
+    assert!(w.iter().all(|x| *x == w[0]));
+    let particles = run.positions_at(hours(1.0)).into_particles(w).unwrap();
+    assert_eq!(particles.len(), 7);
+}
+
+#[test]
+fn a_run_that_ends_at_its_start_keeps_the_start_positions() {
+    let mut s = scenario(
+        Environment::Constant(exact(1.0, 0.0)),
+        Environment::Constant(exact(0.0, 0.0)),
+        Leeway::NONE,
+    );
+    s.position_sigma_m = 100.0;
+    let run = run(&s, 0.0, 600.0, None);
+    let snap = run.positions_at(hours(0.0));
+    assert_eq!(run.record_times(), vec![t0()]);
+    assert!(snap.x_m.iter().any(|x| *x != snap.x_m[0]));
+}
