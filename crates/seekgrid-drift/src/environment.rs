@@ -569,3 +569,81 @@ pub(crate) fn perturb(s: &EnvSample, d: &EnvDraw) -> ((f64, f64), (f64, f64)) {
     };
     ((new_speed * te, new_speed * tn), (te, tn))
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_abs_diff_eq;
+
+    fn draw(z_speed: f64, z_dir: f64) -> EnvDraw {
+        EnvDraw {
+            z_speed,
+            z_dir,
+            calm_e: 1.0,
+            calm_n: 0.0,
+        }
+    }
+
+    fn sample(speed: f64, toward_deg: f64, sig_s: f64, sig_d: f64) -> EnvSample {
+        env_sample(
+            &VectorEstimate {
+                speed_kn: speed,
+                direction_deg: toward_deg,
+                speed_sigma_kn: sig_s,
+                direction_sigma_deg: sig_d,
+            },
+            Convention::Toward,
+        )
+    }
+
+    #[test]
+    fn a_positive_direction_draw_turns_the_vector_clockwise() {
+        // computed: 1 kn toward 000°, +1 sigma of 90° -> 1 kn toward 090°.
+        let ((e, n), _) = perturb(&sample(1.0, 0.0, 0.0, 90.0), &draw(0.0, 1.0));
+        assert_abs_diff_eq!(e, 1.0, epsilon = 1e-12);
+        assert_abs_diff_eq!(n, 0.0, epsilon = 1e-12);
+    }
+
+    #[test]
+    fn a_speed_draw_below_zero_reverses_the_vector() {
+        // 0.2 kn toward 090° with sigma 0.3 kn, draw -2: -0.4 kn, i.e. 0.4 kn toward 270°.
+        let ((e, n), (de, _)) = perturb(&sample(0.2, 90.0, 0.3, 0.0), &draw(-2.0, 0.0));
+        assert_abs_diff_eq!(e, -0.4, epsilon = 1e-12);
+        assert_abs_diff_eq!(n, 0.0, epsilon = 1e-12);
+        assert_abs_diff_eq!(de, 1.0, epsilon = 1e-12);
+    }
+
+    #[test]
+    fn a_calm_estimate_puts_its_speed_error_along_its_stated_direction() {
+        let ((e, n), _) = perturb(&sample(0.0, 180.0, 0.5, 0.0), &draw(1.0, 0.0));
+        assert_abs_diff_eq!(e, 0.0, epsilon = 1e-12);
+        assert_abs_diff_eq!(n, -0.5, epsilon = 1e-12);
+        // A gridded calm states no direction: the particle's own bearing is used.
+        let mut s = sample(0.0, 180.0, 0.5, 0.0);
+        s.calm_e = 0.0;
+        s.calm_n = 0.0;
+        let ((e, n), _) = perturb(&s, &draw(1.0, 0.0));
+        assert_abs_diff_eq!(e, 0.5, epsilon = 1e-12);
+        assert_abs_diff_eq!(n, 0.0, epsilon = 1e-12);
+    }
+
+    #[test]
+    fn bad_estimates_are_refused_by_field() {
+        let v = VectorEstimate {
+            speed_kn: 1.0,
+            direction_deg: 10.0,
+            speed_sigma_kn: -0.1,
+            direction_sigma_deg: 0.0,
+        };
+        assert!(
+            matches!(v.validate("current"), Err(DriftError::Negative { field, .. }) if field == "current.speed_sigma_kn")
+        );
+        // A negative direction is only a bearing written the other way round.
+        let v = VectorEstimate {
+            direction_deg: -90.0,
+            speed_sigma_kn: 0.0,
+            ..v
+        };
+        assert!(v.validate("wind").is_ok());
+    }
+}

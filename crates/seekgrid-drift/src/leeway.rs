@@ -105,3 +105,64 @@ impl Leeway {
         (down * de + cross * dn, down * dn - cross * de)
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_abs_diff_eq;
+
+    #[test]
+    fn positive_crosswind_is_to_the_right_of_downwind() {
+        // computed by hand: wind blowing toward the south (from 000°); facing south, the right
+        // hand points west.
+        let lw = Leeway {
+            crosswind_offset_kn: 0.2,
+            ..Leeway::NONE
+        };
+        let (e, n) = lw.velocity_kn((0.0, -10.0), 1.0, 0.0, 0.0, (0.0, -1.0));
+        assert_abs_diff_eq!(e, -0.2, epsilon = 1e-15);
+        assert_abs_diff_eq!(n, 0.0, epsilon = 1e-15);
+        let (e, _) = lw.velocity_kn((0.0, -10.0), -1.0, 0.0, 0.0, (0.0, -1.0));
+        assert_abs_diff_eq!(e, 0.2, epsilon = 1e-15);
+    }
+
+    #[test]
+    fn leeway_is_linear_in_wind_speed_with_its_error_draws() {
+        let lw = Leeway {
+            downwind_slope: 0.03,
+            downwind_offset_kn: 0.1,
+            downwind_sigma_kn: 0.05,
+            ..Leeway::NONE
+        };
+        // Wind toward the east at 20 kn, downwind error draw +2 sigma: 0.6 + 0.1 + 0.1 kn.
+        let (e, n) = lw.velocity_kn((20.0, 0.0), 1.0, 2.0, 0.0, (1.0, 0.0));
+        assert_abs_diff_eq!(e, 0.8, epsilon = 1e-12);
+        assert_abs_diff_eq!(n, 0.0, epsilon = 1e-12);
+        // In an exact calm the offset acts along the stated direction.
+        let (e, n) = lw.velocity_kn((0.0, 0.0), 1.0, 0.0, 0.0, (0.0, 1.0));
+        assert_abs_diff_eq!(e, 0.0, epsilon = 1e-12);
+        assert_abs_diff_eq!(n, 0.1, epsilon = 1e-12);
+    }
+
+    #[test]
+    fn negative_sigmas_and_rates_are_refused_by_name() {
+        let lw = Leeway {
+            jibe_per_h: -1.0,
+            ..Leeway::NONE
+        };
+        assert!(
+            matches!(lw.validate(), Err(DriftError::Negative { field, .. }) if field == "leeway.jibe_per_h")
+        );
+        let lw = Leeway {
+            downwind_slope: f64::NAN,
+            ..Leeway::NONE
+        };
+        assert!(matches!(lw.validate(), Err(DriftError::NotFinite { .. })));
+        // A negative slope is a legitimate fit (objects that sail upwind are not excluded).
+        let lw = Leeway {
+            crosswind_slope: -0.01,
+            ..Leeway::NONE
+        };
+        assert!(lw.validate().is_ok());
+    }
+}

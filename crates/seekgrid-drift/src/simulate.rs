@@ -737,3 +737,47 @@ pub fn simulate(
         step_s: step_s.min(options.record_every_s),
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_abs_diff_eq;
+
+    #[test]
+    fn the_working_frame_map_turns_true_north_onto_the_projected_meridian() {
+        // The grid image of a short step due true north, by projecting two lon/lat points,
+        // must equal the map applied to (0, 1): this checks the convergence sign and the
+        // point scale against the projection itself. computed.
+        let frame = Frame::for_position(-30.5, 20.2).unwrap();
+        for (lon, lat) in [(-30.5, 20.2), (-35.9, -40.0), (-33.0, 60.0)] {
+            let g = frame.convergence_deg(lon, lat).to_radians();
+            let k = point_scale(&frame, lon, lat);
+            let d = 1e-5;
+            let a = frame.to_xy(lon, lat);
+            let b = frame.to_xy(lon, lat + d);
+            let ground = WGS84_A * (1.0 - WGS84_F * (2.0 - WGS84_F))
+                / (1.0 - WGS84_F * (2.0 - WGS84_F) * lat.to_radians().sin().powi(2)).powf(1.5)
+                * d.to_radians();
+            let (dx, dy) = (b.x - a.x, b.y - a.y);
+            // Grid components of true north: (-sin g, cos g) scaled by k.
+            assert_abs_diff_eq!(dx / ground, -k * g.sin(), epsilon = 1e-6);
+            assert_abs_diff_eq!(dy / ground, k * g.cos(), epsilon = 1e-6);
+            assert!((0.9995..1.001).contains(&k), "{k} at {lon} {lat}");
+        }
+    }
+
+    #[test]
+    fn record_times_end_at_the_end_and_steps_end_at_kinks() {
+        assert_eq!(
+            Lattice::record_times(7200.0, 3600.0),
+            vec![0.0, 3600.0, 7200.0]
+        );
+        assert_eq!(
+            Lattice::record_times(5000.0, 3600.0),
+            vec![0.0, 3600.0, 5000.0]
+        );
+        assert_eq!(Lattice::record_times(0.0, 600.0), vec![0.0]);
+        let l = Lattice::with_step(vec![0.0, 3600.0], 1000.0, &[100.0, 1800.0, 5000.0]);
+        assert_eq!(l.bounds[0], vec![0.0, 100.0, 900.0, 1800.0, 2700.0, 3600.0]);
+    }
+}

@@ -6,8 +6,9 @@ use seekgrid_core::Frame;
 use seekgrid_core::units::METRES_PER_NM;
 use seekgrid_drift::*;
 
-/// Last known position used by most tests: 3.5 degrees west of the zone 26 central meridian, so
-/// the meridian convergence (about 1.2 degrees) and point scale are far from trivial.
+/// Last known position used by most tests: 2.5 degrees east of the central meridian of its UTM
+/// zone (25, 33°W), so the meridian convergence (about 0.86 degrees) and the point scale
+/// (about 1.0004) are far from trivial.
 pub const LKP: (f64, f64) = (-30.5, 20.2);
 
 pub fn t0() -> Time {

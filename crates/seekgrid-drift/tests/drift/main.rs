@@ -2,5 +2,11 @@
 
 mod common;
 mod conventions;
+mod diffusion;
+mod errors;
+mod leeway;
+mod reproducibility;
 mod snapshots;
+mod spread;
+mod stranding;
 mod zero_error;

@@ -29,7 +29,7 @@ fn drift_with_no_error_is_the_vector_sum_of_current_and_leeway_times_time() {
         assert_abs_diff_eq!(e.hypot(n), 7.2391, epsilon = 1e-4);
         // Through the inverse projection and an ellipsoidal geodesic: the working-frame map is
         // taken at the LKP, so the point scale and convergence drift by ~1e-4 and ~0.04° over
-        // these 13 km; hence the looser tolerances (a convergence sign error would be 2.4°).
+        // these 13 km; hence the looser tolerances (a convergence sign error would be 1.7°).
         let (dist, bearing) = geodesic_from_lkp(p);
         assert_abs_diff_eq!(dist, 7.2391, epsilon = 1e-3);
         assert_abs_diff_eq!(bearing, 72.96, epsilon = 0.05);
