@@ -1,0 +1,10 @@
+//! Integration tests of seekgrid-prior, one binary with a module per topic.
+
+mod common;
+mod conservation;
+mod errors;
+mod point;
+mod polygons;
+mod pooling;
+mod rings;
+mod route;
