@@ -100,3 +100,21 @@ pub fn geodesic_from_lkp(p: Coord<f64>) -> (f64, f64) {
         Geodesic.bearing(a, b),
     )
 }
+
+/// The working-frame map at the LKP, built independently of the crate: a true (east, north)
+/// velocity in knots to grid metres per second (convergence from the frame, point scale from
+/// the projection over a Karney geodesic).
+pub fn true_kn_to_grid_mps(e_kn: f64, n_kn: f64) -> Coord<f64> {
+    use geo::{Distance, Geodesic, Point};
+    let f = frame();
+    let g = f.convergence_deg(LKP.0, LKP.1).to_radians();
+    let d = 1e-4;
+    let a = f.to_xy(LKP.0, LKP.1 - d);
+    let b = f.to_xy(LKP.0, LKP.1 + d);
+    let ground = Geodesic.distance(Point::new(LKP.0, LKP.1 - d), Point::new(LKP.0, LKP.1 + d));
+    let k = (b.x - a.x).hypot(b.y - a.y) / ground * seekgrid_core::units::MPS_PER_KNOT;
+    Coord {
+        x: k * (e_kn * g.cos() - n_kn * g.sin()),
+        y: k * (e_kn * g.sin() + n_kn * g.cos()),
+    }
+}

@@ -4,6 +4,7 @@ mod common;
 mod conventions;
 mod diffusion;
 mod errors;
+mod gridded;
 mod leeway;
 mod reproducibility;
 mod snapshots;
