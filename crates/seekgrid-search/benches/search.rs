@@ -1,0 +1,3 @@
+//! Benchmarks of seekgrid-search (see docs/benchmarks/search.md).
+
+fn main() {}
