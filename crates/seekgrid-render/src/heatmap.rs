@@ -1,0 +1,1013 @@
+//! Georeferenced heatmap pictures with title, legend, scale bar, north arrow and caution line.
+
+use crate::canvas::{BODY, Canvas, Rgba8, rgb, text_width, wrap};
+use crate::error::RenderError;
+use crate::georef::{PixelGeometry, aux_xml, utm_wkt1_esri};
+use crate::output::OutputDir;
+use crate::probability::check_layer;
+use crate::vector::{unwrapped_lon_lat, wrap_lon};
+use embedded_graphics::{
+    prelude::*,
+    primitives::{Circle, Line, PrimitiveStyle, Rectangle, Triangle},
+};
+use geo::{Coord, LineString, Polygon};
+use image::ImageEncoder;
+use ndarray::Array2;
+use seekgrid_core::units::METRES_PER_NM;
+use seekgrid_core::{Frame, GridSpec, Hemisphere};
+
+/// How cell values become colours.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum ColourScale {
+    /// Values are cell masses (probabilities); shown as probability per km², on a logarithmic
+    /// scale over at most four decades below the maximum, with the perceptually uniform
+    /// viridis colour map (van der Walt and Smith, 2015, via the `colorous` crate).
+    Density,
+    /// Values are fractions 0..=1 (such as cumulative POD), on a linear scale with the
+    /// perceptually uniform, colour-vision-deficiency friendly cividis map (Nuñez et al. 2018).
+    Fraction,
+}
+
+/// Texts and colour scale of a map picture.
+#[derive(Debug, Clone, Copy)]
+pub struct MapStyle<'a> {
+    /// Title, top left, large.
+    pub title: &'a str,
+    /// Subtitle under the title, e.g. the valid time.
+    pub subtitle: &'a str,
+    /// One caution line at the bottom (wrapped when long).
+    pub caution: &'a str,
+    /// Units of the colour bar, e.g. "probability per km²".
+    pub legend_label: &'a str,
+    /// How values become colours.
+    pub scale: ColourScale,
+}
+
+/// An RGB colour for overlays.
+pub type Rgb = [u8; 3];
+
+#[derive(Debug, Clone)]
+enum Shape {
+    Line(LineString<f64>),
+    Polygon(Polygon<f64>),
+    Points(Vec<Coord<f64>>),
+}
+
+/// Something drawn over the raster: a line, a polygon or points given in the working frame
+/// (metres), with a colour and a width in pixels, an optional fill for polygons, an optional
+/// label drawn on the map and an optional entry in the legend. Drawing is clipped to the map
+/// area.
+#[derive(Debug, Clone)]
+pub struct Overlay {
+    shape: Shape,
+    colour: Rgb,
+    width_px: u32,
+    fill: Option<[u8; 4]>,
+    label: Option<String>,
+    legend: Option<String>,
+}
+
+impl Overlay {
+    /// A line (track, coastline) of `width_px` pixels.
+    #[must_use]
+    pub fn line(line: LineString<f64>, colour: Rgb, width_px: u32) -> Self {
+        Self::new(Shape::Line(line), colour, width_px)
+    }
+
+    /// A polygon outline (search area, segment) of `width_px` pixels, holes outlined too.
+    #[must_use]
+    pub fn polygon(poly: Polygon<f64>, colour: Rgb, width_px: u32) -> Self {
+        Self::new(Shape::Polygon(poly), colour, width_px)
+    }
+
+    /// A polygon filled with `fill` (RGBA, alpha 0..=255 blends over the raster) and outlined
+    /// with `colour` (`width_px` 0 for no outline), e.g. land.
+    #[must_use]
+    pub fn filled_polygon(poly: Polygon<f64>, fill: [u8; 4], colour: Rgb, width_px: u32) -> Self {
+        let mut o = Self::new(Shape::Polygon(poly), colour, width_px);
+        o.fill = Some(fill);
+        o
+    }
+
+    /// Points (datum, commence search points) as discs of diameter `diameter_px` with a white rim.
+    #[must_use]
+    pub fn points(points: Vec<Coord<f64>>, colour: Rgb, diameter_px: u32) -> Self {
+        Self::new(Shape::Points(points), colour, diameter_px)
+    }
+
+    /// Adds a label drawn on the map beside the shape (polygon: at its first vertex; line: at its
+    /// start; points: beside each point).
+    #[must_use]
+    pub fn with_label(mut self, text: &str) -> Self {
+        self.label = Some(text.to_owned());
+        self
+    }
+
+    /// Adds an entry to the legend; entries with the same text are listed once.
+    #[must_use]
+    pub fn with_legend(mut self, text: &str) -> Self {
+        self.legend = Some(text.to_owned());
+        self
+    }
+
+    fn new(shape: Shape, colour: Rgb, width_px: u32) -> Self {
+        Self {
+            shape,
+            colour,
+            width_px,
+            fill: None,
+            label: None,
+            legend: None,
+        }
+    }
+}
+
+/// A PNG picture with the three sidecars that place it on the map.
+#[derive(Debug, Clone)]
+pub struct GeoreferencedPng {
+    /// The PNG file (RGBA).
+    pub png: Vec<u8>,
+    /// World file text (`.pgw`), six lines (see [`PixelGeometry::world_file`]).
+    pub world_file: String,
+    /// GDAL PAM sidecar text (`.png.aux.xml`) naming the EPSG code.
+    pub aux_xml: String,
+    /// ESRI WKT1 text (`.prj`) of the UTM zone.
+    pub prj: String,
+    /// Where the whole picture lies in the working frame (margins included).
+    pub placement: PixelGeometry,
+    /// Pixels per grid cell along each side.
+    pub pixels_per_cell: u32,
+    /// Column and row (pixels) of the map area's upper-left corner in the picture.
+    pub map_origin_px: (u32, u32),
+}
+
+/// Largest picture drawn, in pixels (about 256 MB as RGBA).
+const MAX_PIXELS: u64 = 64_000_000;
+const PAD: i32 = 24;
+const GAP: i32 = 32;
+const PANEL_W: i32 = 300;
+const INK: Rgba8 = [25, 25, 25, 255];
+const MUTED: Rgba8 = [85, 85, 85, 255];
+const CAUTION_INK: Rgba8 = [150, 20, 20, 255];
+const WHITE: Rgba8 = [255, 255, 255, 255];
+/// Colour of cells with value 0.
+const ZERO_CELL: Rgba8 = [228, 228, 228, 255];
+const LINE_H: i32 = 22;
+
+/// Pixels per cell: the largest integer k >= 1 with the map's long side at most 1400 px, so
+/// grids of 700..1400 cells are drawn at 1 px per cell and smaller grids about 900..1400 px.
+#[must_use]
+pub fn pixels_per_cell(grid: &GridSpec) -> u32 {
+    let long = grid.rows().max(grid.cols()).max(1);
+    (1400 / long).max(1) as u32
+}
+
+/// The colour mapping in force for one picture.
+struct Colouring {
+    scale: ColourScale,
+    /// Density: lowest and highest value shown (per km²); Fraction: 0 and 1.
+    lo: f64,
+    hi: f64,
+    /// Density: some non-zero values lie below `lo` and are drawn in the lowest colour.
+    clamped: bool,
+    /// Divides a cell value to get the plotted quantity (cell area in km² for Density).
+    divisor: f64,
+}
+
+impl Colouring {
+    fn new(scale: ColourScale, values: &Array2<f64>, cell_area_km2: f64) -> Self {
+        match scale {
+            ColourScale::Fraction => Self {
+                scale,
+                lo: 0.0,
+                hi: 1.0,
+                clamped: false,
+                divisor: 1.0,
+            },
+            ColourScale::Density => {
+                let (mut min_pos, mut max) = (f64::INFINITY, 0.0f64);
+                for &v in values {
+                    if v > 0.0 {
+                        min_pos = min_pos.min(v);
+                        max = max.max(v);
+                    }
+                }
+                if max <= 0.0 {
+                    return Self {
+                        scale,
+                        lo: 0.1,
+                        hi: 1.0,
+                        clamped: false,
+                        divisor: cell_area_km2,
+                    };
+                }
+                let hi = max / cell_area_km2;
+                let floor = hi * 1e-4;
+                let mut lo = (min_pos / cell_area_km2).max(floor);
+                if lo >= hi * (1.0 - 1e-12) {
+                    lo = hi / 10.0;
+                }
+                Self {
+                    scale,
+                    lo,
+                    hi,
+                    clamped: min_pos / cell_area_km2 < lo * (1.0 - 1e-12),
+                    divisor: cell_area_km2,
+                }
+            }
+        }
+    }
+
+    /// Position 0..=1 along the colour bar of a plotted quantity.
+    fn t(&self, q: f64) -> f64 {
+        match self.scale {
+            ColourScale::Fraction => q.clamp(0.0, 1.0),
+            ColourScale::Density => ((q / self.lo).ln() / (self.hi / self.lo).ln()).clamp(0.0, 1.0),
+        }
+    }
+
+    fn colour_at(&self, t: f64) -> Rgba8 {
+        let c = match self.scale {
+            ColourScale::Density => colorous::VIRIDIS.eval_continuous(t),
+            ColourScale::Fraction => colorous::CIVIDIS.eval_continuous(t),
+        };
+        [c.r, c.g, c.b, 255]
+    }
+
+    fn colour(&self, value: f64) -> Rgba8 {
+        if value <= 0.0 {
+            ZERO_CELL
+        } else {
+            self.colour_at(self.t(value / self.divisor))
+        }
+    }
+
+    /// Tick values and labels along the colour bar.
+    fn ticks(&self) -> Vec<(f64, String)> {
+        match self.scale {
+            ColourScale::Fraction => (0..=5)
+                .map(|i| {
+                    let v = f64::from(i) / 5.0;
+                    (v, format_tick(v))
+                })
+                .collect(),
+            ColourScale::Density => {
+                let decades = (self.hi / self.lo).log10();
+                let mults: &[f64] = if decades < 1.5 {
+                    &[1.0, 2.0, 5.0]
+                } else {
+                    &[1.0]
+                };
+                let e0 = self.lo.log10().floor() as i32;
+                let e1 = self.hi.log10().ceil() as i32;
+                let mut out = Vec::new();
+                for e in e0..=e1 {
+                    for m in mults {
+                        let v = m * 10f64.powi(e);
+                        if v >= self.lo * (1.0 - 1e-9) && v <= self.hi * (1.0 + 1e-9) {
+                            out.push((v, format_tick(v)));
+                        }
+                    }
+                }
+                if out.len() < 2 {
+                    out = vec![
+                        (self.lo, format_tick(self.lo)),
+                        (self.hi, format_tick(self.hi)),
+                    ];
+                }
+                out
+            }
+        }
+    }
+}
+
+/// A tick label: plain decimals from 0.001 up, `2e-5` style below; two significant digits.
+fn format_tick(v: f64) -> String {
+    if v == 0.0 {
+        return "0".into();
+    }
+    let e = v.abs().log10().floor() as i32;
+    let m = v / 10f64.powi(e);
+    let m = (m * 10.0).round() / 10.0;
+    if (-3..=5).contains(&e) {
+        let decimals = (-e + i32::from(m.fract().abs() > 1e-9)).max(0) as usize;
+        format!("{v:.decimals$}")
+    } else if m.fract().abs() < 1e-9 {
+        format!("{}e{e}", m as i64)
+    } else {
+        format!("{m:.1}e{e}")
+    }
+}
+
+/// The largest "nice" length (1, 2, 5 x 10^n) not longer than `max`.
+fn nice_length(max: f64) -> f64 {
+    let e = max.log10().floor();
+    let base = 10f64.powf(e);
+    [5.0, 2.0, 1.0]
+        .into_iter()
+        .map(|m| m * base)
+        .find(|l| *l <= max)
+        .unwrap_or(base)
+}
+
+fn fmt_len(v: f64) -> String {
+    if v >= 1.0 || v == 0.0 {
+        format!("{}", v.round() as i64)
+    } else {
+        let s = format!("{v:.3}");
+        s.trim_end_matches('0').trim_end_matches('.').to_owned()
+    }
+}
+
+/// The heatmap picture of one layer with its sidecars.
+///
+/// The map area has `k` pixels per cell ([`pixels_per_cell`]), north (grid north) up, each pixel
+/// the colour of its cell; cells of value 0 are light grey. Around it: title and subtitle (top),
+/// colour bar with tick labels and `legend_label` (right), scale bar in km and NM (bottom left,
+/// grid distances; the UTM scale factor, within 0.1 % inside a zone, is ignored), a north arrow
+/// pointing to true north (rotated from grid north by the meridian convergence at the grid
+/// centre, [`Frame::convergence_deg`]), the CRS, and the caution line at the bottom. Overlays
+/// are drawn over the raster, clipped to the map area. Text uses the 10 x 20 pixel Latin-1 font
+/// of `embedded-graphics` (title at twice that), so nothing depends on system fonts.
+///
+/// The sidecars describe the whole picture: pixel size `cell_m / k`, the map-area pixels lying
+/// exactly on the grid cells and the margins extending outside the grid.
+///
+/// `values` are cell masses for [`ColourScale::Density`] (shown per km²) and fractions 0..=1
+/// for [`ColourScale::Fraction`].
+///
+/// # Errors
+/// [`RenderError::ShapeMismatch`] when `values` is not the grid's shape,
+/// [`RenderError::BadCellValue`] for negative or non-finite values (or above 1 for Fraction),
+/// [`RenderError::PictureTooLarge`] beyond 64 M pixels, [`RenderError::UnsupportedCrs`] when the
+/// frame is not a UTM zone, [`RenderError::Png`] when encoding fails.
+pub fn heatmap_png(
+    frame: &Frame,
+    grid: &GridSpec,
+    values: &Array2<f64>,
+    style: &MapStyle,
+    overlays: &[Overlay],
+) -> Result<GeoreferencedPng, RenderError> {
+    let hi = match style.scale {
+        ColourScale::Density => f64::INFINITY,
+        ColourScale::Fraction => 1.0,
+    };
+    check_layer("heatmap values", grid, values, hi)?;
+    let prj = utm_wkt1_esri(frame.epsg())?;
+    let k = pixels_per_cell(grid);
+    let (rows, cols) = (grid.rows(), grid.cols());
+    let map_w = cols as u64 * u64::from(k);
+    let map_h = rows as u64 * u64::from(k);
+    if map_w * map_h > MAX_PIXELS {
+        return Err(RenderError::PictureTooLarge {
+            width: map_w,
+            height: map_h,
+            limit: MAX_PIXELS,
+        });
+    }
+    let (map_w, map_h) = (map_w as i32, map_h as i32);
+    let colouring = Colouring::new(style.scale, values, grid.cell_area_m2() / 1e6);
+
+    // Layout.
+    let title_h = if style.title.is_empty() { 0 } else { 40 };
+    let sub_h = if style.subtitle.is_empty() {
+        0
+    } else {
+        LINE_H + 4
+    };
+    // Room on the left for latitude labels such as 31°15'N.
+    let map_x = PAD + 90;
+    let map_y = PAD + title_h + 8 + sub_h + 14;
+    let panel_x = map_x + map_w + GAP;
+    let legend_lines = wrap(style.legend_label, (PANEL_W / 10) as usize);
+    let legend_entries = legend_entries(overlays);
+    let bar_h = 300;
+    let panel_h = 150
+        + legend_lines.len() as i32 * LINE_H
+        + 12
+        + bar_h
+        + 20
+        + 34
+        + legend_entries.len() as i32 * (LINE_H + 6)
+        + 20
+        + 3 * LINE_H;
+    let width_from_map = panel_x + PANEL_W + PAD;
+    let width_from_title =
+        PAD + text_width(style.title, BODY, 2).max(text_width(style.subtitle, BODY, 1)) + PAD;
+    let width = width_from_map.max(width_from_title).max(640);
+    let caution_lines = wrap(style.caution, ((width - 2 * PAD) / 10) as usize);
+    let scale_h = 84;
+    let lon_labels_h = 30;
+    let body_h = map_h.max(panel_h);
+    let height =
+        map_y + body_h + lon_labels_h + 12 + scale_h + caution_lines.len() as i32 * LINE_H + PAD;
+    let total = width as u64 * height as u64;
+    if total > MAX_PIXELS + 20_000_000 {
+        return Err(RenderError::PictureTooLarge {
+            width: width as u64,
+            height: height as u64,
+            limit: MAX_PIXELS,
+        });
+    }
+    let mut cv = Canvas::new(width as u32, height as u32, WHITE);
+
+    // Raster: each pixel its cell's colour.
+    for r in 0..rows {
+        for c in 0..cols {
+            let col = colouring.colour(values[[r, c]]);
+            cv.fill_rect(
+                i64::from(map_x) + (c as i64) * i64::from(k),
+                i64::from(map_y) + (r as i64) * i64::from(k),
+                i64::from(k),
+                i64::from(k),
+                col,
+            );
+        }
+    }
+    // Frame just outside the map area, so no map pixel is covered.
+    let frame_style = PrimitiveStyle::with_stroke(rgb(MUTED), 1);
+    let _ = Rectangle::new(
+        Point::new(map_x - 1, map_y - 1),
+        Size::new(map_w as u32 + 2, map_h as u32 + 2),
+    )
+    .into_styled(frame_style)
+    .draw(&mut cv);
+
+    let pixel_m = grid.cell_m() / f64::from(k);
+    let to_px = |p: Coord<f64>| -> (f64, f64) {
+        (
+            f64::from(map_x) + (p.x - grid.west_m()) / pixel_m,
+            f64::from(map_y) + (grid.north_m() - p.y) / pixel_m,
+        )
+    };
+    draw_overlays(&mut cv, overlays, &to_px, (map_x, map_y, map_w, map_h));
+    draw_graticule_ticks(&mut cv, frame, grid, (map_x, map_y, map_w, map_h), pixel_m);
+
+    // Title and subtitle.
+    if !style.title.is_empty() {
+        cv.text(style.title, PAD, PAD, BODY, INK, 2);
+    }
+    if !style.subtitle.is_empty() {
+        cv.text(style.subtitle, PAD, PAD + title_h + 6, BODY, MUTED, 1);
+    }
+
+    // Right panel: north arrow, legend, CRS.
+    let mut y = map_y;
+    let (clon, clat) = frame.to_lon_lat(Coord {
+        x: grid.west_m() + cols as f64 * grid.cell_m() / 2.0,
+        y: grid.north_m() - rows as f64 * grid.cell_m() / 2.0,
+    });
+    let gamma = frame.convergence_deg(clon, clat);
+    draw_north_arrow(&mut cv, panel_x, y, gamma);
+    y += 150;
+    for line in &legend_lines {
+        cv.text(line, panel_x, y, BODY, INK, 1);
+        y += LINE_H;
+    }
+    y += 12;
+    draw_colour_bar(&mut cv, &colouring, panel_x, y, bar_h);
+    y += bar_h + 20;
+    // Zero swatch.
+    cv.fill_rect(i64::from(panel_x), i64::from(y), 28, 20, ZERO_CELL);
+    let _ = Rectangle::new(Point::new(panel_x, y), Size::new(28, 20))
+        .into_styled(PrimitiveStyle::with_stroke(rgb(MUTED), 1))
+        .draw(&mut cv);
+    cv.text("0 (none)", panel_x + 40, y, BODY, INK, 1);
+    y += 34;
+    for o in &legend_entries {
+        draw_legend_sample(&mut cv, o, panel_x, y);
+        cv.text(
+            o.legend.as_deref().unwrap_or(""),
+            panel_x + 40,
+            y,
+            BODY,
+            INK,
+            1,
+        );
+        y += LINE_H + 6;
+    }
+    y += 20;
+    let zone = frame.zone();
+    let hemi = match zone.hemisphere() {
+        Hemisphere::North => 'N',
+        Hemisphere::South => 'S',
+    };
+    cv.text(
+        &format!("WGS 84 / UTM {}{hemi}", zone.zone()),
+        panel_x,
+        y,
+        BODY,
+        MUTED,
+        1,
+    );
+    cv.text(
+        &format!("EPSG:{}", frame.epsg()),
+        panel_x,
+        y + LINE_H,
+        BODY,
+        MUTED,
+        1,
+    );
+    cv.text(
+        &format!("cell {} m", fmt_len(grid.cell_m())),
+        panel_x,
+        y + 2 * LINE_H,
+        BODY,
+        MUTED,
+        1,
+    );
+
+    // Scale bar under the map.
+    let sy = map_y + body_h + lon_labels_h + 12;
+    draw_scale_bar(&mut cv, map_x, sy, pixel_m, map_w.max(400));
+
+    // Caution line(s).
+    let mut cy = sy + scale_h;
+    for line in &caution_lines {
+        cv.text(line, PAD, cy, BODY, CAUTION_INK, 1);
+        cy += LINE_H;
+    }
+
+    let mut png = Vec::new();
+    image::codecs::png::PngEncoder::new(&mut png)
+        .write_image(
+            cv.img.as_raw(),
+            width as u32,
+            height as u32,
+            image::ExtendedColorType::Rgba8,
+        )
+        .map_err(|e| RenderError::Png(e.to_string()))?;
+    let placement = PixelGeometry {
+        west_m: grid.west_m() - f64::from(map_x) * pixel_m,
+        north_m: grid.north_m() + f64::from(map_y) * pixel_m,
+        pixel_m,
+    };
+    Ok(GeoreferencedPng {
+        png,
+        world_file: placement.world_file(),
+        aux_xml: aux_xml(frame.epsg()),
+        prj,
+        placement,
+        pixels_per_cell: k,
+        map_origin_px: (map_x as u32, map_y as u32),
+    })
+}
+
+fn legend_entries(overlays: &[Overlay]) -> Vec<&Overlay> {
+    let mut seen: Vec<&str> = Vec::new();
+    let mut out = Vec::new();
+    for o in overlays {
+        if let Some(l) = &o.legend {
+            if !seen.contains(&l.as_str()) {
+                seen.push(l);
+                out.push(o);
+            }
+        }
+    }
+    out
+}
+
+fn draw_legend_sample(cv: &mut Canvas, o: &Overlay, x: i32, y: i32) {
+    let c = [o.colour[0], o.colour[1], o.colour[2], 255];
+    match &o.shape {
+        Shape::Line(_) => {
+            let _ = Line::new(Point::new(x, y + 10), Point::new(x + 28, y + 10))
+                .into_styled(PrimitiveStyle::with_stroke(rgb(c), o.width_px.max(1)))
+                .draw(cv);
+        }
+        Shape::Polygon(_) => {
+            if let Some(f) = o.fill {
+                cv.fill_rect(i64::from(x), i64::from(y), 28, 20, f);
+            }
+            if o.width_px > 0 {
+                let _ = Rectangle::new(Point::new(x, y), Size::new(28, 20))
+                    .into_styled(PrimitiveStyle::with_stroke(rgb(c), o.width_px))
+                    .draw(cv);
+            }
+        }
+        Shape::Points(_) => draw_point(cv, x + 14, y + 10, c, o.width_px),
+    }
+}
+
+fn draw_point(cv: &mut Canvas, x: i32, y: i32, c: Rgba8, diameter: u32) {
+    let d = diameter.max(3);
+    let _ = Circle::with_center(Point::new(x, y), d + 4)
+        .into_styled(PrimitiveStyle::with_fill(rgb(WHITE)))
+        .draw(cv);
+    let _ = Circle::with_center(Point::new(x, y), d)
+        .into_styled(PrimitiveStyle::with_fill(rgb(c)))
+        .draw(cv);
+}
+
+fn clamp_px(v: f64) -> i32 {
+    v.clamp(-1e6, 1e6).round() as i32
+}
+
+fn draw_overlays(
+    cv: &mut Canvas,
+    overlays: &[Overlay],
+    to_px: &dyn Fn(Coord<f64>) -> (f64, f64),
+    map: (i32, i32, i32, i32),
+) {
+    let (mx, my, mw, mh) = map;
+    let clip = (
+        i64::from(mx),
+        i64::from(my),
+        i64::from(mx + mw),
+        i64::from(my + mh),
+    );
+    let ring_px =
+        |ls: &LineString<f64>| -> Vec<(f64, f64)> { ls.0.iter().map(|c| to_px(*c)).collect() };
+    for o in overlays {
+        let c = [o.colour[0], o.colour[1], o.colour[2], 255];
+        let mut anchor: Option<(f64, f64)> = None;
+        match &o.shape {
+            Shape::Line(ls) => {
+                let pts = ring_px(ls);
+                anchor = pts.first().copied();
+                cv.stroke_path(&pts, f64::from(o.width_px), c, clip);
+            }
+            Shape::Polygon(poly) => {
+                let rings: Vec<Vec<(f64, f64)>> = std::iter::once(poly.exterior())
+                    .chain(poly.interiors())
+                    .map(&ring_px)
+                    .collect();
+                if let Some(f) = o.fill {
+                    cv.fill_rings(&rings, f, clip);
+                }
+                if o.width_px > 0 {
+                    for r in &rings {
+                        cv.stroke_path(r, f64::from(o.width_px), c, clip);
+                    }
+                }
+                anchor = rings.first().and_then(|r| r.first().copied());
+            }
+            Shape::Points(pts) => {
+                for p in pts {
+                    let (x, y) = to_px(*p);
+                    if x >= f64::from(mx)
+                        && y >= f64::from(my)
+                        && x < f64::from(mx + mw)
+                        && y < f64::from(my + mh)
+                    {
+                        draw_point(cv, clamp_px(x - 0.5), clamp_px(y - 0.5), c, o.width_px);
+                        if let Some(l) = &o.label {
+                            cv.text_halo(l, clamp_px(x) + 8, clamp_px(y) - 22, INK, WHITE);
+                        }
+                    }
+                }
+            }
+        }
+        if let (Some(l), Some((x, y))) = (&o.label, anchor) {
+            let inside = x >= f64::from(mx)
+                && y >= f64::from(my)
+                && x < f64::from(mx + mw)
+                && y < f64::from(my + mh);
+            if inside {
+                cv.text_halo(l, clamp_px(x) + 4, clamp_px(y) + 4, INK, WHITE);
+            }
+        }
+    }
+}
+
+/// Tick spacings for graticule labels, degrees (0.1' up to 30°).
+const GRATICULE_STEPS_DEG: [f64; 17] = [
+    0.1 / 60.0,
+    0.2 / 60.0,
+    0.5 / 60.0,
+    1.0 / 60.0,
+    2.0 / 60.0,
+    5.0 / 60.0,
+    10.0 / 60.0,
+    15.0 / 60.0,
+    20.0 / 60.0,
+    30.0 / 60.0,
+    1.0,
+    2.0,
+    5.0,
+    10.0,
+    15.0,
+    20.0,
+    30.0,
+];
+
+/// The smallest step giving at most `max_ticks` multiples in `lo..=hi` (None when even the
+/// largest gives more, or `max_ticks` is 0).
+fn graticule_step(lo: f64, hi: f64, max_ticks: i32) -> Option<f64> {
+    if max_ticks < 1 {
+        return None;
+    }
+    GRATICULE_STEPS_DEG.into_iter().find(|s| {
+        let n = (hi / s).floor() - (lo / s).ceil() + 1.0;
+        n <= f64::from(max_ticks) && n >= 1.0
+    })
+}
+
+/// Degrees and minutes, e.g. `31°15'N`, `28°20.5'W`, `0°`.
+fn format_dm(value: f64, positive: char, negative: char) -> String {
+    let total_tenths = (value.abs() * 600.0).round() as i64;
+    let (d, tenths) = (total_tenths / 600, total_tenths % 600);
+    let h = if total_tenths == 0 || (positive == 'E' && d == 180 && tenths == 0) {
+        String::new()
+    } else if value > 0.0 {
+        positive.to_string()
+    } else {
+        negative.to_string()
+    };
+    if tenths == 0 {
+        format!("{d}\u{b0}{h}")
+    } else if tenths % 10 == 0 {
+        format!("{d}\u{b0}{:02}'{h}", tenths / 10)
+    } else {
+        format!("{d}\u{b0}{:04.1}'{h}", tenths as f64 / 10.0)
+    }
+}
+
+/// Root of a monotonic function on [a, b] by bisection (f(a) and f(b) bracket `target`).
+fn bisect(f: &dyn Fn(f64) -> f64, mut a: f64, mut b: f64, target: f64) -> f64 {
+    let rising = f(b) >= f(a);
+    for _ in 0..60 {
+        let m = 0.5 * (a + b);
+        if (f(m) < target) == rising {
+            a = m;
+        } else {
+            b = m;
+        }
+    }
+    0.5 * (a + b)
+}
+
+/// Longitude ticks on the bottom (labelled) and top edges and latitude ticks on the left
+/// (labelled) and right edges of the map, where the meridians and parallels cross them (they
+/// are not parallel to the grid: meridian convergence).
+fn draw_graticule_ticks(
+    cv: &mut Canvas,
+    frame: &Frame,
+    grid: &GridSpec,
+    map: (i32, i32, i32, i32),
+    pixel_m: f64,
+) {
+    let (mx, my, mw, mh) = map;
+    let (west, north) = (grid.west_m(), grid.north_m());
+    let east = west + f64::from(mw) * pixel_m;
+    let south = north - f64::from(mh) * pixel_m;
+    let tick = PrimitiveStyle::with_stroke(rgb(INK), 1);
+    let lon = |x: f64, y: f64| unwrapped_lon_lat(frame, Coord { x, y })[0];
+    let lat = |x: f64, y: f64| unwrapped_lon_lat(frame, Coord { x, y })[1];
+    for (y_m, py, labelled) in [(south, my + mh, true), (north, my - 1, false)] {
+        let f = |x: f64| lon(x, y_m);
+        let (l0, l1) = (f(west), f(east));
+        let Some(step) = graticule_step(l0, l1, (mw / 140).min(6)) else {
+            continue;
+        };
+        let mut k = (l0 / step).ceil();
+        while k * step <= l1 {
+            let x = bisect(&f, west, east, k * step);
+            let px = mx + ((x - west) / pixel_m).round() as i32;
+            let (a, b) = if labelled { (py, py + 6) } else { (py - 6, py) };
+            let _ = Line::new(Point::new(px, a), Point::new(px, b))
+                .into_styled(tick)
+                .draw(cv);
+            if labelled {
+                let s = format_dm(wrap_lon(k * step), 'E', 'W');
+                cv.text(&s, px - text_width(&s, BODY, 1) / 2, py + 8, BODY, INK, 1);
+            }
+            k += 1.0;
+        }
+    }
+    for (x_m, px, labelled) in [(west, mx - 1, true), (east, mx + mw, false)] {
+        let f = |y: f64| lat(x_m, y);
+        let (l0, l1) = (f(south), f(north));
+        let Some(step) = graticule_step(l0, l1, (mh / 70).min(6)) else {
+            continue;
+        };
+        let mut k = (l0 / step).ceil();
+        while k * step <= l1 {
+            let y = bisect(&f, south, north, k * step);
+            let py = my + ((north - y) / pixel_m).round() as i32;
+            let (a, b) = if labelled { (px - 6, px) } else { (px, px + 6) };
+            let _ = Line::new(Point::new(a, py), Point::new(b, py))
+                .into_styled(tick)
+                .draw(cv);
+            if labelled {
+                let s = format_dm(k * step, 'N', 'S');
+                cv.text(&s, px - 10 - text_width(&s, BODY, 1), py - 10, BODY, INK, 1);
+            }
+            k += 1.0;
+        }
+    }
+}
+
+fn draw_north_arrow(cv: &mut Canvas, x: i32, y: i32, convergence_deg: f64) {
+    // Grid north is `convergence_deg` clockwise from true north, so true north is that angle
+    // anticlockwise from the picture's up (Karney 2011, eq. 10 sign convention; see Frame).
+    let g = convergence_deg.to_radians();
+    let (dx, dy) = (-g.sin(), -g.cos());
+    let (cx, cy) = (f64::from(x + 40), f64::from(y + 70));
+    let half = 42.0;
+    let tip = (cx + dx * half, cy + dy * half);
+    let tail = (cx - dx * half, cy - dy * half);
+    let (px, py) = (-dy, dx);
+    let base = (cx + dx * (half - 26.0), cy + dy * (half - 26.0));
+    let p = |v: (f64, f64)| Point::new(v.0.round() as i32, v.1.round() as i32);
+    let _ = Line::new(p(tail), p(base))
+        .into_styled(PrimitiveStyle::with_stroke(rgb(INK), 3))
+        .draw(cv);
+    let _ = Triangle::new(
+        p(tip),
+        p((base.0 + px * 11.0, base.1 + py * 11.0)),
+        p((base.0 - px * 11.0, base.1 - py * 11.0)),
+    )
+    .into_styled(PrimitiveStyle::with_fill(rgb(INK)))
+    .draw(cv);
+    cv.text(
+        "N",
+        (tip.0 + dx * 14.0 - 5.0).round() as i32,
+        (tip.1 + dy * 14.0 - 10.0).round() as i32,
+        BODY,
+        INK,
+        1,
+    );
+    let tx = x + 96;
+    cv.text("true north", tx, y + 34, BODY, INK, 1);
+    let side = if convergence_deg >= 0.0 { "E" } else { "W" };
+    cv.text(
+        &format!("grid north {:.2}\u{b0} {side}", convergence_deg.abs()),
+        tx,
+        y + 34 + LINE_H,
+        BODY,
+        MUTED,
+        1,
+    );
+    cv.text("(map up = grid N)", tx, y + 34 + 2 * LINE_H, BODY, MUTED, 1);
+}
+
+fn draw_colour_bar(cv: &mut Canvas, col: &Colouring, x: i32, y: i32, h: i32) {
+    let bar_w = 32;
+    for i in 0..h {
+        let t = 1.0 - (f64::from(i) + 0.5) / f64::from(h);
+        cv.fill_rect(i64::from(x), i64::from(y + i), bar_w, 1, col.colour_at(t));
+    }
+    let _ = Rectangle::new(
+        Point::new(x - 1, y - 1),
+        Size::new(bar_w as u32 + 2, h as u32 + 2),
+    )
+    .into_styled(PrimitiveStyle::with_stroke(rgb(MUTED), 1))
+    .draw(cv);
+    for (i, (v, label)) in col.ticks().into_iter().enumerate() {
+        let t = col.t(v);
+        let ty = y + ((1.0 - t) * f64::from(h - 1)).round() as i32;
+        let _ = Line::new(
+            Point::new(x + bar_w as i32, ty),
+            Point::new(x + bar_w as i32 + 7, ty),
+        )
+        .into_styled(PrimitiveStyle::with_stroke(rgb(INK), 1))
+        .draw(cv);
+        let label = if i == 0 && col.clamped && (v - col.lo).abs() <= col.lo * 1e-9 {
+            format!("\u{2264}{label}")
+        } else {
+            label
+        };
+        cv.text(&label, x + bar_w as i32 + 12, ty - 10, BODY, INK, 1);
+    }
+}
+
+fn draw_scale_bar(cv: &mut Canvas, x: i32, y: i32, pixel_m: f64, map_w: i32) {
+    let max_m = f64::from(map_w) / 3.0 * pixel_m;
+    let bar = |cv: &mut Canvas, by: i32, len_px: i32, segments: i32| {
+        for s in 0..segments {
+            let x0 = x + len_px * s / segments;
+            let x1 = x + len_px * (s + 1) / segments;
+            let c = if s % 2 == 0 { INK } else { WHITE };
+            cv.fill_rect(i64::from(x0), i64::from(by), i64::from(x1 - x0), 8, c);
+        }
+        let _ = Rectangle::new(Point::new(x, by), Size::new(len_px as u32 + 1, 8))
+            .into_styled(PrimitiveStyle::with_stroke(rgb(INK), 1))
+            .draw(cv);
+    };
+    // Kilometres above, labels over the bar.
+    let km = nice_length(max_m / 1000.0);
+    let km_px = (km * 1000.0 / pixel_m).round() as i32;
+    let segs = if (km / nice_unit(km) - 5.0).abs() < 1e-9 {
+        5
+    } else {
+        4
+    };
+    cv.text("0", x - 4, y, BODY, INK, 1);
+    let label = format!("{} km", fmt_len(km));
+    cv.text(&label, x + km_px - 5, y, BODY, INK, 1);
+    bar(cv, y + 24, km_px, segs);
+    // Nautical miles below, labels under the bar.
+    let nm = nice_length(max_m / METRES_PER_NM);
+    let nm_px = (nm * METRES_PER_NM / pixel_m).round() as i32;
+    let segs = if (nm / nice_unit(nm) - 5.0).abs() < 1e-9 {
+        5
+    } else {
+        4
+    };
+    bar(cv, y + 36, nm_px, segs);
+    cv.text("0", x - 4, y + 50, BODY, INK, 1);
+    cv.text(
+        &format!("{} NM", fmt_len(nm)),
+        x + nm_px - 5,
+        y + 50,
+        BODY,
+        INK,
+        1,
+    );
+}
+
+fn nice_unit(v: f64) -> f64 {
+    10f64.powf(v.log10().floor())
+}
+
+/// Writes `stem.png`, `stem.pgw`, `stem.png.aux.xml` and `stem.prj` into `dir`, each atomically.
+///
+/// # Errors
+/// As [`OutputDir::write`].
+pub fn write_png_set(
+    dir: &OutputDir,
+    stem: &str,
+    png: &GeoreferencedPng,
+) -> Result<(), RenderError> {
+    dir.write(&format!("{stem}.png"), &png.png)?;
+    dir.write(&format!("{stem}.pgw"), png.world_file.as_bytes())?;
+    dir.write(&format!("{stem}.png.aux.xml"), png.aux_xml.as_bytes())?;
+    dir.write(&format!("{stem}.prj"), png.prj.as_bytes())?;
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use seekgrid_core::{DEFAULT_MAX_CELLS, UtmZone};
+
+    #[test]
+    fn pixels_per_cell_brings_small_grids_to_about_a_thousand_pixels() {
+        let g = |r, c| GridSpec::new(0.0, 0.0, 100.0, r, c, DEFAULT_MAX_CELLS).unwrap();
+        assert_eq!(pixels_per_cell(&g(100, 80)), 14);
+        assert_eq!(pixels_per_cell(&g(3000, 10)), 1);
+        assert_eq!(pixels_per_cell(&g(1400, 1400)), 1);
+        assert_eq!(pixels_per_cell(&g(467, 300)), 2);
+        for n in [1usize, 7, 50, 333, 466, 700] {
+            let k = pixels_per_cell(&g(n, n)) as usize;
+            assert!(k * n <= 1400 && k * n > 700, "{n} cells -> {k} px per cell");
+        }
+    }
+
+    #[test]
+    fn map_pixels_land_exactly_on_the_grid_cells() {
+        let frame = Frame::new(UtmZone::from_epsg(32620).unwrap());
+        let grid = GridSpec::new(480_000.0, 4_900_000.0, 250.0, 40, 60, DEFAULT_MAX_CELLS).unwrap();
+        let mut v = Array2::zeros((40, 60));
+        v[[0, 0]] = 1.0;
+        let style = MapStyle {
+            title: "t",
+            subtitle: "",
+            caution: "c",
+            legend_label: "probability per km\u{b2}",
+            scale: ColourScale::Density,
+        };
+        let out = heatmap_png(&frame, &grid, &v, &style, &[]).unwrap();
+        let k = f64::from(out.pixels_per_cell);
+        assert_eq!(out.placement.pixel_m, 250.0 / k);
+        let (mx, my) = out.map_origin_px;
+        // The upper-left corner of map pixel (mx, my) is the grid's north-west corner.
+        let west = out.placement.west_m + f64::from(mx) * out.placement.pixel_m;
+        let north = out.placement.north_m - f64::from(my) * out.placement.pixel_m;
+        assert!((west - 480_000.0).abs() < 1e-6 && (north - 4_900_000.0).abs() < 1e-6);
+        let img = image::load_from_memory(&out.png).unwrap().to_rgba8();
+        // The only cell with mass is drawn in the top colour of viridis; its neighbour is grey.
+        let top = colorous::VIRIDIS.eval_continuous(1.0);
+        assert_eq!(img.get_pixel(mx, my).0, [top.r, top.g, top.b, 255]);
+        let kk = out.pixels_per_cell;
+        assert_eq!(
+            img.get_pixel(mx + kk - 1, my + kk - 1).0,
+            [top.r, top.g, top.b, 255]
+        );
+        assert_eq!(img.get_pixel(mx + kk, my).0, ZERO_CELL);
+    }
+
+    #[test]
+    fn tick_labels_are_short_and_readable() {
+        assert_eq!(format_tick(0.001), "0.001");
+        assert_eq!(format_tick(0.5), "0.5");
+        assert_eq!(format_tick(20.0), "20");
+        assert_eq!(format_tick(1e-5), "1e-5");
+        assert_eq!(format_tick(2e-7), "2e-7");
+        assert_eq!(format_tick(0.0), "0");
+        assert_eq!(nice_length(7.3), 5.0);
+        assert_eq!(nice_length(0.3), 0.2);
+    }
+
+    #[test]
+    fn graticule_labels_use_degrees_and_minutes() {
+        assert_eq!(format_dm(31.25, 'N', 'S'), "31\u{b0}15'N");
+        assert_eq!(format_dm(-28.0 - 20.5 / 60.0, 'E', 'W'), "28\u{b0}20.5'W");
+        assert_eq!(format_dm(0.0, 'N', 'S'), "0\u{b0}");
+        assert_eq!(format_dm(-2.0, 'N', 'S'), "2\u{b0}S");
+        assert_eq!(graticule_step(-28.9, -28.1, 6), Some(10.0 / 60.0));
+        assert_eq!(graticule_step(10.0, 10.001, 0), None);
+    }
+}
