@@ -63,6 +63,7 @@
 
 #![deny(missing_docs)]
 
+mod erfc;
 mod error;
 mod mass;
 mod model;

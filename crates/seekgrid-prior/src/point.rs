@@ -143,10 +143,10 @@ pub(crate) fn point_window(
                 for (e, ge) in g.iter_mut().enumerate() {
                     let z = ((ca + e) as f64 * h - m) / s;
                     *ge = if z < 0.0 {
-                        0.5 * libm::erfc(-z * FRAC_1_SQRT_2)
+                        0.5 * crate::erfc::erfc(-z * FRAC_1_SQRT_2)
                     } else {
                         split = split.min(e);
-                        -0.5 * libm::erfc(z * FRAC_1_SQRT_2)
+                        -0.5 * crate::erfc::erfc(z * FRAC_1_SQRT_2)
                     };
                 }
                 for e in 0..n_edges - 1 {

@@ -2,29 +2,34 @@
 //!
 //! Each leg of length L is a uniform line source convolved with an isotropic normal of sigma σ;
 //! in leg coordinates (u along from its start, v across) its density is
-//! (1/L) [Φ(u/σ) - Φ((u - L)/σ)] φ(v/σ)/σ, which integrates to 1 over the plane. Legs are
-//! weighted by length, so the route's density is Σ_legs [Φ(u/σ) - Φ((u - L)/σ)] φ(v/σ)/(σ L_total)
-//! (derived: the uniform segment convolved with the normal; the along-track integral of φ is a
-//! Φ-difference, the across-track factor is φ itself). The density is integrated over each cell with a tensor
-//! composite Gauss-Legendre rule whose panels are at most half a sigma wide.
+//! (1/L) [Φ(u/σ) - Φ((u - L)/σ)] φ(v/σ)/σ, which integrates to 1 over the plane (derived: the
+//! uniform segment convolved with the normal; the along-track integral of φ is a Φ-difference,
+//! the across-track factor is φ itself). Legs are weighted by length.
 //!
-//! Only points within [`crate::point::CUTOFF_SIGMAS`] sigmas of a leg are visited; the mass
-//! beyond, 2Φ(-7.6) = 3e-14 of the route, is left out.
+//! Cell integration uses the same convolution the other way round: the mass of a cell is
+//! (1/L_total) Σ_legs ∫_0^L G(a + t d) dt, with G(q) the mass in the cell of the isotropic
+//! normal centred at q, which is separable: [Φ-difference in x] x [Φ-difference in y]. The
+//! integral over t is a composite Gauss-Legendre rule with panels under two sigmas, so every
+//! node costs two short vectors of normal-CDF differences and one outer product over the cells
+//! within [`crate::point::CUTOFF_SIGMAS`] sigmas of it (the mass beyond, 4Φ(-7.6) = 6e-14 per
+//! node, is left out). Exact in x and y, quadrature only along the track.
 
 use crate::point::CUTOFF_SIGMAS;
-use crate::quad::{Composite, INV_SQRT_2PI, normal_interval};
+use crate::quad::{Composite, normal_interval};
 use crate::window::Window;
 use geo::Coord;
 use ndarray::Axis;
 use ndarray::parallel::prelude::*;
 use seekgrid_core::GridSpec;
 
-struct Leg {
-    a: Coord<f64>,
-    b: Coord<f64>,
-    /// Unit vector along the leg.
-    d: Coord<f64>,
-    length_m: f64,
+/// One quadrature node along the route: its weight and the cell-mass factors of the isotropic
+/// normal centred on it, per column from `col0` and per row from `row0` (grid indices).
+struct Node {
+    weight: f64,
+    col0: usize,
+    px: Vec<f64>,
+    row0: usize,
+    py: Vec<f64>,
 }
 
 /// Cell masses of a route; `None` when its cut-off band misses the grid.
@@ -34,7 +39,7 @@ pub(crate) fn route_window(
     grid: &GridSpec,
 ) -> Option<Window> {
     let h = grid.cell_m();
-    // Grid-local coordinates: x east of the west edge, y north of the north edge.
+    // Grid-local coordinates: x east of the west edge, y north of the north edge (<= 0 inside).
     let local: Vec<Coord<f64>> = waypoints
         .iter()
         .map(|p| Coord {
@@ -42,23 +47,14 @@ pub(crate) fn route_window(
             y: p.y - grid.north_m(),
         })
         .collect();
-    let legs: Vec<Leg> = local
+    let legs: Vec<(Coord<f64>, Coord<f64>, f64)> = local
         .windows(2)
         .filter_map(|w| {
-            let (a, b) = (w[0], w[1]);
-            let length_m = (b.x - a.x).hypot(b.y - a.y);
-            (length_m > 0.0).then(|| Leg {
-                a,
-                b,
-                d: Coord {
-                    x: (b.x - a.x) / length_m,
-                    y: (b.y - a.y) / length_m,
-                },
-                length_m,
-            })
+            let length_m = (w[1].x - w[0].x).hypot(w[1].y - w[0].y);
+            (length_m > 0.0).then_some((w[0], w[1], length_m))
         })
         .collect();
-    let total_m: f64 = seekgrid_core::neumaier_sum(legs.iter().map(|l| l.length_m));
+    let total_m: f64 = seekgrid_core::neumaier_sum(legs.iter().map(|l| l.2));
     if legs.is_empty() || total_m <= 0.0 {
         return None;
     }
@@ -72,73 +68,75 @@ pub(crate) fn route_window(
         return None;
     }
     let (c0, c1, r0, r1) = (c0 as usize, c1 as usize, r0 as usize, r1 as usize);
+    let positions: Vec<(Coord<f64>, f64)> = legs
+        .iter()
+        .flat_map(|&(a, b, length_m)| {
+            let rule = Composite::for_ratio(length_m / sigma_m);
+            rule.nodes.into_iter().zip(rule.weights).map(move |(t, w)| {
+                let q = Coord {
+                    x: a.x + t * (b.x - a.x),
+                    y: a.y + t * (b.y - a.y),
+                };
+                (q, w * length_m / total_m)
+            })
+        })
+        .collect();
+    let nodes: Vec<Node> = positions
+        .par_iter()
+        .filter_map(|&(q, weight)| {
+            let ca = ((q.x - reach) / h).floor().max(c0 as f64) as usize;
+            let cb = (((q.x + reach) / h).ceil().min(c1 as f64) as usize).max(ca);
+            let ra = (-(q.y + reach) / h).floor().max(r0 as f64) as usize;
+            let rb = ((-(q.y - reach) / h).ceil().min(r1 as f64) as usize).max(ra);
+            if ca >= cb || ra >= rb {
+                return None;
+            }
+            let px = (ca..cb)
+                .map(|c| {
+                    normal_interval(
+                        (c as f64 * h - q.x) / sigma_m,
+                        ((c + 1) as f64 * h - q.x) / sigma_m,
+                    )
+                })
+                .collect();
+            let py = (ra..rb)
+                .map(|r| {
+                    normal_interval(
+                        (-((r + 1) as f64) * h - q.y) / sigma_m,
+                        (-(r as f64) * h - q.y) / sigma_m,
+                    )
+                })
+                .collect();
+            Some(Node {
+                weight,
+                col0: ca,
+                px,
+                row0: ra,
+                py,
+            })
+        })
+        .collect();
     let mut w = Window::zeros(r0..r1, c0..c1);
-    let rule = Composite::for_ratio(h / sigma_m);
-    let cell_area = h * h;
-    let inv_norm = INV_SQRT_2PI / (sigma_m * total_m);
     w.cells
         .axis_iter_mut(Axis(0))
         .into_par_iter()
         .enumerate()
         .for_each(|(i, mut row)| {
             let r = r0 + i;
-            let ya = -((r + 1) as f64) * h;
-            let yb = -(r as f64) * h;
             let out = row.as_slice_mut().expect("window rows are contiguous");
-            for leg in &legs {
-                let Some((xlo, xhi)) = x_range_in_band(leg, ya - reach, yb + reach) else {
+            for n in &nodes {
+                if r < n.row0 || r >= n.row0 + n.py.len() {
                     continue;
-                };
-                let ca = ((xlo - reach) / h).floor().max(c0 as f64) as usize;
-                let cb = (((xhi + reach) / h).ceil().min(c1 as f64) as usize).max(ca);
-                for c in ca..cb {
-                    let xa = c as f64 * h;
-                    let mut acc = 0.0;
-                    for (ty, wy) in rule.nodes.iter().zip(&rule.weights) {
-                        let y = ya + h * ty - leg.a.y;
-                        let mut row_acc = 0.0;
-                        for (tx, wx) in rule.nodes.iter().zip(&rule.weights) {
-                            let x = xa + h * tx - leg.a.x;
-                            let v = (-x * leg.d.y + y * leg.d.x) / sigma_m;
-                            if v.abs() > CUTOFF_SIGMAS {
-                                continue;
-                            }
-                            let u = (x * leg.d.x + y * leg.d.y) / sigma_m;
-                            let l = leg.length_m / sigma_m;
-                            let along = if u > CUTOFF_SIGMAS && u < l - CUTOFF_SIGMAS {
-                                1.0
-                            } else {
-                                normal_interval(u - l, u)
-                            };
-                            row_acc += wx * along * (-0.5 * v * v).exp();
-                        }
-                        acc += wy * row_acc;
-                    }
-                    out[c - c0] += acc * inv_norm * cell_area;
+                }
+                let f = n.weight * n.py[r - n.row0];
+                if f == 0.0 {
+                    continue;
+                }
+                let dst = &mut out[n.col0 - c0..n.col0 - c0 + n.px.len()];
+                for (d, p) in dst.iter_mut().zip(&n.px) {
+                    *d += f * p;
                 }
             }
         });
     Some(w)
-}
-
-/// The x-range of the part of a leg with y in [ylo, yhi]; `None` when there is none.
-fn x_range_in_band(leg: &Leg, ylo: f64, yhi: f64) -> Option<(f64, f64)> {
-    let (a, b) = (leg.a, leg.b);
-    let dy = b.y - a.y;
-    let (t0, t1) = if dy == 0.0 {
-        if a.y < ylo || a.y > yhi {
-            return None;
-        }
-        (0.0, 1.0)
-    } else {
-        let ta = (ylo - a.y) / dy;
-        let tb = (yhi - a.y) / dy;
-        (ta.min(tb).max(0.0), ta.max(tb).min(1.0))
-    };
-    if t0 > t1 {
-        return None;
-    }
-    let xa = a.x + t0 * (b.x - a.x);
-    let xb = a.x + t1 * (b.x - a.x);
-    Some((xa.min(xb), xa.max(xb)))
 }
