@@ -455,6 +455,17 @@ impl<'a> Prepared<'a> {
         }
     }
 
+    /// The direction sigma of the first sample (degrees), for [`EnvDraw::new`].
+    pub(crate) fn first_direction_sigma_deg(&self) -> f64 {
+        match self {
+            Prepared::Constant(s) => s.direction_sigma_deg,
+            Prepared::Series { samples, .. } => {
+                samples.first().map_or(0.0, |s| s.direction_sigma_deg)
+            }
+            Prepared::Gridded { field, .. } => field.direction_sigma_deg,
+        }
+    }
+
     /// Times (seconds after the origin) where the interpolation has a kink.
     pub(crate) fn breaks(&self) -> Vec<f64> {
         match self {
@@ -472,8 +483,23 @@ impl<'a> Prepared<'a> {
 
     /// The nominal sample at `t_s` seconds after the origin; `lon_lat` is needed only for
     /// gridded fields (a uniform environment ignores it).
-    #[inline]
     pub(crate) fn sample(&self, lon_lat: Option<(f64, f64)>, t_s: f64) -> EnvSample {
+        let mut hint = match self {
+            Prepared::Series { t_s: times, .. } => times.partition_point(|&x| x <= t_s),
+            _ => 0,
+        };
+        self.sample_near(lon_lat, t_s, &mut hint)
+    }
+
+    /// As [`Prepared::sample`], starting the search for the series interval at `hint` (the
+    /// interval of the previous call), which makes the lookup O(1) along a particle's path.
+    #[inline]
+    pub(crate) fn sample_near(
+        &self,
+        lon_lat: Option<(f64, f64)>,
+        t_s: f64,
+        hint: &mut usize,
+    ) -> EnvSample {
         match self {
             Prepared::Constant(s) => *s,
             Prepared::Series {
@@ -498,7 +524,14 @@ impl<'a> Prepared<'a> {
                     return samples[n - 1];
                 }
                 // First index with time > t_s; 1..n-1 here.
-                let j = times.partition_point(|&x| x <= t_s);
+                let mut j = (*hint).clamp(1, n - 1);
+                while j < n - 1 && times[j] <= t_s {
+                    j += 1;
+                }
+                while j > 1 && times[j - 1] > t_s {
+                    j -= 1;
+                }
+                *hint = j;
                 let (a, b) = (&samples[j - 1], &samples[j]);
                 let w = (t_s - times[j - 1]) / (times[j] - times[j - 1]);
                 let lerp = |x: f64, y: f64| x + w * (y - x);
@@ -541,16 +574,68 @@ pub(crate) struct EnvDraw {
     /// has no direction, so its speed error points anywhere.
     pub calm_e: f64,
     pub calm_n: f64,
+    /// The turn z_dir * sigma precomputed for the sigma the estimate usually has (its first
+    /// sample's), as sine and cosine.
+    pub turn_sigma_deg: f64,
+    pub turn_sin: f64,
+    pub turn_cos: f64,
+}
+
+impl EnvDraw {
+    /// Draws from standard normals and a uniform bearing, precomputing the turn for `sigma_deg`.
+    pub(crate) fn new(z_speed: f64, z_dir: f64, calm_bearing_rad: f64, sigma_deg: f64) -> Self {
+        let (turn_sin, turn_cos) = (z_dir * sigma_deg).to_radians().sin_cos();
+        Self {
+            z_speed,
+            z_dir,
+            calm_e: calm_bearing_rad.sin(),
+            calm_n: calm_bearing_rad.cos(),
+            turn_sigma_deg: sigma_deg,
+            turn_sin,
+            turn_cos,
+        }
+    }
 }
 
 /// The particle's own version of a nominal sample: speed + z_speed * sigma along the nominal
 /// bearing turned by z_dir * sigma (clockwise for positive). A speed that comes out negative
 /// reverses the vector, which keeps the along-direction error an unbiased normal.
 ///
-/// Returns the vector (east, north knots) and the unit vector of the turned bearing.
+/// Returns the vector, (east, north) knots.
 #[inline]
-pub(crate) fn perturb(s: &EnvSample, d: &EnvDraw) -> ((f64, f64), (f64, f64)) {
-    let speed = s.u_kn.hypot(s.v_kn);
+pub(crate) fn perturb(s: &EnvSample, d: &EnvDraw) -> (f64, f64) {
+    let speed2 = s.u_kn * s.u_kn + s.v_kn * s.v_kn;
+    let (sn, cs) = turn(s, d);
+    if speed2 > 0.0 {
+        // Plain sqrt rather than hypot: speeds in knots can neither overflow nor underflow
+        // here, and hypot's extra care costs a third of the inner loop.
+        let speed = speed2.sqrt();
+        let f = (speed + d.z_speed * s.speed_sigma_kn) / speed;
+        (
+            f * (s.u_kn * cs + s.v_kn * sn),
+            f * (s.v_kn * cs - s.u_kn * sn),
+        )
+    } else {
+        let (te, tn) = perturbed_direction(s, d);
+        let new_speed = d.z_speed * s.speed_sigma_kn;
+        (new_speed * te, new_speed * tn)
+    }
+}
+
+/// Sine and cosine of the particle's turn z_dir * sigma.
+#[inline]
+fn turn(s: &EnvSample, d: &EnvDraw) -> (f64, f64) {
+    if s.direction_sigma_deg == d.turn_sigma_deg {
+        (d.turn_sin, d.turn_cos)
+    } else {
+        (d.z_dir * s.direction_sigma_deg).to_radians().sin_cos()
+    }
+}
+
+/// The unit vector (east, north) of the particle's turned bearing: the direction of
+/// [`perturb`]'s vector when its speed is positive, and the direction a calm is read along.
+pub(crate) fn perturbed_direction(s: &EnvSample, d: &EnvDraw) -> (f64, f64) {
+    let speed = (s.u_kn * s.u_kn + s.v_kn * s.v_kn).sqrt();
     let (ue, un) = if speed > 0.0 {
         (s.u_kn / speed, s.v_kn / speed)
     } else if s.calm_e != 0.0 || s.calm_n != 0.0 {
@@ -558,16 +643,9 @@ pub(crate) fn perturb(s: &EnvSample, d: &EnvDraw) -> ((f64, f64), (f64, f64)) {
     } else {
         (d.calm_e, d.calm_n)
     };
-    let new_speed = speed + d.z_speed * s.speed_sigma_kn;
-    let delta = d.z_dir * s.direction_sigma_deg;
-    let (te, tn) = if delta == 0.0 {
-        (ue, un)
-    } else {
-        let (sn, cs) = delta.to_radians().sin_cos();
-        // A bearing b turned to b + delta: (sin(b+d), cos(b+d)).
-        (ue * cs + un * sn, un * cs - ue * sn)
-    };
-    ((new_speed * te, new_speed * tn), (te, tn))
+    let (sn, cs) = turn(s, d);
+    // A bearing b turned to b + delta: (sin(b+d), cos(b+d)).
+    (ue * cs + un * sn, un * cs - ue * sn)
 }
 
 #[cfg(test)]
@@ -576,12 +654,20 @@ mod tests {
     use approx::assert_abs_diff_eq;
 
     fn draw(z_speed: f64, z_dir: f64) -> EnvDraw {
-        EnvDraw {
-            z_speed,
-            z_dir,
-            calm_e: 1.0,
-            calm_n: 0.0,
-        }
+        // Precomputed turn for another sigma, so that both paths are exercised.
+        EnvDraw::new(z_speed, z_dir, std::f64::consts::FRAC_PI_2, 7.0)
+    }
+
+    #[test]
+    fn the_precomputed_turn_equals_the_computed_one() {
+        let s = sample(1.0, 30.0, 0.0, 7.0);
+        let (e1, n1) = perturb(&s, &draw(0.0, 1.3));
+        let mut other = draw(0.0, 1.3);
+        other.turn_sigma_deg = -1.0;
+        let (e2, n2) = perturb(&s, &other);
+        assert_abs_diff_eq!(e1, e2, epsilon = 1e-15);
+        assert_abs_diff_eq!(n1, n2, epsilon = 1e-15);
+        assert_abs_diff_eq!(e1, (30.0f64 + 9.1).to_radians().sin(), epsilon = 1e-15);
     }
 
     fn sample(speed: f64, toward_deg: f64, sig_s: f64, sig_d: f64) -> EnvSample {
@@ -599,7 +685,7 @@ mod tests {
     #[test]
     fn a_positive_direction_draw_turns_the_vector_clockwise() {
         // computed: 1 kn toward 000°, +1 sigma of 90° -> 1 kn toward 090°.
-        let ((e, n), _) = perturb(&sample(1.0, 0.0, 0.0, 90.0), &draw(0.0, 1.0));
+        let (e, n) = perturb(&sample(1.0, 0.0, 0.0, 90.0), &draw(0.0, 1.0));
         assert_abs_diff_eq!(e, 1.0, epsilon = 1e-12);
         assert_abs_diff_eq!(n, 0.0, epsilon = 1e-12);
     }
@@ -607,22 +693,23 @@ mod tests {
     #[test]
     fn a_speed_draw_below_zero_reverses_the_vector() {
         // 0.2 kn toward 090° with sigma 0.3 kn, draw -2: -0.4 kn, i.e. 0.4 kn toward 270°.
-        let ((e, n), (de, _)) = perturb(&sample(0.2, 90.0, 0.3, 0.0), &draw(-2.0, 0.0));
+        let (e, n) = perturb(&sample(0.2, 90.0, 0.3, 0.0), &draw(-2.0, 0.0));
         assert_abs_diff_eq!(e, -0.4, epsilon = 1e-12);
         assert_abs_diff_eq!(n, 0.0, epsilon = 1e-12);
+        let (de, _) = perturbed_direction(&sample(0.2, 90.0, 0.3, 0.0), &draw(-2.0, 0.0));
         assert_abs_diff_eq!(de, 1.0, epsilon = 1e-12);
     }
 
     #[test]
     fn a_calm_estimate_puts_its_speed_error_along_its_stated_direction() {
-        let ((e, n), _) = perturb(&sample(0.0, 180.0, 0.5, 0.0), &draw(1.0, 0.0));
+        let (e, n) = perturb(&sample(0.0, 180.0, 0.5, 0.0), &draw(1.0, 0.0));
         assert_abs_diff_eq!(e, 0.0, epsilon = 1e-12);
         assert_abs_diff_eq!(n, -0.5, epsilon = 1e-12);
         // A gridded calm states no direction: the particle's own bearing is used.
         let mut s = sample(0.0, 180.0, 0.5, 0.0);
         s.calm_e = 0.0;
         s.calm_n = 0.0;
-        let ((e, n), _) = perturb(&s, &draw(1.0, 0.0));
+        let (e, n) = perturb(&s, &draw(1.0, 0.0));
         assert_abs_diff_eq!(e, 0.5, epsilon = 1e-12);
         assert_abs_diff_eq!(n, 0.0, epsilon = 1e-12);
     }

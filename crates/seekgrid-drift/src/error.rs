@@ -105,6 +105,18 @@ pub enum DriftError {
         /// The limit, bytes.
         limit: u128,
     },
+    /// The time step would make more steps than allowed.
+    #[error(
+        "step_s = {step_s} s makes {steps} steps, over the limit of {limit}; give a longer step_s or leave it out for the automatic step"
+    )]
+    TooManySteps {
+        /// The step asked for, seconds.
+        step_s: f64,
+        /// Steps it would make.
+        steps: f64,
+        /// The limit.
+        limit: f64,
+    },
     /// Weights that do not match the particles or are not probabilities.
     #[error("weights are not usable: {what}")]
     BadWeights {

@@ -78,8 +78,8 @@ impl Leeway {
 
     /// The leeway velocity (east, north) in knots for a wind moving toward (`wind_e_kn`,
     /// `wind_n_kn`), side +1 or -1, and the particle's error draws (standard normals).
-    /// `calm` is the unit (east, north) downwind direction used when the wind is exactly zero
-    /// (the direction of the estimate, turned by the particle's direction error).
+    /// `calm` gives the unit (east, north) downwind direction used when the wind is exactly
+    /// zero (the direction of the estimate, turned by the particle's direction error).
     #[inline]
     pub(crate) fn velocity_kn(
         &self,
@@ -87,13 +87,15 @@ impl Leeway {
         side: f64,
         z_down: f64,
         z_cross: f64,
-        calm: (f64, f64),
+        calm: impl FnOnce() -> (f64, f64),
     ) -> (f64, f64) {
-        let u10 = wind_toward_kn.0.hypot(wind_toward_kn.1);
+        let u10 =
+            (wind_toward_kn.0 * wind_toward_kn.0 + wind_toward_kn.1 * wind_toward_kn.1).sqrt();
         let (de, dn) = if u10 > 0.0 {
-            (wind_toward_kn.0 / u10, wind_toward_kn.1 / u10)
+            let inv = 1.0 / u10;
+            (wind_toward_kn.0 * inv, wind_toward_kn.1 * inv)
         } else {
-            calm
+            calm()
         };
         let down =
             self.downwind_slope * u10 + self.downwind_offset_kn + z_down * self.downwind_sigma_kn;
@@ -119,10 +121,10 @@ mod tests {
             crosswind_offset_kn: 0.2,
             ..Leeway::NONE
         };
-        let (e, n) = lw.velocity_kn((0.0, -10.0), 1.0, 0.0, 0.0, (0.0, -1.0));
+        let (e, n) = lw.velocity_kn((0.0, -10.0), 1.0, 0.0, 0.0, || (0.0, -1.0));
         assert_abs_diff_eq!(e, -0.2, epsilon = 1e-15);
         assert_abs_diff_eq!(n, 0.0, epsilon = 1e-15);
-        let (e, _) = lw.velocity_kn((0.0, -10.0), -1.0, 0.0, 0.0, (0.0, -1.0));
+        let (e, _) = lw.velocity_kn((0.0, -10.0), -1.0, 0.0, 0.0, || (0.0, -1.0));
         assert_abs_diff_eq!(e, 0.2, epsilon = 1e-15);
     }
 
@@ -135,11 +137,11 @@ mod tests {
             ..Leeway::NONE
         };
         // Wind toward the east at 20 kn, downwind error draw +2 sigma: 0.6 + 0.1 + 0.1 kn.
-        let (e, n) = lw.velocity_kn((20.0, 0.0), 1.0, 2.0, 0.0, (1.0, 0.0));
+        let (e, n) = lw.velocity_kn((20.0, 0.0), 1.0, 2.0, 0.0, || (1.0, 0.0));
         assert_abs_diff_eq!(e, 0.8, epsilon = 1e-12);
         assert_abs_diff_eq!(n, 0.0, epsilon = 1e-12);
         // In an exact calm the offset acts along the stated direction.
-        let (e, n) = lw.velocity_kn((0.0, 0.0), 1.0, 0.0, 0.0, (0.0, 1.0));
+        let (e, n) = lw.velocity_kn((0.0, 0.0), 1.0, 0.0, 0.0, || (0.0, 1.0));
         assert_abs_diff_eq!(e, 0.0, epsilon = 1e-12);
         assert_abs_diff_eq!(n, 0.1, epsilon = 1e-12);
     }

@@ -1,7 +1,9 @@
 //! The Monte Carlo drift simulation.
 
 use crate::Time;
-use crate::environment::{Convention, EnvDraw, Environment, Prepared, perturb};
+use crate::environment::{
+    Convention, EnvDraw, Environment, Prepared, perturb, perturbed_direction,
+};
 use crate::error::DriftError;
 use crate::land::LandMask;
 use crate::leeway::Leeway;
@@ -26,6 +28,9 @@ pub const CHUNK_PARTICLES: usize = 1024;
 
 /// Largest memory the stored records may take, bytes (16 bytes per particle per record).
 pub const MAX_RECORD_BYTES: u128 = 12 * (1 << 30);
+
+/// Most time steps a run may have (a guard against a step of microseconds over days).
+pub const MAX_STEPS: f64 = 5.0e7;
 
 /// Particles used to choose the automatic time step (the first ones of the run).
 pub const PILOT_PARTICLES: usize = 512;
@@ -116,7 +121,9 @@ struct ParticleMeta {
 
 /// The result of [`simulate`]: particle positions stored at the record times, with what is
 /// needed to give them at any time between start and end.
-#[derive(Debug, Clone)]
+///
+/// Memory: 16 bytes per particle per record time, plus 16 bytes per particle.
+#[derive(Clone)]
 pub struct DriftRun {
     start: Time,
     record_s: Vec<f64>,
@@ -124,6 +131,18 @@ pub struct DriftRun {
     positions: Vec<f64>,
     meta: Vec<ParticleMeta>,
     step_s: f64,
+}
+
+impl std::fmt::Debug for DriftRun {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("DriftRun")
+            .field("start", &self.start)
+            .field("end_s", &self.end_s())
+            .field("records", &self.record_s.len())
+            .field("particles", &self.len())
+            .field("step_s", &self.step_s)
+            .finish()
+    }
 }
 
 impl DriftRun {
@@ -318,16 +337,11 @@ struct Init {
     side: f64,
 }
 
-fn env_draw(rng: &mut ChaCha8Rng) -> EnvDraw {
+fn env_draw(rng: &mut ChaCha8Rng, env: &Prepared<'_>) -> EnvDraw {
     let z_speed: f64 = rng.sample(StandardNormal);
     let z_dir: f64 = rng.sample(StandardNormal);
     let calm = std::f64::consts::TAU * rng.random::<f64>();
-    EnvDraw {
-        z_speed,
-        z_dir,
-        calm_e: calm.sin(),
-        calm_n: calm.cos(),
-    }
+    EnvDraw::new(z_speed, z_dir, calm, env.first_direction_sigma_deg())
 }
 
 impl Model<'_> {
@@ -343,8 +357,8 @@ impl Model<'_> {
         let dx: f64 = rng.sample(StandardNormal);
         let dy: f64 = rng.sample(StandardNormal);
         let u: f64 = rng.random();
-        let current = env_draw(rng);
-        let wind = env_draw(rng);
+        let current = env_draw(rng, &self.current);
+        let wind = env_draw(rng, &self.wind);
         let z_down: f64 = rng.sample(StandardNormal);
         let z_cross: f64 = rng.sample(StandardNormal);
         let side = if rng.random::<f64>() < 0.5 { 1.0 } else { -1.0 };
@@ -364,17 +378,30 @@ impl Model<'_> {
 
     /// Velocity in the working frame, metres per second, at a position and time.
     #[inline]
-    fn velocity(&self, p: Coord<f64>, t_s: f64, init: &Init, side: f64) -> Coord<f64> {
+    fn velocity(
+        &self,
+        p: Coord<f64>,
+        t_s: f64,
+        init: &Init,
+        side: f64,
+        hints: &mut [usize; 2],
+    ) -> Coord<f64> {
         let lon_lat = if self.uniform {
             None
         } else {
             Some(self.frame.to_lon_lat(p))
         };
-        let (c, _) = perturb(&self.current.sample(lon_lat, t_s), &init.current);
-        let (w, w_dir) = perturb(&self.wind.sample(lon_lat, t_s), &init.wind);
+        let c = perturb(
+            &self.current.sample_near(lon_lat, t_s, &mut hints[0]),
+            &init.current,
+        );
+        let ws = self.wind.sample_near(lon_lat, t_s, &mut hints[1]);
+        let w = perturb(&ws, &init.wind);
         let l = self
             .leeway
-            .velocity_kn(w, side, init.z_down, init.z_cross, w_dir);
+            .velocity_kn(w, side, init.z_down, init.z_cross, || {
+                perturbed_direction(&ws, &init.wind)
+            });
         let (e, n) = (c.0 + l.0, c.1 + l.1);
         Coord {
             x: self.to_grid[0][0] * e + self.to_grid[0][1] * n,
@@ -410,6 +437,7 @@ impl Model<'_> {
         out[0] = pos.x;
         out[1] = pos.y;
         let adrift_s = init.adrift_s;
+        let mut hints = [0usize; 2];
 
         // One midpoint step from s to e; returns false when the particle strands.
         let mut substep = |pos: &mut Coord<f64>, s: f64, e: f64, side: f64| -> Option<f64> {
@@ -421,9 +449,9 @@ impl Model<'_> {
             let mid = if self.uniform {
                 *pos
             } else {
-                *pos + self.velocity(*pos, s, &init, side) * half
+                *pos + self.velocity(*pos, s, &init, side, &mut hints) * half
             };
-            let v = self.velocity(mid, s + half, &init, side);
+            let v = self.velocity(mid, s + half, &init, side, &mut hints);
             let mut new = *pos + v * dt;
             if diffusion {
                 let scale = self.diffusion_grid * dt.sqrt();
@@ -643,7 +671,8 @@ impl DriftScenario {
 /// # Errors
 /// Any [`DriftError`] from [`DriftScenario::validate`]; [`DriftError::EndBeforeAdrift`],
 /// [`DriftError::BadInterval`] for the options; [`DriftError::TooLarge`] when the records
-/// would exceed [`MAX_RECORD_BYTES`].
+/// would exceed [`MAX_RECORD_BYTES`]; [`DriftError::TooManySteps`] when `step_s` would make
+/// more than [`MAX_STEPS`] steps.
 pub fn simulate(
     scenario: &DriftScenario,
     frame: &Frame,
@@ -665,17 +694,29 @@ pub fn simulate(
     }
     let end_s = (options.end - start).as_seconds_f64();
     let n = scenario.particles;
-    let record_s = Lattice::record_times(end_s, options.record_every_s);
-    let records = record_s.len();
-    let bytes = n as u128 * records as u128 * 16;
-    if bytes > MAX_RECORD_BYTES {
+    // Count before allocating anything.
+    let records_f = (end_s / options.record_every_s).ceil() + 1.0;
+    let bytes_f = n as f64 * records_f * 16.0;
+    if bytes_f > MAX_RECORD_BYTES as f64 {
         return Err(DriftError::TooLarge {
             particles: n,
-            records,
-            bytes,
+            records: records_f.min(usize::MAX as f64) as usize,
+            bytes: bytes_f.min(u128::MAX as f64) as u128,
             limit: MAX_RECORD_BYTES,
         });
     }
+    if let Some(step) = options.step_s {
+        let steps = (end_s / step).ceil();
+        if steps > MAX_STEPS {
+            return Err(DriftError::TooManySteps {
+                step_s: step,
+                steps,
+                limit: MAX_STEPS,
+            });
+        }
+    }
+    let record_s = Lattice::record_times(end_s, options.record_every_s);
+    let records = record_s.len();
 
     let (lon, lat) = scenario.lkp_lon_lat;
     let lkp = frame.to_xy(lon, lat);

@@ -151,6 +151,27 @@ fn records_that_would_not_fit_in_memory_are_refused() {
         try_run(&s, &tiny_records),
         Err(DriftError::TooLarge { .. })
     ));
+    // Absurd counts are refused before anything is allocated.
+    let absurd = SimulationOptions {
+        end: hours(24.0 * 3650.0),
+        record_every_s: 1e-6,
+        step_s: None,
+    };
+    assert!(matches!(
+        try_run(&s, &absurd),
+        Err(DriftError::TooLarge { .. })
+    ));
+    let mut one = ok_scenario();
+    one.particles = 1;
+    let tiny_steps = SimulationOptions {
+        end: hours(48.0),
+        record_every_s: 3600.0,
+        step_s: Some(1e-4),
+    };
+    assert!(matches!(
+        try_run(&one, &tiny_steps),
+        Err(DriftError::TooManySteps { .. })
+    ));
 }
 
 #[test]

@@ -6,6 +6,7 @@ mod diffusion;
 mod errors;
 mod gridded;
 mod leeway;
+mod properties;
 mod reproducibility;
 mod snapshots;
 mod spread;
