@@ -19,6 +19,8 @@ pub(crate) type Rgba8 = [u8; 4];
 
 pub(crate) struct Canvas {
     pub img: RgbaImage,
+    /// Scale of all text (1 or 2), so decorations grow with very large maps.
+    pub ui: i32,
 }
 
 impl OriginDimensions for Canvas {
@@ -80,10 +82,16 @@ pub(crate) fn rgb(c: Rgba8) -> Rgb888 {
 }
 
 impl Canvas {
-    pub fn new(width: u32, height: u32, background: Rgba8) -> Self {
+    pub fn new(width: u32, height: u32, background: Rgba8, ui: i32) -> Self {
         Self {
             img: RgbaImage::from_pixel(width, height, Rgba(background)),
+            ui: ui.max(1),
         }
+    }
+
+    /// Width in pixels of `s` in the body font at `scale` times the canvas text scale.
+    pub fn text_width(&self, s: &str, scale: i32) -> i32 {
+        text_width(s, BODY, scale * self.ui)
     }
 
     pub fn fill_rect(&mut self, x: i64, y: i64, w: i64, h: i64, c: Rgba8) {
@@ -108,10 +116,12 @@ impl Canvas {
         p.0[3] = p.0[3].max(c[3]);
     }
 
-    /// Text with its top-left corner at (x, y), `scale` times the font's size.
-    pub fn text(&mut self, s: &str, x: i32, y: i32, font: &MonoFont<'_>, c: Rgba8, scale: i32) {
+    /// Body-font text with its top-left corner at (x, y), `scale` times the font's size times
+    /// the canvas text scale.
+    pub fn text(&mut self, s: &str, x: i32, y: i32, c: Rgba8, scale: i32) {
         let s = latin1(s);
-        let style = MonoTextStyle::new(font, rgb(c));
+        let scale = scale * self.ui;
+        let style = MonoTextStyle::new(BODY, rgb(c));
         if scale <= 1 {
             let _ = Text::with_baseline(&s, Point::new(x, y), style, Baseline::Top).draw(self);
         } else {
@@ -136,9 +146,9 @@ impl Canvas {
             (-1, 1),
             (1, -1),
         ] {
-            self.text(s, x + dx, y + dy, BODY, halo, 1);
+            self.text(s, x + dx * self.ui, y + dy * self.ui, halo, 1);
         }
-        self.text(s, x, y, BODY, c, 1);
+        self.text(s, x, y, c, 1);
     }
 
     /// Strokes a path (pixel coordinates) `width` pixels wide with round joins, limited to the
@@ -248,6 +258,8 @@ pub(crate) fn latin1(s: &str) -> String {
                 '\u{201C}' | '\u{201D}' => "\"",
                 '\u{2026}' => "...",
                 '\u{2022}' => "\u{b7}",
+                '\u{2264}' => "<=",
+                '\u{2265}' => ">=",
                 _ => "",
             };
             if r.is_empty() {
@@ -308,7 +320,7 @@ mod tests {
 
     #[test]
     fn a_filled_square_covers_exactly_its_pixel_centres() {
-        let mut c = Canvas::new(10, 10, [255, 255, 255, 255]);
+        let mut c = Canvas::new(10, 10, [255, 255, 255, 255], 1);
         let ring = vec![(2.0, 2.0), (6.0, 2.0), (6.0, 5.0), (2.0, 5.0), (2.0, 2.0)];
         c.fill_rings(&[ring], [0, 0, 0, 255], (0, 0, 10, 10));
         let black = c.img.pixels().filter(|p| p.0[0] == 0).count();

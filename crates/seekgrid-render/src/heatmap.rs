@@ -368,49 +368,51 @@ pub fn heatmap_png(
     }
     let (map_w, map_h) = (map_w as i32, map_h as i32);
     let colouring = Colouring::new(style.scale, values, grid.cell_area_m2() / 1e6);
+    // Decorations (text, legend, arrow) are drawn twice as large around big maps, so that
+    // the text stays readable when the picture is printed to a page.
+    let u = if map_w.max(map_h) > 1800 { 2 } else { 1 };
+    let (pad, line_h) = (PAD * u, LINE_H * u);
 
-    // Layout.
-    let title_h = if style.title.is_empty() { 0 } else { 40 };
+    // Layout: title block, then map (with graticule labels left and below) and the panel to
+    // its right, then the scale bar under the map, then the caution line(s) at the bottom.
+    let title_h = if style.title.is_empty() { 0 } else { 40 * u };
     let sub_h = if style.subtitle.is_empty() {
         0
     } else {
-        LINE_H + 4
+        line_h + 4 * u
     };
-    // Room on the left for latitude labels such as 31°15'N.
-    let map_x = PAD + 90;
-    let map_y = PAD + title_h + 8 + sub_h + 14;
-    let panel_x = map_x + map_w + GAP;
+    let map_x = pad + 90 * u;
+    let map_y = pad + title_h + 8 * u + sub_h + 14 * u;
+    let panel_x = map_x + map_w + GAP * u;
+    let panel_w = PANEL_W * u;
     let legend_lines = wrap(style.legend_label, (PANEL_W / 10) as usize);
     let legend_entries = legend_entries(overlays);
-    let bar_h = 300;
-    let panel_h = 150
-        + legend_lines.len() as i32 * LINE_H
-        + 12
+    let bar_h = 300 * u;
+    let panel_h = 150 * u
+        + legend_lines.len() as i32 * line_h
+        + 12 * u
         + bar_h
-        + 20
-        + 34
-        + legend_entries.len() as i32 * (LINE_H + 6)
-        + 20
-        + 3 * LINE_H;
-    let width_from_map = panel_x + PANEL_W + PAD;
+        + 20 * u
+        + (34 + legend_entries.len() as i32 * (LINE_H + 10)) * u
+        + 20 * u
+        + 3 * line_h;
     let width_from_title =
-        PAD + text_width(style.title, BODY, 2).max(text_width(style.subtitle, BODY, 1)) + PAD;
-    let width = width_from_map.max(width_from_title).max(640);
-    let caution_lines = wrap(style.caution, ((width - 2 * PAD) / 10) as usize);
-    let scale_h = 84;
-    let lon_labels_h = 30;
-    let body_h = map_h.max(panel_h);
-    let height =
-        map_y + body_h + lon_labels_h + 12 + scale_h + caution_lines.len() as i32 * LINE_H + PAD;
+        2 * pad + text_width(style.title, BODY, 2 * u).max(text_width(style.subtitle, BODY, u));
+    let width = (panel_x + panel_w + pad).max(width_from_title).max(640 * u);
+    let caution_lines = wrap(style.caution, ((width - 2 * pad) / (10 * u)) as usize);
+    let scale_y = map_y + map_h + 30 * u + 12 * u;
+    let scale_h = 84 * u;
+    let body_bottom = (scale_y + scale_h).max(map_y + panel_h);
+    let height = body_bottom + 8 * u + caution_lines.len() as i32 * line_h + pad;
     let total = width as u64 * height as u64;
-    if total > MAX_PIXELS + 20_000_000 {
+    if total > MAX_PIXELS * 2 {
         return Err(RenderError::PictureTooLarge {
             width: width as u64,
             height: height as u64,
-            limit: MAX_PIXELS,
+            limit: MAX_PIXELS * 2,
         });
     }
-    let mut cv = Canvas::new(width as u32, height as u32, WHITE);
+    let mut cv = Canvas::new(width as u32, height as u32, WHITE, u);
 
     // Raster: each pixel its cell's colour.
     for r in 0..rows {
@@ -426,12 +428,11 @@ pub fn heatmap_png(
         }
     }
     // Frame just outside the map area, so no map pixel is covered.
-    let frame_style = PrimitiveStyle::with_stroke(rgb(MUTED), 1);
     let _ = Rectangle::new(
         Point::new(map_x - 1, map_y - 1),
         Size::new(map_w as u32 + 2, map_h as u32 + 2),
     )
-    .into_styled(frame_style)
+    .into_styled(PrimitiveStyle::with_stroke(rgb(MUTED), 1))
     .draw(&mut cv);
 
     let pixel_m = grid.cell_m() / f64::from(k);
@@ -441,92 +442,106 @@ pub fn heatmap_png(
             f64::from(map_y) + (grid.north_m() - p.y) / pixel_m,
         )
     };
-    draw_overlays(&mut cv, overlays, &to_px, (map_x, map_y, map_w, map_h));
-    draw_graticule_ticks(&mut cv, frame, grid, (map_x, map_y, map_w, map_h), pixel_m);
+    let map = (map_x, map_y, map_w, map_h);
+    draw_overlays(&mut cv, overlays, &to_px, map);
+    draw_graticule_ticks(&mut cv, frame, grid, map, pixel_m);
 
-    // Title and subtitle.
     if !style.title.is_empty() {
-        cv.text(style.title, PAD, PAD, BODY, INK, 2);
+        cv.text(style.title, pad, pad, INK, 2);
     }
     if !style.subtitle.is_empty() {
-        cv.text(style.subtitle, PAD, PAD + title_h + 6, BODY, MUTED, 1);
+        cv.text(style.subtitle, pad, pad + title_h + 6 * u, MUTED, 1);
     }
 
-    // Right panel: north arrow, legend, CRS.
+    // Right panel: north arrow, legend, overlay key, CRS.
     let mut y = map_y;
     let (clon, clat) = frame.to_lon_lat(Coord {
         x: grid.west_m() + cols as f64 * grid.cell_m() / 2.0,
         y: grid.north_m() - rows as f64 * grid.cell_m() / 2.0,
     });
-    let gamma = frame.convergence_deg(clon, clat);
-    draw_north_arrow(&mut cv, panel_x, y, gamma);
-    y += 150;
+    draw_north_arrow(&mut cv, panel_x, y, frame.convergence_deg(clon, clat));
+    y += 150 * u;
     for line in &legend_lines {
-        cv.text(line, panel_x, y, BODY, INK, 1);
-        y += LINE_H;
+        cv.text(line, panel_x, y, INK, 1);
+        y += line_h;
     }
-    y += 12;
+    y += 12 * u;
     draw_colour_bar(&mut cv, &colouring, panel_x, y, bar_h);
-    y += bar_h + 20;
-    // Zero swatch.
-    cv.fill_rect(i64::from(panel_x), i64::from(y), 28, 20, ZERO_CELL);
-    let _ = Rectangle::new(Point::new(panel_x, y), Size::new(28, 20))
-        .into_styled(PrimitiveStyle::with_stroke(rgb(MUTED), 1))
-        .draw(&mut cv);
-    cv.text("0 (none)", panel_x + 40, y, BODY, INK, 1);
-    y += 34;
+    y += bar_h + 20 * u;
+    let swatch = |cv: &mut Canvas, y: i32, fill: Option<Rgba8>, edge: Option<(Rgba8, u32)>| {
+        if let Some(f) = fill {
+            cv.fill_rect(
+                i64::from(panel_x),
+                i64::from(y),
+                i64::from(28 * u),
+                i64::from(20 * u),
+                f,
+            );
+        }
+        if let Some((c, w)) = edge {
+            let _ = Rectangle::new(
+                Point::new(panel_x, y),
+                Size::new(28 * u as u32, 20 * u as u32),
+            )
+            .into_styled(PrimitiveStyle::with_stroke(rgb(c), w))
+            .draw(cv);
+        }
+    };
+    swatch(&mut cv, y, Some(ZERO_CELL), Some((MUTED, 1)));
+    cv.text("0 (none)", panel_x + 40 * u, y, INK, 1);
+    y += 34 * u;
     for o in &legend_entries {
-        draw_legend_sample(&mut cv, o, panel_x, y);
+        let c = [o.colour[0], o.colour[1], o.colour[2], 255];
+        match &o.shape {
+            Shape::Line(_) => {
+                let yy = f64::from(y + 10 * u);
+                cv.stroke_path(
+                    &[(f64::from(panel_x), yy), (f64::from(panel_x + 28 * u), yy)],
+                    f64::from(o.width_px.max(1)),
+                    c,
+                    (0, 0, i64::from(width), i64::from(height)),
+                );
+            }
+            Shape::Polygon(_) => {
+                swatch(
+                    &mut cv,
+                    y,
+                    o.fill,
+                    (o.width_px > 0).then_some((c, o.width_px)),
+                );
+            }
+            Shape::Points(_) => draw_point(&mut cv, panel_x + 14 * u, y + 10 * u, c, o.width_px),
+        }
         cv.text(
             o.legend.as_deref().unwrap_or(""),
-            panel_x + 40,
+            panel_x + 40 * u,
             y,
-            BODY,
             INK,
             1,
         );
-        y += LINE_H + 6;
+        y += (LINE_H + 10) * u;
     }
-    y += 20;
+    y += 20 * u;
     let zone = frame.zone();
     let hemi = match zone.hemisphere() {
         Hemisphere::North => 'N',
         Hemisphere::South => 'S',
     };
-    cv.text(
-        &format!("WGS 84 / UTM {}{hemi}", zone.zone()),
-        panel_x,
-        y,
-        BODY,
-        MUTED,
-        1,
-    );
-    cv.text(
-        &format!("EPSG:{}", frame.epsg()),
-        panel_x,
-        y + LINE_H,
-        BODY,
-        MUTED,
-        1,
-    );
-    cv.text(
-        &format!("cell {} m", fmt_len(grid.cell_m())),
-        panel_x,
-        y + 2 * LINE_H,
-        BODY,
-        MUTED,
-        1,
-    );
+    let crs_lines = [
+        format!("WGS 84 / UTM {}{hemi}", zone.zone()),
+        format!("EPSG:{}", frame.epsg()),
+        format!("cell {} m", fmt_len(grid.cell_m())),
+    ];
+    for (i, line) in crs_lines.iter().enumerate() {
+        cv.text(line, panel_x, y + i as i32 * line_h, MUTED, 1);
+    }
 
-    // Scale bar under the map.
-    let sy = map_y + body_h + lon_labels_h + 12;
-    draw_scale_bar(&mut cv, map_x, sy, pixel_m, map_w.max(400));
+    draw_scale_bar(&mut cv, map_x, scale_y, pixel_m, map_w.max(400 * u));
 
-    // Caution line(s).
-    let mut cy = sy + scale_h;
+    let mut cy = body_bottom + 8 * u;
     for line in &caution_lines {
-        cv.text(line, PAD, cy, BODY, CAUTION_INK, 1);
-        cy += LINE_H;
+        cv.text(line, pad, cy, CAUTION_INK, 1);
+        cy += line_h;
     }
 
     let mut png = Vec::new();
@@ -568,28 +583,6 @@ fn legend_entries(overlays: &[Overlay]) -> Vec<&Overlay> {
     out
 }
 
-fn draw_legend_sample(cv: &mut Canvas, o: &Overlay, x: i32, y: i32) {
-    let c = [o.colour[0], o.colour[1], o.colour[2], 255];
-    match &o.shape {
-        Shape::Line(_) => {
-            let _ = Line::new(Point::new(x, y + 10), Point::new(x + 28, y + 10))
-                .into_styled(PrimitiveStyle::with_stroke(rgb(c), o.width_px.max(1)))
-                .draw(cv);
-        }
-        Shape::Polygon(_) => {
-            if let Some(f) = o.fill {
-                cv.fill_rect(i64::from(x), i64::from(y), 28, 20, f);
-            }
-            if o.width_px > 0 {
-                let _ = Rectangle::new(Point::new(x, y), Size::new(28, 20))
-                    .into_styled(PrimitiveStyle::with_stroke(rgb(c), o.width_px))
-                    .draw(cv);
-            }
-        }
-        Shape::Points(_) => draw_point(cv, x + 14, y + 10, c, o.width_px),
-    }
-}
-
 fn draw_point(cv: &mut Canvas, x: i32, y: i32, c: Rgba8, diameter: u32) {
     let d = diameter.max(3);
     let _ = Circle::with_center(Point::new(x, y), d + 4)
@@ -611,12 +604,16 @@ fn draw_overlays(
     map: (i32, i32, i32, i32),
 ) {
     let (mx, my, mw, mh) = map;
+    let u = cv.ui;
     let clip = (
         i64::from(mx),
         i64::from(my),
         i64::from(mx + mw),
         i64::from(my + mh),
     );
+    let inside = |(x, y): (f64, f64)| {
+        x >= f64::from(mx) && y >= f64::from(my) && x < f64::from(mx + mw) && y < f64::from(my + mh)
+    };
     let ring_px =
         |ls: &LineString<f64>| -> Vec<(f64, f64)> { ls.0.iter().map(|c| to_px(*c)).collect() };
     for o in overlays {
@@ -645,27 +642,19 @@ fn draw_overlays(
             }
             Shape::Points(pts) => {
                 for p in pts {
-                    let (x, y) = to_px(*p);
-                    if x >= f64::from(mx)
-                        && y >= f64::from(my)
-                        && x < f64::from(mx + mw)
-                        && y < f64::from(my + mh)
-                    {
-                        draw_point(cv, clamp_px(x - 0.5), clamp_px(y - 0.5), c, o.width_px);
+                    let q = to_px(*p);
+                    if inside(q) {
+                        draw_point(cv, clamp_px(q.0 - 0.5), clamp_px(q.1 - 0.5), c, o.width_px);
                         if let Some(l) = &o.label {
-                            cv.text_halo(l, clamp_px(x) + 8, clamp_px(y) - 22, INK, WHITE);
+                            cv.text_halo(l, clamp_px(q.0) + 8, clamp_px(q.1) - 22 * u, INK, WHITE);
                         }
                     }
                 }
             }
         }
-        if let (Some(l), Some((x, y))) = (&o.label, anchor) {
-            let inside = x >= f64::from(mx)
-                && y >= f64::from(my)
-                && x < f64::from(mx + mw)
-                && y < f64::from(my + mh);
-            if inside {
-                cv.text_halo(l, clamp_px(x) + 4, clamp_px(y) + 4, INK, WHITE);
+        if let (Some(l), Some(a)) = (&o.label, anchor) {
+            if inside(a) {
+                cv.text_halo(l, clamp_px(a.0) + 4, clamp_px(a.1) + 4, INK, WHITE);
             }
         }
     }
@@ -740,7 +729,7 @@ fn bisect(f: &dyn Fn(f64) -> f64, mut a: f64, mut b: f64, target: f64) -> f64 {
 
 /// Longitude ticks on the bottom (labelled) and top edges and latitude ticks on the left
 /// (labelled) and right edges of the map, where the meridians and parallels cross them (they
-/// are not parallel to the grid: meridian convergence).
+/// are not parallel to the grid: meridian convergence). One spacing serves both edges.
 fn draw_graticule_ticks(
     cv: &mut Canvas,
     frame: &Frame,
@@ -749,105 +738,117 @@ fn draw_graticule_ticks(
     pixel_m: f64,
 ) {
     let (mx, my, mw, mh) = map;
+    let u = cv.ui;
     let (west, north) = (grid.west_m(), grid.north_m());
     let east = west + f64::from(mw) * pixel_m;
     let south = north - f64::from(mh) * pixel_m;
-    let tick = PrimitiveStyle::with_stroke(rgb(INK), 1);
-    let lon = |x: f64, y: f64| unwrapped_lon_lat(frame, Coord { x, y })[0];
-    let lat = |x: f64, y: f64| unwrapped_lon_lat(frame, Coord { x, y })[1];
-    for (y_m, py, labelled) in [(south, my + mh, true), (north, my - 1, false)] {
-        let f = |x: f64| lon(x, y_m);
-        let (l0, l1) = (f(west), f(east));
-        let Some(step) = graticule_step(l0, l1, (mw / 140).min(6)) else {
-            continue;
-        };
-        let mut k = (l0 / step).ceil();
-        while k * step <= l1 {
-            let x = bisect(&f, west, east, k * step);
-            let px = mx + ((x - west) / pixel_m).round() as i32;
-            let (a, b) = if labelled { (py, py + 6) } else { (py - 6, py) };
-            let _ = Line::new(Point::new(px, a), Point::new(px, b))
-                .into_styled(tick)
-                .draw(cv);
-            if labelled {
-                let s = format_dm(wrap_lon(k * step), 'E', 'W');
-                cv.text(&s, px - text_width(&s, BODY, 1) / 2, py + 8, BODY, INK, 1);
+    let tick = PrimitiveStyle::with_stroke(rgb(INK), u as u32);
+    let ll = |x: f64, y: f64| unwrapped_lon_lat(frame, Coord { x, y });
+    let t = 6 * u;
+    // Meridians along the bottom and top edges.
+    let (b0, b1) = (ll(west, south)[0], ll(east, south)[0]);
+    let (t0, t1) = (ll(west, north)[0], ll(east, north)[0]);
+    if let Some(step) = graticule_step(b0.min(t0), b1.max(t1), (mw / (140 * u)).min(6)) {
+        for (y_m, py, labelled) in [(south, my + mh, true), (north, my - 1, false)] {
+            let f = |x: f64| ll(x, y_m)[0];
+            let (l0, l1) = (f(west), f(east));
+            let mut k = (l0 / step).ceil();
+            while k * step <= l1 {
+                let x = bisect(&f, west, east, k * step);
+                let px = mx + ((x - west) / pixel_m).round() as i32;
+                let (a, b) = if labelled { (py, py + t) } else { (py - t, py) };
+                let _ = Line::new(Point::new(px, a), Point::new(px, b))
+                    .into_styled(tick)
+                    .draw(cv);
+                if labelled {
+                    let s = format_dm(wrap_lon(k * step), 'E', 'W');
+                    cv.text(&s, px - cv.text_width(&s, 1) / 2, py + 8 * u, INK, 1);
+                }
+                k += 1.0;
             }
-            k += 1.0;
         }
     }
-    for (x_m, px, labelled) in [(west, mx - 1, true), (east, mx + mw, false)] {
-        let f = |y: f64| lat(x_m, y);
-        let (l0, l1) = (f(south), f(north));
-        let Some(step) = graticule_step(l0, l1, (mh / 70).min(6)) else {
-            continue;
-        };
-        let mut k = (l0 / step).ceil();
-        while k * step <= l1 {
-            let y = bisect(&f, south, north, k * step);
-            let py = my + ((north - y) / pixel_m).round() as i32;
-            let (a, b) = if labelled { (px - 6, px) } else { (px, px + 6) };
-            let _ = Line::new(Point::new(a, py), Point::new(b, py))
-                .into_styled(tick)
-                .draw(cv);
-            if labelled {
-                let s = format_dm(k * step, 'N', 'S');
-                cv.text(&s, px - 10 - text_width(&s, BODY, 1), py - 10, BODY, INK, 1);
+    // Parallels along the left and right edges.
+    let (l0, l1) = (ll(west, south)[1], ll(west, north)[1]);
+    let (r0, r1) = (ll(east, south)[1], ll(east, north)[1]);
+    if let Some(step) = graticule_step(l0.min(r0), l1.max(r1), (mh / (70 * u)).min(6)) {
+        for (x_m, px, labelled) in [(west, mx - 1, true), (east, mx + mw, false)] {
+            let f = |y: f64| ll(x_m, y)[1];
+            let (a0, a1) = (f(south), f(north));
+            let mut k = (a0 / step).ceil();
+            while k * step <= a1 {
+                let y = bisect(&f, south, north, k * step);
+                let py = my + ((north - y) / pixel_m).round() as i32;
+                let (a, b) = if labelled { (px - t, px) } else { (px, px + t) };
+                let _ = Line::new(Point::new(a, py), Point::new(b, py))
+                    .into_styled(tick)
+                    .draw(cv);
+                if labelled {
+                    let s = format_dm(k * step, 'N', 'S');
+                    cv.text(&s, px - 10 * u - cv.text_width(&s, 1), py - 10 * u, INK, 1);
+                }
+                k += 1.0;
             }
-            k += 1.0;
         }
     }
 }
 
 fn draw_north_arrow(cv: &mut Canvas, x: i32, y: i32, convergence_deg: f64) {
     // Grid north is `convergence_deg` clockwise from true north, so true north is that angle
-    // anticlockwise from the picture's up (Karney 2011, eq. 10 sign convention; see Frame).
+    // anticlockwise from the picture's up (sign convention of Frame::convergence_deg).
+    let u = cv.ui;
+    let uf = f64::from(u);
     let g = convergence_deg.to_radians();
     let (dx, dy) = (-g.sin(), -g.cos());
-    let (cx, cy) = (f64::from(x + 40), f64::from(y + 70));
-    let half = 42.0;
+    let (cx, cy) = (f64::from(x + 40 * u), f64::from(y + 70 * u));
+    let half = 42.0 * uf;
     let tip = (cx + dx * half, cy + dy * half);
     let tail = (cx - dx * half, cy - dy * half);
     let (px, py) = (-dy, dx);
-    let base = (cx + dx * (half - 26.0), cy + dy * (half - 26.0));
+    let base = (cx + dx * (half - 26.0 * uf), cy + dy * (half - 26.0 * uf));
     let p = |v: (f64, f64)| Point::new(v.0.round() as i32, v.1.round() as i32);
     let _ = Line::new(p(tail), p(base))
-        .into_styled(PrimitiveStyle::with_stroke(rgb(INK), 3))
+        .into_styled(PrimitiveStyle::with_stroke(rgb(INK), 3 * u as u32))
         .draw(cv);
     let _ = Triangle::new(
         p(tip),
-        p((base.0 + px * 11.0, base.1 + py * 11.0)),
-        p((base.0 - px * 11.0, base.1 - py * 11.0)),
+        p((base.0 + px * 11.0 * uf, base.1 + py * 11.0 * uf)),
+        p((base.0 - px * 11.0 * uf, base.1 - py * 11.0 * uf)),
     )
     .into_styled(PrimitiveStyle::with_fill(rgb(INK)))
     .draw(cv);
     cv.text(
         "N",
-        (tip.0 + dx * 14.0 - 5.0).round() as i32,
-        (tip.1 + dy * 14.0 - 10.0).round() as i32,
-        BODY,
+        (tip.0 + dx * 14.0 * uf - 5.0 * uf).round() as i32,
+        (tip.1 + dy * 14.0 * uf - 10.0 * uf).round() as i32,
         INK,
         1,
     );
-    let tx = x + 96;
-    cv.text("true north", tx, y + 34, BODY, INK, 1);
+    let tx = x + 96 * u;
     let side = if convergence_deg >= 0.0 { "E" } else { "W" };
+    cv.text("true north", tx, y + 34 * u, INK, 1);
     cv.text(
         &format!("grid north {:.2}\u{b0} {side}", convergence_deg.abs()),
         tx,
-        y + 34 + LINE_H,
-        BODY,
+        y + (34 + LINE_H) * u,
         MUTED,
         1,
     );
-    cv.text("(map up = grid N)", tx, y + 34 + 2 * LINE_H, BODY, MUTED, 1);
+    cv.text("(map up = grid N)", tx, y + (34 + 2 * LINE_H) * u, MUTED, 1);
 }
 
 fn draw_colour_bar(cv: &mut Canvas, col: &Colouring, x: i32, y: i32, h: i32) {
-    let bar_w = 32;
+    let u = cv.ui;
+    let bar_w = 32 * u;
     for i in 0..h {
         let t = 1.0 - (f64::from(i) + 0.5) / f64::from(h);
-        cv.fill_rect(i64::from(x), i64::from(y + i), bar_w, 1, col.colour_at(t));
+        cv.fill_rect(
+            i64::from(x),
+            i64::from(y + i),
+            i64::from(bar_w),
+            1,
+            col.colour_at(t),
+        );
     }
     let _ = Rectangle::new(
         Point::new(x - 1, y - 1),
@@ -855,64 +856,67 @@ fn draw_colour_bar(cv: &mut Canvas, col: &Colouring, x: i32, y: i32, h: i32) {
     )
     .into_styled(PrimitiveStyle::with_stroke(rgb(MUTED), 1))
     .draw(cv);
-    for (i, (v, label)) in col.ticks().into_iter().enumerate() {
-        let t = col.t(v);
-        let ty = y + ((1.0 - t) * f64::from(h - 1)).round() as i32;
-        let _ = Line::new(
-            Point::new(x + bar_w as i32, ty),
-            Point::new(x + bar_w as i32 + 7, ty),
-        )
-        .into_styled(PrimitiveStyle::with_stroke(rgb(INK), 1))
-        .draw(cv);
-        let label = if i == 0 && col.clamped && (v - col.lo).abs() <= col.lo * 1e-9 {
-            format!("\u{2264}{label}")
-        } else {
-            label
-        };
-        cv.text(&label, x + bar_w as i32 + 12, ty - 10, BODY, INK, 1);
+    let tick_y = |v: f64| y + ((1.0 - col.t(v)) * f64::from(h - 1)).round() as i32;
+    let mut ticks = col.ticks();
+    if col.clamped {
+        // The bottom colour also stands for everything lower: say so at the bar's end, and
+        // drop a round tick that would sit on top of that label.
+        ticks.retain(|(v, _)| tick_y(*v) < y + h - 1 - 22 * u);
+        ticks.insert(0, (col.lo, format!("{} or less", format_tick(col.lo))));
+    }
+    for (v, label) in ticks {
+        let ty = tick_y(v);
+        let _ = Line::new(Point::new(x + bar_w, ty), Point::new(x + bar_w + 7 * u, ty))
+            .into_styled(PrimitiveStyle::with_stroke(rgb(INK), u as u32))
+            .draw(cv);
+        cv.text(&label, x + bar_w + 12 * u, ty - 10 * u, INK, 1);
     }
 }
 
 fn draw_scale_bar(cv: &mut Canvas, x: i32, y: i32, pixel_m: f64, map_w: i32) {
+    let u = cv.ui;
     let max_m = f64::from(map_w) / 3.0 * pixel_m;
     let bar = |cv: &mut Canvas, by: i32, len_px: i32, segments: i32| {
         for s in 0..segments {
             let x0 = x + len_px * s / segments;
             let x1 = x + len_px * (s + 1) / segments;
             let c = if s % 2 == 0 { INK } else { WHITE };
-            cv.fill_rect(i64::from(x0), i64::from(by), i64::from(x1 - x0), 8, c);
+            cv.fill_rect(
+                i64::from(x0),
+                i64::from(by),
+                i64::from(x1 - x0),
+                i64::from(8 * u),
+                c,
+            );
         }
-        let _ = Rectangle::new(Point::new(x, by), Size::new(len_px as u32 + 1, 8))
-            .into_styled(PrimitiveStyle::with_stroke(rgb(INK), 1))
-            .draw(cv);
+        let _ = Rectangle::new(
+            Point::new(x, by),
+            Size::new(len_px as u32 + 1, 8 * u as u32),
+        )
+        .into_styled(PrimitiveStyle::with_stroke(rgb(INK), 1))
+        .draw(cv);
     };
-    // Kilometres above, labels over the bar.
+    let segments = |len: f64| {
+        if (len / nice_unit(len) - 5.0).abs() < 1e-9 {
+            5
+        } else {
+            4
+        }
+    };
+    // Kilometres above with labels over the bar; nautical miles below with labels under it.
     let km = nice_length(max_m / 1000.0);
     let km_px = (km * 1000.0 / pixel_m).round() as i32;
-    let segs = if (km / nice_unit(km) - 5.0).abs() < 1e-9 {
-        5
-    } else {
-        4
-    };
-    cv.text("0", x - 4, y, BODY, INK, 1);
-    let label = format!("{} km", fmt_len(km));
-    cv.text(&label, x + km_px - 5, y, BODY, INK, 1);
-    bar(cv, y + 24, km_px, segs);
-    // Nautical miles below, labels under the bar.
+    cv.text("0", x - 4 * u, y, INK, 1);
+    cv.text(&format!("{} km", fmt_len(km)), x + km_px - 5 * u, y, INK, 1);
+    bar(cv, y + 24 * u, km_px, segments(km));
     let nm = nice_length(max_m / METRES_PER_NM);
     let nm_px = (nm * METRES_PER_NM / pixel_m).round() as i32;
-    let segs = if (nm / nice_unit(nm) - 5.0).abs() < 1e-9 {
-        5
-    } else {
-        4
-    };
-    bar(cv, y + 36, nm_px, segs);
-    cv.text("0", x - 4, y + 50, BODY, INK, 1);
+    bar(cv, y + 36 * u, nm_px, segments(nm));
+    cv.text("0", x - 4 * u, y + 50 * u, INK, 1);
     cv.text(
         &format!("{} NM", fmt_len(nm)),
-        x + nm_px - 5,
-        y + 50,
-        BODY,
+        x + nm_px - 5 * u,
+        y + 50 * u,
         INK,
         1,
     );
