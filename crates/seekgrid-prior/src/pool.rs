@@ -55,7 +55,8 @@ pub struct AnalystDiagnostics {
     /// outside grid and rest of world.
     pub js_divergence_bits: f64,
     /// Total-variation distance ½ Σ |P - P_without| between the pool with and without this
-    /// analyst (the others' weights renormalised), over all bins; 0 with a single analyst.
+    /// analyst (the others' weights renormalised), over all bins; 0 with a single analyst; 1
+    /// when the logarithmic pool of the others would be empty.
     pub leave_one_out_shift: f64,
     /// Distance, metres, between the centroids of the in-grid mass of the pool with and
     /// without this analyst; 0 with a single analyst or when either pool has no mass in the
@@ -125,29 +126,38 @@ pub fn combine(
     let all: Vec<usize> = (0..analysts.len()).collect();
     let pooled = pool_bins(&maps, &w_a, &all, pool)?;
 
-    let pooled_centroid = centroid(&pooled.cells, grid);
+    let pooled_moments = moments(&pooled.cells, grid);
     let analyst_diags: Vec<AnalystDiagnostics> = analysts
         .iter()
         .enumerate()
         .map(|(a, an)| {
-            let js = js_divergence_bits(&maps[a], &pooled);
-            let (tv, shift) = if analysts.len() > 1 {
+            let (js, tv_to_pool) = js_and_tv(&maps[a], &pooled);
+            let (tv, shift) = if analysts.len() == 1 {
+                (0.0, 0.0)
+            } else if pool == Pool::Linear {
+                // Linear pool: P_without = (P - w_a P_a) / (1 - w_a), so
+                // TV(P, P_without) = w_a / (1 - w_a) TV(P_a, P), and the centroid without a
+                // follows from the in-grid mass moments of P and P_a.
+                let wa = w_a[a];
+                let tv = (wa / (1.0 - wa) * tv_to_pool).clamp(0.0, 1.0);
+                let own = moments(&maps[a].cells, grid);
+                let without = Moments {
+                    mass: pooled_moments.mass - wa * own.mass,
+                    x: pooled_moments.x - wa * own.x,
+                    y: pooled_moments.y - wa * own.y,
+                };
+                (tv, centroid_shift(&pooled_moments, &without))
+            } else {
                 let others: Vec<usize> = (0..analysts.len()).filter(|&b| b != a).collect();
                 match pool_bins(&maps, &w_a, &others, pool) {
-                    Ok(without) => {
-                        let tv = total_variation(&pooled, &without);
-                        let shift = match (pooled_centroid, centroid(&without.cells, grid)) {
-                            (Some(p), Some(q)) => (p.0 - q.0).hypot(p.1 - q.1),
-                            _ => 0.0,
-                        };
-                        (tv, shift)
-                    }
+                    Ok(without) => (
+                        total_variation(&pooled, &without),
+                        centroid_shift(&pooled_moments, &moments(&without.cells, grid)),
+                    ),
                     // Without this analyst the logarithmic pool would be empty: the pool
                     // changes completely.
                     Err(_) => (1.0, 0.0),
                 }
-            } else {
-                (0.0, 0.0)
             };
             AnalystDiagnostics {
                 id: an.id.clone(),
@@ -335,13 +345,31 @@ fn bin_sum(p: &Bins, q: &Bins, f: impl Fn(f64, f64) -> f64 + Sync) -> f64 {
     neumaier_sum([neumaier_sum(rows), f(p.outside, q.outside), f(p.row, q.row)])
 }
 
-fn js_divergence_bits(p: &Bins, q: &Bins) -> f64 {
+/// Jensen-Shannon divergence (bits) and total-variation distance of two maps, in one pass.
+fn js_and_tv(p: &Bins, q: &Bins) -> (f64, f64) {
     let term = |x: f64, y: f64| {
         let m = 0.5 * (x + y);
         let half = |a: f64| if a > 0.0 { a * (a / m).log2() } else { 0.0 };
-        0.5 * (half(x) + half(y))
+        (0.5 * (half(x) + half(y)), 0.5 * (x - y).abs())
     };
-    bin_sum(p, q, term).clamp(0.0, 1.0)
+    let rows: Vec<(f64, f64)> = p
+        .cells
+        .axis_iter(Axis(0))
+        .into_par_iter()
+        .zip(q.cells.axis_iter(Axis(0)))
+        .map(|(a, b)| {
+            let parts: Vec<(f64, f64)> =
+                a.iter().zip(b.iter()).map(|(&x, &y)| term(x, y)).collect();
+            (
+                neumaier_sum(parts.iter().map(|t| t.0)),
+                neumaier_sum(parts.iter().map(|t| t.1)),
+            )
+        })
+        .collect();
+    let (o, r) = (term(p.outside, q.outside), term(p.row, q.row));
+    let js = neumaier_sum(rows.iter().map(|t| t.0).chain([o.0, r.0]));
+    let tv = neumaier_sum(rows.iter().map(|t| t.1).chain([o.1, r.1]));
+    (js.clamp(0.0, 1.0), tv.clamp(0.0, 1.0))
 }
 
 fn total_variation(p: &Bins, q: &Bins) -> f64 {
@@ -377,8 +405,15 @@ fn effective_opinions(maps: &[Bins], w: &[f64]) -> f64 {
     if total > 0.0 { 1.0 / total } else { 0.0 }
 }
 
-/// Centroid (x, y), metres, of the in-grid mass; `None` when there is none.
-fn centroid(cells: &Array2<f64>, grid: &GridSpec) -> Option<(f64, f64)> {
+/// In-grid mass and its first moments (Σ m x, Σ m y, metres from the grid's north-west
+/// corner, which keeps the leave-one-out differences precise).
+struct Moments {
+    mass: f64,
+    x: f64,
+    y: f64,
+}
+
+fn moments(cells: &Array2<f64>, grid: &GridSpec) -> Moments {
     let parts: Vec<(f64, f64, f64)> = cells
         .axis_iter(Axis(0))
         .into_par_iter()
@@ -388,17 +423,23 @@ fn centroid(cells: &Array2<f64>, grid: &GridSpec) -> Option<(f64, f64)> {
             let mx = neumaier_sum(
                 row.iter()
                     .enumerate()
-                    .map(|(c, v)| v * grid.cell_center(r, c).x),
+                    .map(|(c, v)| v * (grid.cell_center(r, c).x - grid.west_m())),
             );
-            let y = grid.cell_center(r, 0).y;
+            let y = grid.cell_center(r, 0).y - grid.north_m();
             (m, mx, m * y)
         })
         .collect();
-    let m = neumaier_sum(parts.iter().map(|p| p.0));
-    if m <= 0.0 {
-        return None;
+    Moments {
+        mass: neumaier_sum(parts.iter().map(|p| p.0)),
+        x: neumaier_sum(parts.iter().map(|p| p.1)),
+        y: neumaier_sum(parts.iter().map(|p| p.2)),
     }
-    let x = neumaier_sum(parts.iter().map(|p| p.1)) / m;
-    let y = neumaier_sum(parts.iter().map(|p| p.2)) / m;
-    Some((x, y))
+}
+
+/// Distance between the centroids of two in-grid masses; 0 when either has (almost) none.
+fn centroid_shift(a: &Moments, b: &Moments) -> f64 {
+    if a.mass <= 1e-15 || b.mass <= 1e-15 {
+        return 0.0;
+    }
+    (a.x / a.mass - b.x / b.mass).hypot(a.y / a.mass - b.y / b.mass)
 }

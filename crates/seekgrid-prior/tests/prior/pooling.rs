@@ -211,3 +211,58 @@ fn result_is_identical_whatever_the_thread_count() {
     let three = run(3);
     assert_eq!(one, three);
 }
+
+#[test]
+fn leave_one_out_figures_match_recomputing_the_pool_without_the_analyst() {
+    // Slow, obviously correct reference: pool the other analysts again and compare.
+    let g = grid(0.0, 8_000.0, 100.0, 80, 80);
+    let analysts = [analyst("a", 1.0), analyst("b", 2.0), analyst("c", 1.5)];
+    let scenarios = [
+        point("a1", "a", 1.0, 2_000.0, 2_000.0, 400.0),
+        point("a2", "a", 2.0, 3_000.0, 6_500.0, 700.0),
+        point("b1", "b", 1.0, 4_000.0, 4_000.0, 900.0),
+        point("c1", "c", 1.0, 6_000.0, 3_000.0, 1_200.0),
+        point("c2", "c", 1.0, 7_900.0, 7_900.0, 600.0),
+    ];
+    for pool in [Pool::Linear, Pool::Logarithmic] {
+        let p = combine(&analysts, &scenarios, &g, pool).unwrap();
+        for (i, who) in ["a", "b", "c"].iter().enumerate() {
+            let others: Vec<Analyst> = analysts.iter().filter(|x| x.id != *who).cloned().collect();
+            let theirs: Vec<Scenario> = scenarios
+                .iter()
+                .filter(|s| s.analyst != *who)
+                .cloned()
+                .collect();
+            let q = combine(&others, &theirs, &g, pool).unwrap();
+            let tv = 0.5
+                * (p.cells
+                    .iter()
+                    .zip(q.cells.iter())
+                    .map(|(x, y)| (x - y).abs())
+                    .sum::<f64>()
+                    + (p.outside_grid - q.outside_grid).abs()
+                    + (p.rest_of_world - q.rest_of_world).abs());
+            let centre = |m: &ndarray::Array2<f64>| {
+                let mut acc = (0.0, 0.0, 0.0);
+                for ((r, col), v) in m.indexed_iter() {
+                    let c = g.cell_center(r, col);
+                    acc = (acc.0 + v, acc.1 + v * c.x, acc.2 + v * c.y);
+                }
+                (acc.1 / acc.0, acc.2 / acc.0)
+            };
+            let (cp, cq) = (centre(&p.cells), centre(&q.cells));
+            let shift = (cp.0 - cq.0).hypot(cp.1 - cq.1);
+            let d = &p.diagnostics.analysts[i];
+            assert!(
+                (d.leave_one_out_shift - tv).abs() < 1e-10,
+                "{pool:?} {who}: {} vs {tv}",
+                d.leave_one_out_shift
+            );
+            assert!(
+                (d.leave_one_out_centroid_shift_m - shift).abs() < 1e-6,
+                "{pool:?} {who}: {} vs {shift}",
+                d.leave_one_out_centroid_shift_m
+            );
+        }
+    }
+}
