@@ -197,22 +197,47 @@ impl Canvas {
     /// the clip box `[x0, x1) x [y0, y1)`. A pixel is filled when its centre is inside.
     pub fn fill_rings(&mut self, rings: &[Vec<(f64, f64)>], c: Rgba8, clip: (i64, i64, i64, i64)) {
         let (x0, y0, x1, y1) = clip;
+        // Edge table sorted by top: each scanline looks only at the edges spanning it, so big
+        // polygons (coastlines) fill in time proportional to rows plus crossings.
+        let mut edges: Vec<(f64, f64, f64, f64)> = rings
+            .iter()
+            .flat_map(|r| r.windows(2))
+            .filter(|w| w[0].1 != w[1].1 && w[0].1.is_finite() && w[1].1.is_finite())
+            .map(|w| {
+                let (a, b) = if w[0].1 < w[1].1 {
+                    (w[0], w[1])
+                } else {
+                    (w[1], w[0])
+                };
+                (a.1, b.1, a.0, (b.0 - a.0) / (b.1 - a.1))
+            })
+            .collect();
+        if edges.is_empty() {
+            return;
+        }
+        edges.sort_by(|p, q| p.0.total_cmp(&q.0));
+        let top = edges[0].0;
+        let bottom = edges.iter().map(|e| e.1).fold(f64::MIN, f64::max);
+        let first_row = y0.max(0).max((top - 0.5).floor().max(-1e9) as i64);
+        let last_row = y1
+            .min(i64::from(self.img.height()))
+            .min((bottom + 0.5).ceil().min(1e9) as i64);
+        let mut next = 0;
+        let mut active: Vec<(f64, f64, f64, f64)> = Vec::new();
         let mut xs: Vec<f64> = Vec::new();
-        for py in y0.max(0)..y1.min(i64::from(self.img.height())) {
+        for py in first_row..last_row {
             let yc = py as f64 + 0.5;
-            xs.clear();
-            for r in rings {
-                for w in r.windows(2) {
-                    let ((ax, ay), (bx, by)) = (w[0], w[1]);
-                    if (ay <= yc) != (by <= yc) {
-                        xs.push(ax + (yc - ay) / (by - ay) * (bx - ax));
-                    }
-                }
+            while next < edges.len() && edges[next].0 <= yc {
+                active.push(edges[next]);
+                next += 1;
             }
+            active.retain(|e| e.1 > yc);
+            xs.clear();
+            xs.extend(active.iter().map(|e| e.2 + (yc - e.0) * e.3));
             xs.sort_by(f64::total_cmp);
             for pair in xs.chunks_exact(2) {
                 let from = (pair[0] - 0.5).ceil().max(x0 as f64).max(0.0) as i64;
-                let to = ((pair[1] - 0.5).floor() as i64)
+                let to = ((pair[1] - 0.5).floor().min(1e9) as i64)
                     .min(x1 - 1)
                     .min(i64::from(self.img.width()) - 1);
                 for px in from..=to {
@@ -327,5 +352,43 @@ mod tests {
         assert_eq!(black, 4 * 3);
         assert_eq!(c.img.get_pixel(2, 2).0[0], 0);
         assert_eq!(c.img.get_pixel(6, 2).0[0], 255);
+    }
+
+    #[test]
+    fn scanline_fill_matches_a_point_in_polygon_test_of_every_pixel() {
+        // Fast (edge table) against slow (even-odd crossing test of each pixel centre over all
+        // edges), on a star with a hole.
+        let star: Vec<(f64, f64)> = (0..=14)
+            .map(|i| {
+                let a = f64::from(i) / 14.0 * std::f64::consts::TAU;
+                let r = if i % 2 == 0 { 38.0 } else { 15.3 };
+                (50.2 + r * a.cos(), 49.7 + r * a.sin())
+            })
+            .collect();
+        let hole = vec![
+            (45.0, 45.0),
+            (55.5, 45.0),
+            (55.5, 54.0),
+            (45.0, 54.0),
+            (45.0, 45.0),
+        ];
+        let rings = vec![star, hole];
+        let mut c = Canvas::new(100, 100, [255, 255, 255, 255], 1);
+        c.fill_rings(&rings, [0, 0, 0, 255], (0, 0, 100, 100));
+        for py in 0..100u32 {
+            for px in 0..100u32 {
+                let (x, y) = (f64::from(px) + 0.5, f64::from(py) + 0.5);
+                let mut inside = false;
+                for r in &rings {
+                    for w in r.windows(2) {
+                        let ((ax, ay), (bx, by)) = (w[0], w[1]);
+                        if (ay <= y) != (by <= y) && x < ax + (y - ay) / (by - ay) * (bx - ax) {
+                            inside = !inside;
+                        }
+                    }
+                }
+                assert_eq!(c.img.get_pixel(px, py).0[0] == 0, inside, "pixel {px},{py}");
+            }
+        }
     }
 }

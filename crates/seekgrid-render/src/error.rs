@@ -156,4 +156,7 @@ pub enum RenderError {
     /// The boundary tracer met a configuration it cannot turn into valid rings (a bug).
     #[error("containment boundary tracing failed: {0}; please report this with the input grid")]
     Topology(String),
+    /// An internal consistency check failed (a bug).
+    #[error("internal error: {0}; please report this with the input")]
+    Internal(String),
 }

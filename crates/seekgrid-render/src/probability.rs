@@ -326,7 +326,7 @@ pub fn probability_geojson(
             .par_iter()
             .map(|&r| {
                 let (Ok(top), Ok(bottom)) = (find(r), find(r + 1)) else {
-                    return Err(RenderError::Json(format!("corner row {r} missing")));
+                    return Err(RenderError::Internal(format!("corner row {r} missing")));
                 };
                 let row_sel = &selected[r * cols..(r + 1) * cols];
                 write_row(layer, r, top, bottom, row_sel, cell_area_km2)
