@@ -4,7 +4,7 @@
 //! * [`DriftScenario`]: last known position and its error, the adrift window, the total water
 //!   current and the wind ([`Environment`]: constant, time series or [`GriddedField`]), the
 //!   object's [`Leeway`], a diffusivity, particle count and seed;
-//! * [`simulate`]: weighted particles advanced through time (rayon, reproducible at any thread
+//! * [`simulate()`]: weighted particles advanced through time (rayon, reproducible at any thread
 //!   count), stranding on a [`LandMask`];
 //! * [`DriftRun`]: the result, giving a [`ParticleSnapshot`] or a [`Spread`] (mean and
 //!   covariance, containment [`Ellipse`]s) at any time of the run.
@@ -14,7 +14,7 @@
 //! frame metres ([`seekgrid_core::Frame`]).
 //!
 //! This crate does no I/O: it takes parsed values, reads no clock, prints nothing, and reports
-//! progress only through the callback given to [`simulate`].
+//! progress only through the callback given to [`simulate()`].
 //!
 //! ```
 //! use chrono::{TimeZone, Utc};

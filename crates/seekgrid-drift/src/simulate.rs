@@ -80,7 +80,7 @@ pub struct SimulationOptions {
     /// Interval between stored positions, seconds (e.g. 600); the end is always stored.
     /// [`DriftRun::positions_at`] interpolates linearly between records.
     pub record_every_s: f64,
-    /// Time step, seconds; `None` chooses it automatically (see [`simulate`]). Steps are
+    /// Time step, seconds; `None` chooses it automatically (see [`simulate()`]). Steps are
     /// shortened so that a whole number of them fills each record interval.
     pub step_s: Option<f64>,
 }
@@ -119,7 +119,7 @@ struct ParticleMeta {
     strand_s: f64,
 }
 
-/// The result of [`simulate`]: particle positions stored at the record times, with what is
+/// The result of [`simulate()`]: particle positions stored at the record times, with what is
 /// needed to give them at any time between start and end.
 ///
 /// Memory: 16 bytes per particle per record time, plus 16 bytes per particle.
@@ -152,7 +152,7 @@ impl DriftRun {
         self.meta.len()
     }
 
-    /// Whether there are no particles (never true for a run from [`simulate`]).
+    /// Whether there are no particles (never true for a run from [`simulate()`]).
     #[must_use]
     pub fn is_empty(&self) -> bool {
         self.meta.is_empty()
@@ -559,7 +559,7 @@ impl Model<'_> {
 /// UTM point scale factor at a position: grid length over ground length along the meridian,
 /// by a central difference of the projection over +-1e-4 degrees, divided by the WGS84
 /// meridian radius of curvature M = a (1 - e^2) / (1 - e^2 sin^2 phi)^(3/2) (common practice,
-/// any geodesy text, e.g. Snyder 1987, USGS PP 1395, eq. 4-18).
+/// any geodesy text). The tests check the result against geo's Karney geodesic.
 fn point_scale(frame: &Frame, lon_deg: f64, lat_deg: f64) -> f64 {
     let d = 1e-4;
     let a = frame.to_xy(lon_deg, lat_deg - d);
@@ -599,7 +599,7 @@ fn check_interval(field: &str, value: f64) -> Result<(), DriftError> {
 }
 
 impl DriftScenario {
-    /// Checks every field; [`simulate`] calls it first.
+    /// Checks every field; [`simulate()`] calls it first.
     ///
     /// # Errors
     /// The first problem found, naming its field (see [`DriftError`]).
