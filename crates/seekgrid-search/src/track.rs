@@ -39,7 +39,7 @@ use seekgrid_core::{GridSpec, ProjectedBox};
 /// Relative error accepted when a run of track stands in for its chord.
 const FAR_FIELD_RELATIVE: f64 = 1e-3;
 /// Absolute exposure error accepted per run when a run stands in for its chord.
-const FAR_FIELD_ABSOLUTE: f64 = 1e-7;
+const FAR_FIELD_ABSOLUTE: f64 = 1e-6;
 /// Sub-points per cell side near the track, per (cell side / sweep width).
 const SUBPOINTS_PER_WIDTH: f64 = 10.0;
 /// Most sub-points per cell side.

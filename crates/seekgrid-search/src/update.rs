@@ -168,6 +168,18 @@ pub fn update_after_miss(
     if !(remaining > 0.0 && remaining.is_finite()) {
         return Err(SearchError::CertainDetectionContradicted { pos });
     }
+    let area_before = area_cells + area_particles;
+    if pos == 0.0 {
+        // Nothing was searched where mass lies: the belief stays exactly as it is.
+        return Ok(UpdateOutcome {
+            pos,
+            poc_in_area_before: area_before,
+            poc_in_area_after: area_before,
+            pod_mean_in_area: 0.0,
+            particle_mass_removed: 0.0,
+            grid_mass_removed: 0.0,
+        });
+    }
     let k = 1.0 / remaining;
 
     // Pass 2: write p (1 - d) / (1 - POS).
@@ -204,7 +216,6 @@ pub fn update_after_miss(
         });
     *parts.rest_of_world = row_mass * k;
 
-    let area_before = area_cells + area_particles;
     Ok(UpdateOutcome {
         pos,
         poc_in_area_before: area_before,
