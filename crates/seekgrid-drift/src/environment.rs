@@ -597,55 +597,72 @@ impl EnvDraw {
     }
 }
 
-/// The particle's own version of a nominal sample: speed + z_speed * sigma along the nominal
-/// bearing turned by z_dir * sigma (clockwise for positive). A speed that comes out negative
-/// reverses the vector, which keeps the along-direction error an unbiased normal.
-///
-/// Returns the vector, (east, north) knots.
-#[inline]
-pub(crate) fn perturb(s: &EnvSample, d: &EnvDraw) -> (f64, f64) {
-    let speed2 = s.u_kn * s.u_kn + s.v_kn * s.v_kn;
-    let (sn, cs) = turn(s, d);
-    if speed2 > 0.0 {
-        // Plain sqrt rather than hypot: speeds in knots can neither overflow nor underflow
-        // here, and hypot's extra care costs a third of the inner loop.
-        let speed = speed2.sqrt();
-        let f = (speed + d.z_speed * s.speed_sigma_kn) / speed;
-        (
-            f * (s.u_kn * cs + s.v_kn * sn),
-            f * (s.v_kn * cs - s.u_kn * sn),
-        )
-    } else {
-        let (te, tn) = perturbed_direction(s, d);
-        let new_speed = d.z_speed * s.speed_sigma_kn;
-        (new_speed * te, new_speed * tn)
+/// A nominal sample with its speed and inverse speed worked out once, so that many particles
+/// can share it.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Nominal {
+    s: EnvSample,
+    speed: f64,
+    inv_speed: f64,
+}
+
+impl Nominal {
+    #[inline]
+    pub(crate) fn new(s: EnvSample) -> Self {
+        // Plain sqrt rather than hypot: speeds in knots can neither overflow nor underflow.
+        let speed = (s.u_kn * s.u_kn + s.v_kn * s.v_kn).sqrt();
+        let inv_speed = if speed > 0.0 { 1.0 / speed } else { 0.0 };
+        Self {
+            s,
+            speed,
+            inv_speed,
+        }
     }
 }
 
-/// Sine and cosine of the particle's turn z_dir * sigma.
+/// The particle's own version of a nominal sample: speed + z_speed * sigma along the nominal
+/// bearing turned by z_dir * sigma (clockwise for positive). A speed that comes out negative
+/// reverses the vector, which keeps the along-direction error an unbiased normal. A calm has
+/// no bearing of its own: the estimate's stated direction is used, or for a gridded node the
+/// particle's own bearing.
+///
+/// Returns the signed new speed f (knots) and the unit vector (east, north) of the turned
+/// bearing; the perturbed velocity is f times that vector.
 #[inline]
-fn turn(s: &EnvSample, d: &EnvDraw) -> (f64, f64) {
-    if s.direction_sigma_deg == d.turn_sigma_deg {
+pub(crate) fn perturb_nominal(n: &Nominal, d: &EnvDraw) -> (f64, f64, f64) {
+    let s = &n.s;
+    let (sn, cs) = if s.direction_sigma_deg == d.turn_sigma_deg {
         (d.turn_sin, d.turn_cos)
     } else {
         (d.z_dir * s.direction_sigma_deg).to_radians().sin_cos()
-    }
-}
-
-/// The unit vector (east, north) of the particle's turned bearing: the direction of
-/// [`perturb`]'s vector when its speed is positive, and the direction a calm is read along.
-pub(crate) fn perturbed_direction(s: &EnvSample, d: &EnvDraw) -> (f64, f64) {
-    let speed = (s.u_kn * s.u_kn + s.v_kn * s.v_kn).sqrt();
-    let (ue, un) = if speed > 0.0 {
-        (s.u_kn / speed, s.v_kn / speed)
+    };
+    let (ue, un) = if n.speed > 0.0 {
+        (s.u_kn * n.inv_speed, s.v_kn * n.inv_speed)
     } else if s.calm_e != 0.0 || s.calm_n != 0.0 {
         (s.calm_e, s.calm_n)
     } else {
         (d.calm_e, d.calm_n)
     };
-    let (sn, cs) = turn(s, d);
     // A bearing b turned to b + delta: (sin(b+d), cos(b+d)).
-    (ue * cs + un * sn, un * cs - ue * sn)
+    (
+        n.speed + d.z_speed * s.speed_sigma_kn,
+        ue * cs + un * sn,
+        un * cs - ue * sn,
+    )
+}
+
+/// The perturbed vector of [`perturb_nominal`] as (east, north) knots (for tests).
+#[cfg(test)]
+pub(crate) fn perturb(s: &EnvSample, d: &EnvDraw) -> (f64, f64) {
+    let (f, te, tn) = perturb_nominal(&Nominal::new(*s), d);
+    (f * te, f * tn)
+}
+
+/// The turned unit vector of [`perturb_nominal`] (for tests).
+#[cfg(test)]
+pub(crate) fn perturbed_direction(s: &EnvSample, d: &EnvDraw) -> (f64, f64) {
+    let (_, te, tn) = perturb_nominal(&Nominal::new(*s), d);
+    (te, tn)
 }
 
 #[cfg(test)]

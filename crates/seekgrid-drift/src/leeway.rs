@@ -76,31 +76,24 @@ impl Leeway {
         Ok(())
     }
 
-    /// The leeway velocity (east, north) in knots for a wind moving toward (`wind_e_kn`,
-    /// `wind_n_kn`), side +1 or -1, and the particle's error draws (standard normals).
-    /// `calm` gives the unit (east, north) downwind direction used when the wind is exactly
-    /// zero (the direction of the estimate, turned by the particle's direction error).
+    /// The leeway velocity (east, north) in knots for a wind of speed `u10_kn` blowing toward
+    /// the unit vector `downwind` (east, north), side +1 or -1, and the particle's error draws
+    /// (standard normals).
     #[inline]
     pub(crate) fn velocity_kn(
         &self,
-        wind_toward_kn: (f64, f64),
+        u10_kn: f64,
+        downwind: (f64, f64),
         side: f64,
         z_down: f64,
         z_cross: f64,
-        calm: impl FnOnce() -> (f64, f64),
     ) -> (f64, f64) {
-        let u10 =
-            (wind_toward_kn.0 * wind_toward_kn.0 + wind_toward_kn.1 * wind_toward_kn.1).sqrt();
-        let (de, dn) = if u10 > 0.0 {
-            let inv = 1.0 / u10;
-            (wind_toward_kn.0 * inv, wind_toward_kn.1 * inv)
-        } else {
-            calm()
-        };
-        let down =
-            self.downwind_slope * u10 + self.downwind_offset_kn + z_down * self.downwind_sigma_kn;
+        let (de, dn) = downwind;
+        let down = self.downwind_slope * u10_kn
+            + self.downwind_offset_kn
+            + z_down * self.downwind_sigma_kn;
         let cross = side
-            * (self.crosswind_slope * u10
+            * (self.crosswind_slope * u10_kn
                 + self.crosswind_offset_kn
                 + z_cross * self.crosswind_sigma_kn);
         // Right of downwind: the downwind bearing + 90 degrees, unit (dn, -de).
@@ -121,10 +114,10 @@ mod tests {
             crosswind_offset_kn: 0.2,
             ..Leeway::NONE
         };
-        let (e, n) = lw.velocity_kn((0.0, -10.0), 1.0, 0.0, 0.0, || (0.0, -1.0));
+        let (e, n) = lw.velocity_kn(10.0, (0.0, -1.0), 1.0, 0.0, 0.0);
         assert_abs_diff_eq!(e, -0.2, epsilon = 1e-15);
         assert_abs_diff_eq!(n, 0.0, epsilon = 1e-15);
-        let (e, _) = lw.velocity_kn((0.0, -10.0), -1.0, 0.0, 0.0, || (0.0, -1.0));
+        let (e, _) = lw.velocity_kn(10.0, (0.0, -1.0), -1.0, 0.0, 0.0);
         assert_abs_diff_eq!(e, 0.2, epsilon = 1e-15);
     }
 
@@ -137,11 +130,11 @@ mod tests {
             ..Leeway::NONE
         };
         // Wind toward the east at 20 kn, downwind error draw +2 sigma: 0.6 + 0.1 + 0.1 kn.
-        let (e, n) = lw.velocity_kn((20.0, 0.0), 1.0, 2.0, 0.0, || (1.0, 0.0));
+        let (e, n) = lw.velocity_kn(20.0, (1.0, 0.0), 1.0, 2.0, 0.0);
         assert_abs_diff_eq!(e, 0.8, epsilon = 1e-12);
         assert_abs_diff_eq!(n, 0.0, epsilon = 1e-12);
         // In an exact calm the offset acts along the stated direction.
-        let (e, n) = lw.velocity_kn((0.0, 0.0), 1.0, 0.0, 0.0, || (0.0, 1.0));
+        let (e, n) = lw.velocity_kn(0.0, (0.0, 1.0), 1.0, 0.0, 0.0);
         assert_abs_diff_eq!(e, 0.0, epsilon = 1e-12);
         assert_abs_diff_eq!(n, 0.1, epsilon = 1e-12);
     }

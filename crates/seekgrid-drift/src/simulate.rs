@@ -1,9 +1,7 @@
 //! The Monte Carlo drift simulation.
 
 use crate::Time;
-use crate::environment::{
-    Convention, EnvDraw, Environment, Prepared, perturb, perturbed_direction,
-};
+use crate::environment::{Convention, EnvDraw, Environment, Nominal, Prepared, perturb_nominal};
 use crate::error::DriftError;
 use crate::land::LandMask;
 use crate::leeway::Leeway;
@@ -267,12 +265,18 @@ impl DriftRun {
     }
 }
 
+/// Most steps for which the nominal environment is tabulated per step (64 bytes each).
+const MAX_TABULATED_STEPS: usize = 2_000_000;
+
 /// Times of the records and the step boundaries in each record interval.
 #[derive(Debug, Clone)]
 struct Lattice {
     record_s: Vec<f64>,
     /// For record interval k, the step boundaries from `record_s[k]` to `record_s[k + 1]`.
     bounds: Vec<Vec<f64>>,
+    /// For uniform environments: the nominal current and wind at the midpoint of each step,
+    /// `[k][j]` for step j of record interval k.
+    nominal: Option<Vec<Vec<(Nominal, Nominal)>>>,
 }
 
 impl Lattice {
@@ -304,7 +308,36 @@ impl Lattice {
                 b
             })
             .collect();
-        Self { record_s, bounds }
+        Self {
+            record_s,
+            bounds,
+            nominal: None,
+        }
+    }
+
+    /// Tabulates the nominal environment at every step midpoint when it does not depend on
+    /// position (and the table stays small).
+    fn tabulate(mut self, current: &Prepared<'_>, wind: &Prepared<'_>) -> Self {
+        let steps: usize = self.bounds.iter().map(|b| b.len() - 1).sum();
+        if current.is_uniform() && wind.is_uniform() && steps <= MAX_TABULATED_STEPS {
+            let table = self
+                .bounds
+                .iter()
+                .map(|b| {
+                    b.windows(2)
+                        .map(|w| {
+                            let mid = w[0] + 0.5 * (w[1] - w[0]);
+                            (
+                                Nominal::new(current.sample(None, mid)),
+                                Nominal::new(wind.sample(None, mid)),
+                            )
+                        })
+                        .collect()
+                })
+                .collect();
+            self.nominal = Some(table);
+        }
+        self
     }
 }
 
@@ -344,7 +377,35 @@ fn env_draw(rng: &mut ChaCha8Rng, env: &Prepared<'_>) -> EnvDraw {
     EnvDraw::new(z_speed, z_dir, calm, env.first_direction_sigma_deg())
 }
 
-impl Model<'_> {
+impl<'a> Model<'a> {
+    /// The prepared model of a validated scenario.
+    fn new(scenario: &'a DriftScenario, frame: &'a Frame) -> Self {
+        let start = scenario.adrift_earliest;
+        let (lon, lat) = scenario.lkp_lon_lat;
+        let lkp = frame.to_xy(lon, lat);
+        let gamma = frame.convergence_deg(lon, lat).to_radians();
+        let scale = point_scale(frame, lon, lat);
+        let (sg, cg) = gamma.sin_cos();
+        let f = scale * MPS_PER_KNOT;
+        let current = Prepared::new(&scenario.current, start, Convention::CURRENT);
+        let wind = Prepared::new(&scenario.wind, start, Convention::WIND);
+        Model {
+            uniform: current.is_uniform() && wind.is_uniform(),
+            current,
+            wind,
+            leeway: scenario.leeway,
+            frame,
+            lkp,
+            // Grid components of a true (east, north) vector: the bearing decreases by gamma.
+            to_grid: [[f * cg, -f * sg], [f * sg, f * cg]],
+            position_sigma_grid_m: scenario.position_sigma_m * scale,
+            window_s: (scenario.adrift_latest - start).as_seconds_f64(),
+            jibe_per_s: scenario.leeway.jibe_per_h / SECONDS_PER_HOUR,
+            diffusion_grid: (2.0 * scenario.diffusivity_m2_s).sqrt() * scale,
+            seed: scenario.seed,
+        }
+    }
+
     fn rngs(&self, i: usize) -> (ChaCha8Rng, ChaCha8Rng) {
         let mut init = ChaCha8Rng::seed_from_u64(self.seed);
         init.set_stream(2 * i as u64);
@@ -391,18 +452,27 @@ impl Model<'_> {
         } else {
             Some(self.frame.to_lon_lat(p))
         };
-        let c = perturb(
-            &self.current.sample_near(lon_lat, t_s, &mut hints[0]),
-            &init.current,
-        );
-        let ws = self.wind.sample_near(lon_lat, t_s, &mut hints[1]);
-        let w = perturb(&ws, &init.wind);
+        let c = Nominal::new(self.current.sample_near(lon_lat, t_s, &mut hints[0]));
+        let w = Nominal::new(self.wind.sample_near(lon_lat, t_s, &mut hints[1]));
+        self.velocity_of(&c, &w, init, side)
+    }
+
+    /// Velocity in the working frame, metres per second, for given nominal samples.
+    #[inline]
+    fn velocity_of(&self, current: &Nominal, wind: &Nominal, init: &Init, side: f64) -> Coord<f64> {
+        let (fc, ce, cn) = perturb_nominal(current, &init.current);
+        let (fw, we, wn) = perturb_nominal(wind, &init.wind);
+        // A negative perturbed speed blows the other way; in an exact calm the turned bearing
+        // of the estimate gives the downwind direction.
+        let (u10, downwind) = if fw < 0.0 {
+            (-fw, (-we, -wn))
+        } else {
+            (fw, (we, wn))
+        };
         let l = self
             .leeway
-            .velocity_kn(w, side, init.z_down, init.z_cross, || {
-                perturbed_direction(&ws, &init.wind)
-            });
-        let (e, n) = (c.0 + l.0, c.1 + l.1);
+            .velocity_kn(u10, downwind, side, init.z_down, init.z_cross);
+        let (e, n) = (fc * ce + l.0, fc * cn + l.1);
         Coord {
             x: self.to_grid[0][0] * e + self.to_grid[0][1] * n,
             y: self.to_grid[1][0] * e + self.to_grid[1][1] * n,
@@ -440,18 +510,28 @@ impl Model<'_> {
         let mut hints = [0usize; 2];
 
         // One midpoint step from s to e; returns false when the particle strands.
-        let mut substep = |pos: &mut Coord<f64>, s: f64, e: f64, side: f64| -> Option<f64> {
+        let mut substep = |pos: &mut Coord<f64>,
+                           s: f64,
+                           e: f64,
+                           side: f64,
+                           shared: Option<&(Nominal, Nominal)>|
+         -> Option<f64> {
             let dt = e - s;
             if dt.is_nan() || dt <= 0.0 {
                 return None;
             }
             let half = 0.5 * dt;
-            let mid = if self.uniform {
-                *pos
+            let v = if let Some((c, w)) = shared {
+                // The step's nominal environment, worked out once for all particles.
+                self.velocity_of(c, w, &init, side)
             } else {
-                *pos + self.velocity(*pos, s, &init, side, &mut hints) * half
+                let mid = if self.uniform {
+                    *pos
+                } else {
+                    *pos + self.velocity(*pos, s, &init, side, &mut hints) * half
+                };
+                self.velocity(mid, s + half, &init, side, &mut hints)
             };
-            let v = self.velocity(mid, s + half, &init, side, &mut hints);
             let mut new = *pos + v * dt;
             if diffusion {
                 let scale = self.diffusion_grid * dt.sqrt();
@@ -473,14 +553,14 @@ impl Model<'_> {
         for (k, bounds) in lattice.bounds.iter().enumerate() {
             let r1 = lattice.record_s[k + 1];
             if strand_s.is_infinite() && r1 > adrift_s {
-                'steps: for w in bounds.windows(2) {
+                'steps: for (j, w) in bounds.windows(2).enumerate() {
                     let (a, b) = (w[0], w[1]);
                     if b <= adrift_s {
                         continue;
                     }
                     let mut s = a.max(adrift_s);
                     while next_jibe < b {
-                        if let Some(t) = substep(&mut pos, s, next_jibe, side) {
+                        if let Some(t) = substep(&mut pos, s, next_jibe, side, None) {
                             strand_s = t;
                             break 'steps;
                         }
@@ -488,7 +568,14 @@ impl Model<'_> {
                         s = next_jibe;
                         next_jibe += rng.sample::<f64, _>(Exp1) / self.jibe_per_s;
                     }
-                    if let Some(t) = substep(&mut pos, s, b, side) {
+                    // A whole step uses the shared nominal environment: the same numbers as
+                    // evaluating it here (same midpoint time), without the per-particle cost.
+                    let shared = if s == a {
+                        lattice.nominal.as_ref().map(|n| &n[k][j])
+                    } else {
+                        None
+                    };
+                    if let Some(t) = substep(&mut pos, s, b, side, shared) {
                         strand_s = t;
                         break 'steps;
                     }
@@ -538,7 +625,9 @@ impl Model<'_> {
         if record_s.len() < 2 {
             return h;
         }
-        let lattice = |h: f64| Lattice::with_step(record_s.to_vec(), h, breaks);
+        let lattice = |h: f64| {
+            Lattice::with_step(record_s.to_vec(), h, breaks).tabulate(&self.current, &self.wind)
+        };
         let mut coarse = self.pilot(n, &lattice(h));
         for _ in 0..MAX_AUTO_HALVINGS {
             let fine = self.pilot(n, &lattice(h / 2.0));
@@ -718,36 +807,15 @@ pub fn simulate(
     let record_s = Lattice::record_times(end_s, options.record_every_s);
     let records = record_s.len();
 
-    let (lon, lat) = scenario.lkp_lon_lat;
-    let lkp = frame.to_xy(lon, lat);
-    let gamma = frame.convergence_deg(lon, lat).to_radians();
-    let scale = point_scale(frame, lon, lat);
-    let (sg, cg) = gamma.sin_cos();
-    let f = scale * MPS_PER_KNOT;
-    let current = Prepared::new(&scenario.current, start, Convention::CURRENT);
-    let wind = Prepared::new(&scenario.wind, start, Convention::WIND);
-    let model = Model {
-        uniform: current.is_uniform() && wind.is_uniform(),
-        current,
-        wind,
-        leeway: scenario.leeway,
-        frame,
-        lkp,
-        // Grid components of a true (east, north) vector: the bearing decreases by gamma.
-        to_grid: [[f * cg, -f * sg], [f * sg, f * cg]],
-        position_sigma_grid_m: scenario.position_sigma_m * scale,
-        window_s: (scenario.adrift_latest - start).as_seconds_f64(),
-        jibe_per_s: scenario.leeway.jibe_per_h / SECONDS_PER_HOUR,
-        diffusion_grid: (2.0 * scenario.diffusivity_m2_s).sqrt() * scale,
-        seed: scenario.seed,
-    };
+    let model = Model::new(scenario, frame);
     let mut breaks = model.current.breaks();
     breaks.extend(model.wind.breaks());
     let step_s = match options.step_s {
         Some(s) => s,
         None => model.automatic_step(n, &record_s, options.record_every_s, &breaks),
     };
-    let lattice = Lattice::with_step(record_s, step_s, &breaks);
+    let lattice =
+        Lattice::with_step(record_s, step_s, &breaks).tabulate(&model.current, &model.wind);
 
     let mut positions = vec![0.0; n * records * 2];
     let mut meta = vec![ParticleMeta::default(); n];
@@ -804,6 +872,63 @@ mod tests {
             assert_abs_diff_eq!(dx / ground, -k * g.sin(), epsilon = 1e-6);
             assert_abs_diff_eq!(dy / ground, k * g.cos(), epsilon = 1e-6);
             assert!((0.9995..1.001).contains(&k), "{k} at {lon} {lat}");
+        }
+    }
+
+    #[test]
+    fn the_shared_step_environment_gives_the_same_numbers_as_evaluating_it_per_particle() {
+        // Fast code against its slow reference: the per-step table must not change one bit.
+        use chrono::{Duration, TimeZone, Utc};
+        let t0 = Utc.with_ymd_and_hms(2024, 5, 1, 0, 0, 0).unwrap();
+        let est = |speed_kn: f64, direction_deg: f64| crate::VectorEstimate {
+            speed_kn,
+            direction_deg,
+            speed_sigma_kn: 0.2 * speed_kn,
+            direction_sigma_deg: 15.0,
+        };
+        let scenario = DriftScenario {
+            lkp_lon_lat: (-30.5, 20.2),
+            position_sigma_m: 500.0,
+            adrift_earliest: t0,
+            adrift_latest: t0 + Duration::hours(2),
+            current: Environment::Series(
+                (0..7)
+                    .map(|h| (t0 + Duration::hours(h), est(0.5, 40.0 * h as f64)))
+                    .collect(),
+            ),
+            wind: Environment::Series(vec![
+                (t0, est(10.0, 180.0)),
+                (t0 + Duration::minutes(150), est(0.0, 200.0)),
+                (t0 + Duration::hours(6), est(20.0, 270.0)),
+            ]),
+            leeway: Leeway {
+                downwind_slope: 0.03,
+                downwind_offset_kn: 0.05,
+                downwind_sigma_kn: 0.02,
+                crosswind_slope: 0.01,
+                crosswind_offset_kn: 0.01,
+                crosswind_sigma_kn: 0.01,
+                jibe_per_h: 0.3,
+            },
+            diffusivity_m2_s: 2.0,
+            particles: 200,
+            seed: 3,
+        };
+        let frame = Frame::for_position(-30.5, 20.2).unwrap();
+        let model = Model::new(&scenario, &frame);
+        let mut breaks = model.current.breaks();
+        breaks.extend(model.wind.breaks());
+        let record_s = Lattice::record_times(6.0 * 3600.0, 3600.0);
+        let plain = Lattice::with_step(record_s, 1200.0, &breaks);
+        let table = plain.clone().tabulate(&model.current, &model.wind);
+        assert!(plain.nominal.is_none() && table.nominal.is_some());
+        let r = plain.record_s.len();
+        for i in 0..scenario.particles {
+            let (mut a, mut b) = (vec![0.0; 2 * r], vec![0.0; 2 * r]);
+            let ma = model.run_particle(i, &plain, &mut a, None, true);
+            let mb = model.run_particle(i, &table, &mut b, None, true);
+            assert_eq!(a, b, "particle {i}");
+            assert_eq!(ma.strand_s, mb.strand_s);
         }
     }
 
