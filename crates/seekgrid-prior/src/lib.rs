@@ -1,4 +1,4 @@
-//! Analysts' weighted scenarios turned into cell probabilities on a [`GridSpec`].
+//! Analysts' weighted scenarios turned into cell probabilities on a [`GridSpec`](seekgrid_core::GridSpec).
 //!
 //! * [`Analyst`]: an id and a credibility weight (normalised over analysts).
 //! * [`Scenario`]: an id, its analyst, a weight (normalised per analyst) and a [`Shape`]:

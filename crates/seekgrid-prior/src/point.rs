@@ -4,7 +4,8 @@
 //!   differences, Φ-differences in x times Φ-differences in y (independent marginals).
 //! * Rotated ellipse: P(cell) = ∫_{y0}^{y1} φ_y(y) [Φ((x1 - m(y))/s) - Φ((x0 - m(y))/s)] dy,
 //!   with the conditional normal X | Y = y ~ N(m(y), s²), m(y) = μx + (cov/σy²)(y - μy),
-//!   s = σ1 σ2 / σy (e.g. Tong, *The Multivariate Normal Distribution*, 1990, §3.1), integrated
+//!   s = σ1 σ2 / σy (the conditional law of a bivariate normal, e.g. Tong, *The Multivariate
+//!   Normal Distribution*, 1990), integrated
 //!   over y by composite Gauss-Legendre ([`crate::quad::Composite`]) with the nodes shared by a
 //!   whole row of cells.
 //!
