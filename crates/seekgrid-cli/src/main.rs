@@ -1,0 +1,230 @@
+//! The `seekgrid` command. Thin: parses arguments, calls the libraries, prints one clear
+//! message per error, and exits 0 (ok), 1 (failure) or 2 (bad input).
+
+mod demo;
+
+use clap::{Parser, Subcommand};
+use seekgrid_incident::outputs::OutputSelection;
+use seekgrid_incident::summary::CAUTION;
+use seekgrid_incident::timeline::{MapError, MapOptions};
+use seekgrid_incident::{Incident, IncidentErrors};
+use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+const AFTER_HELP: &str = "CAUTION: seekgrid is decision support. Its output is only as good as its inputs (positions, errors, sweep widths, leeway, environment), and it ships no authoritative sweep widths or leeway values. The search mission coordinator decides, following the governing SAR manual, local procedures and licensed practice.";
+
+#[derive(Parser)]
+#[command(
+    name = "seekgrid",
+    version,
+    about = "Probability maps, search updates and search plans for search and rescue planners",
+    long_about = "seekgrid combines analysts' weighted scenarios of where a missing person or craft may be into one probability grid with an explicit rest of world, applies completed searches as Bayesian updates, follows drifting targets, and exports every layer for GIS viewers.",
+    after_help = AFTER_HELP
+)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Validate an incident file and every file it names, without computing anything
+    #[command(after_help = AFTER_HELP)]
+    Check {
+        /// The incident file (TOML)
+        file: PathBuf,
+    },
+    /// Compute the probability map at a time and write its layers
+    #[command(after_help = AFTER_HELP)]
+    Map {
+        /// The incident file (TOML)
+        file: PathBuf,
+        /// Output folder (created; an existing non-empty folder needs --force)
+        #[arg(long)]
+        out: PathBuf,
+        /// The time the map describes (RFC 3339, UTC): searches ended by then are applied and
+        /// drift is carried to it. Default: the end of the last logged search
+        #[arg(long)]
+        at: Option<String>,
+        /// Comma-separated outputs to write (default: all): summary, probability, containment,
+        /// heatmap, segments, searches, pod
+        #[arg(long)]
+        outputs: Option<String>,
+        /// Also print the summary as JSON on standard output
+        #[arg(long)]
+        json: bool,
+        /// Write into an existing output folder, replacing files of the same name
+        #[arg(long)]
+        force: bool,
+    },
+    /// Write the bundled invented demo incidents into a folder and map them
+    #[command(after_help = AFTER_HELP)]
+    Demo {
+        /// Output folder (created; an existing non-empty folder needs --force)
+        #[arg(long)]
+        out: PathBuf,
+        /// Replace files in an existing folder
+        #[arg(long)]
+        force: bool,
+    },
+}
+
+/// An error with the exit code it deserves.
+struct Failure {
+    code: u8,
+    message: String,
+}
+
+impl Failure {
+    fn bad_input(message: impl Into<String>) -> Self {
+        Self {
+            code: 2,
+            message: message.into(),
+        }
+    }
+    fn failed(message: impl Into<String>) -> Self {
+        Self {
+            code: 1,
+            message: message.into(),
+        }
+    }
+}
+
+impl From<IncidentErrors> for Failure {
+    fn from(e: IncidentErrors) -> Self {
+        Self::bad_input(e.to_string())
+    }
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    match run(cli) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(f) => {
+            eprintln!("seekgrid: {}", f.message);
+            ExitCode::from(f.code)
+        }
+    }
+}
+
+fn run(cli: Cli) -> Result<(), Failure> {
+    match cli.command {
+        Command::Check { file } => {
+            let incident = seekgrid_incident::load(&file)?;
+            // Preparing projects every position and validates every shape and search.
+            seekgrid_incident::prepare::prepare(&incident)
+                .map_err(|e| located(&incident, &e.to_string()))?;
+            println!(
+                "{}: ok ({} analyst(s), {} scenario(s), {} search(es), {} unit(s))",
+                file.display(),
+                incident.analysts.len(),
+                incident.scenarios.len(),
+                incident.searches.len(),
+                incident.units.len()
+            );
+            Ok(())
+        }
+        Command::Map {
+            file,
+            out,
+            at,
+            outputs,
+            json,
+            force,
+        } => {
+            let selection = match outputs {
+                Some(list) => OutputSelection::parse(&list).map_err(Failure::bad_input)?,
+                None => OutputSelection::all(),
+            };
+            let at = at.map(|t| parse_time(&t)).transpose()?;
+            let incident = seekgrid_incident::load(&file)?;
+            let summary = map_incident(&incident, &out, at, &selection, force)?;
+            if json {
+                println!(
+                    "{}",
+                    serde_json::to_string_pretty(&summary)
+                        .map_err(|e| Failure::failed(e.to_string()))?
+                );
+            } else {
+                eprintln!("{}", one_line(&summary, &out));
+            }
+            Ok(())
+        }
+        Command::Demo { out, force } => demo::run(&out, force),
+    }
+}
+
+fn one_line(s: &seekgrid_incident::summary::Summary, out: &Path) -> String {
+    format!(
+        "wrote {} ({} x {} cells of {} m, POC in grid {:.4}, outside {:.4}, {} search(es), cumulative POS {:.4})\n{}",
+        out.display(),
+        s.grid.rows,
+        s.grid.cols,
+        s.grid.cell_m,
+        s.poc_in_grid,
+        s.poc_outside,
+        s.searches.len(),
+        s.pos_cumulative,
+        CAUTION
+    )
+}
+
+fn parse_time(t: &str) -> Result<chrono::DateTime<chrono::Utc>, Failure> {
+    chrono::DateTime::parse_from_rfc3339(t.trim())
+        .map(|d| d.with_timezone(&chrono::Utc))
+        .map_err(|_| {
+            Failure::bad_input(format!(
+                "--at \"{t}\" is not an RFC 3339 time; write it as 2026-06-14T21:00:00Z"
+            ))
+        })
+}
+
+fn located(incident: &Incident, message: &str) -> Failure {
+    Failure::bad_input(format!("{}: {message}", incident.path.display()))
+}
+
+/// Maps an incident into `out`; shared by `map` and `demo`.
+fn map_incident(
+    incident: &Incident,
+    out: &Path,
+    at: Option<chrono::DateTime<chrono::Utc>>,
+    selection: &OutputSelection,
+    force: bool,
+) -> Result<seekgrid_incident::summary::Summary, Failure> {
+    let mut dir = seekgrid_render::OutputDir::create(out, force)
+        .map_err(|e| Failure::bad_input(e.to_string()))?;
+    dir.protect(&incident.path);
+    let bar = progress_bar();
+    let progress = |what: &str, done: u64, total: u64| {
+        if let Some(b) = &bar {
+            b.set_length(total);
+            b.set_position(done);
+            b.set_message(format!("drifting {what}"));
+        }
+    };
+    let result = seekgrid_incident::timeline::map(incident, &MapOptions { at }, &progress);
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    let m = result.map_err(|e| match e {
+        MapError::Belief(_) => Failure::failed(format!("{}: {e}", incident.path.display())),
+        other => located(incident, &other.to_string()),
+    })?;
+    seekgrid_incident::outputs::write(incident, &m, &dir, selection)
+        .map_err(|e| Failure::failed(e.to_string()))
+}
+
+/// A progress bar on standard error when it is a terminal; nothing when piped.
+fn progress_bar() -> Option<indicatif::ProgressBar> {
+    if !std::io::stderr().is_terminal() {
+        return None;
+    }
+    let b = indicatif::ProgressBar::new(0);
+    if let Ok(style) =
+        indicatif::ProgressStyle::with_template("{msg:20} [{bar:40}] {pos}/{len} particles ({eta})")
+    {
+        b.set_style(style.progress_chars("=> "));
+    }
+    Some(b)
+}

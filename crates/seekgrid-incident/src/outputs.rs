@@ -1,0 +1,365 @@
+//! Writing the layers of a computed map into an output folder, through seekgrid-render.
+
+use crate::model::Incident;
+use crate::summary::{CAUTION, Summary, summarise};
+use crate::timeline::IncidentMap;
+use geojson::{Feature, FeatureCollection, JsonObject, JsonValue};
+use ndarray::Array2;
+use seekgrid_render::{self as render, ColourScale, MapStyle, OutputDir, Overlay, RenderError};
+use std::collections::BTreeSet;
+
+/// The outputs that can be chosen with `--outputs`.
+pub const OUTPUT_NAMES: [&str; 7] = [
+    "summary",
+    "probability",
+    "containment",
+    "heatmap",
+    "segments",
+    "searches",
+    "pod",
+];
+
+/// Cells written to `probability.geojson` at most before it is limited to the top share.
+pub const MAX_PROBABILITY_FEATURES: usize = 200_000;
+
+/// The share of grid mass written when `probability.geojson` is limited.
+pub const TOP_SHARE: f64 = 0.999;
+
+/// Which outputs to write.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct OutputSelection(BTreeSet<&'static str>);
+
+impl OutputSelection {
+    /// Every output.
+    #[must_use]
+    pub fn all() -> Self {
+        Self(OUTPUT_NAMES.into_iter().collect())
+    }
+
+    /// Parses a comma-separated list such as `summary,heatmap`.
+    ///
+    /// # Errors
+    /// Names the unknown output and lists the known ones.
+    pub fn parse(list: &str) -> Result<Self, String> {
+        let mut set = BTreeSet::new();
+        for name in list.split(',').map(str::trim).filter(|s| !s.is_empty()) {
+            match OUTPUT_NAMES.iter().find(|n| **n == name) {
+                Some(n) => {
+                    set.insert(*n);
+                }
+                None => {
+                    return Err(format!(
+                        "unknown output \"{name}\"; choose from {}",
+                        OUTPUT_NAMES.join(", ")
+                    ));
+                }
+            }
+        }
+        if set.is_empty() {
+            return Err(format!(
+                "no output named; choose from {}",
+                OUTPUT_NAMES.join(", ")
+            ));
+        }
+        Ok(Self(set))
+    }
+
+    /// Whether an output is chosen.
+    #[must_use]
+    pub fn has(&self, name: &str) -> bool {
+        self.0.contains(name)
+    }
+}
+
+fn foreign(incident: &Incident, m: &IncidentMap) -> JsonObject {
+    let mut f = JsonObject::new();
+    f.insert("title".into(), incident.title.clone().into());
+    f.insert("time".into(), m.at.to_rfc3339().into());
+    f.insert("caution".into(), CAUTION.into());
+    f
+}
+
+fn subtitle(m: &IncidentMap, what: &str) -> String {
+    format!(
+        "{what} at {} UTC | {} | cell {} m | {} search(es) applied",
+        m.at.format("%Y-%m-%d %H:%M"),
+        format_args!("EPSG:{}", m.prepared.frame.epsg()),
+        m.grid.cell_m(),
+        m.searches.len()
+    )
+}
+
+fn base_overlays(incident: &Incident, m: &IncidentMap) -> Vec<Overlay> {
+    let mut o = Vec::new();
+    if let Some(land) = &m.prepared.land {
+        for p in land {
+            // Afloat: land holds no probability and is filled; otherwise only the shore is drawn
+            // so the probability on land stays visible.
+            o.push(if incident.object_afloat == Some(true) {
+                Overlay::filled_polygon(p.clone(), [205, 190, 160, 255], [90, 70, 40], 2)
+                    .with_legend("land")
+            } else {
+                Overlay::polygon(p.clone(), [90, 70, 40], 3).with_legend("coastline")
+            });
+        }
+    }
+    if let Some(segments) = &m.prepared.segments {
+        for seg in segments {
+            for (k, p) in seg.polygons.iter().enumerate() {
+                let outline = Overlay::polygon(p.clone(), [60, 60, 60], 1);
+                o.push(if k == 0 {
+                    outline.with_label(&seg.id)
+                } else {
+                    outline
+                });
+            }
+        }
+    }
+    o
+}
+
+fn search_overlays(m: &IncidentMap) -> Vec<Overlay> {
+    let mut o = Vec::new();
+    for s in &m.searches {
+        match &s.area_polygon {
+            Some(a) => o.push(Overlay::polygon(a.clone(), [255, 255, 255], 2).with_label(&s.id)),
+            None => o.push(Overlay::line(s.track.clone(), [255, 255, 255], 2).with_label(&s.id)),
+        }
+    }
+    o
+}
+
+/// Writes the chosen outputs; returns the summary (with its `outputs` member filled in).
+///
+/// # Errors
+/// [`RenderError`] from the writer (a file that cannot be written, a layer that cannot be drawn).
+pub fn write(
+    incident: &Incident,
+    m: &IncidentMap,
+    dir: &OutputDir,
+    selection: &OutputSelection,
+) -> Result<Summary, RenderError> {
+    let frame = &m.prepared.frame;
+    let grid = &m.grid;
+    let poc = m.poc_cells();
+    let mut summary = summarise(incident, m);
+    let mut written = serde_json::Map::new();
+    let cell_km2 = grid.cell_area_m2() / 1e6;
+
+    if selection.has("probability") {
+        let layer = render::CellLayer {
+            frame,
+            grid,
+            poc: &poc,
+            pod_cumulative: m.pod_cumulative.as_ref(),
+        };
+        let export = render::probability_geojson(
+            &layer,
+            TOP_SHARE,
+            MAX_PROBABILITY_FEATURES,
+            "probability",
+            foreign(incident, m),
+        )?;
+        dir.write("probability.geojson", &export.geojson)?;
+        written.insert(
+            "probability.geojson".into(),
+            serde_json::json!({
+                "cells_written": export.cells_written,
+                "poc_written": export.mass_written,
+                "limited_to_top_share": export.limited.then_some(TOP_SHARE),
+            }),
+        );
+    }
+    if selection.has("containment") {
+        let bytes = render::containment_geojson(
+            frame,
+            grid,
+            &poc,
+            &[0.5, 0.9, 0.95],
+            "containment",
+            foreign(incident, m),
+        )?;
+        dir.write("containment.geojson", &bytes)?;
+        written.insert(
+            "containment.geojson".into(),
+            serde_json::json!({"levels": [0.5, 0.9, 0.95], "of": "mass in the grid"}),
+        );
+    }
+    if selection.has("heatmap") {
+        let density = poc.mapv(|p| p / cell_km2);
+        let sub = subtitle(m, "Probability map");
+        let style = MapStyle {
+            title: &incident.title,
+            subtitle: &sub,
+            caution: CAUTION,
+            legend_label: "probability per km²",
+            scale: ColourScale::Density,
+        };
+        let mut overlays = base_overlays(incident, m);
+        overlays.extend(search_overlays(m));
+        let png = render::heatmap_png(frame, grid, &density, &style, &overlays)?;
+        render::write_png_set(dir, "heatmap", &png)?;
+        written.insert("heatmap.png".into(), serde_json::json!({"pixels_per_cell": png.pixels_per_cell, "sidecars": ["heatmap.pgw", "heatmap.png.aux.xml", "heatmap.prj"]}));
+    }
+    if selection.has("pod")
+        && let Some(pod) = &m.pod_cumulative
+    {
+        let sub = subtitle(m, "Cumulative POD");
+        let style = MapStyle {
+            title: &incident.title,
+            subtitle: &sub,
+            caution: CAUTION,
+            legend_label: "cumulative POD",
+            scale: ColourScale::Fraction,
+        };
+        let mut overlays = base_overlays(incident, m);
+        overlays.extend(search_overlays(m));
+        let png = render::heatmap_png(frame, grid, pod, &style, &overlays)?;
+        render::write_png_set(dir, "pod", &png)?;
+        written.insert(
+            "pod.png".into(),
+            serde_json::json!({"pixels_per_cell": png.pixels_per_cell}),
+        );
+    }
+    if selection.has("segments")
+        && let Some(segments) = &m.prepared.segments
+    {
+        let (csv, geojson) = segment_tables(m, segments, &poc)?;
+        dir.write("segments.csv", csv.as_bytes())?;
+        dir.write("segments.geojson", &geojson)?;
+        written.insert(
+            "segments.csv".into(),
+            serde_json::json!({"segments": segments.len()}),
+        );
+    }
+    if selection.has("searches") && !m.searches.is_empty() {
+        dir.write("searches.geojson", &searches_geojson(incident, m)?)?;
+        written.insert(
+            "searches.geojson".into(),
+            serde_json::json!({"searches": m.searches.len()}),
+        );
+    }
+    summary.outputs = written;
+    if selection.has("summary") {
+        let mut bytes = serde_json::to_vec_pretty(&summary)
+            .map_err(|e| RenderError::Topology(e.to_string()))?;
+        bytes.push(b'\n');
+        dir.write("summary.json", &bytes)?;
+    }
+    Ok(summary)
+}
+
+/// Per segment: POA now, area, density, and after searches cumulative POD and POS.
+fn segment_tables(
+    m: &IncidentMap,
+    segments: &[seekgrid_prior::Segment],
+    poc: &Array2<f64>,
+) -> Result<(String, Vec<u8>), RenderError> {
+    let now = seekgrid_prior::segment_table(poc, &m.grid, segments);
+    // Cumulative POD of a segment: its prior mass weighted by each cell's cumulative POD,
+    // over its prior mass; its POS: that weighted mass itself (share of the original prior).
+    let before = m.belief_before_searches.cells();
+    let searched = m.pod_cumulative.as_ref().map(|pod| {
+        let found = before * pod;
+        (
+            seekgrid_prior::segment_table(before, &m.grid, segments),
+            seekgrid_prior::segment_table(&found, &m.grid, segments),
+        )
+    });
+    let mut csv = String::from("segment,area_km2,poa,density_km2,pod_cumulative,pos_cumulative\n");
+    let mut features = Vec::new();
+    for (k, row) in now.iter().enumerate() {
+        let (pod, pos) = match &searched {
+            Some((b, f)) if b[k].poa > 0.0 => (Some(f[k].poa / b[k].poa), Some(f[k].poa)),
+            Some(_) => (Some(0.0), Some(0.0)),
+            None => (None, None),
+        };
+        let fmt = |v: Option<f64>| v.map_or(String::new(), |v| format!("{v:.6}"));
+        csv.push_str(&format!(
+            "{},{:.6},{:.6},{:.6},{},{}\n",
+            row.id,
+            row.area_m2 / 1e6,
+            row.poa,
+            row.density_per_km2,
+            fmt(pod),
+            fmt(pos)
+        ));
+        for poly in &segments[k].polygons {
+            let mut props = JsonObject::new();
+            props.insert("segment".into(), row.id.clone().into());
+            props.insert("area_km2".into(), (row.area_m2 / 1e6).into());
+            props.insert("poa".into(), row.poa.into());
+            props.insert("density_km2".into(), row.density_per_km2.into());
+            if let (Some(pod), Some(pos)) = (pod, pos) {
+                props.insert("pod_cumulative".into(), pod.into());
+                props.insert("pos_cumulative".into(), pos.into());
+            }
+            features.push(Feature {
+                geometry: Some(render::polygon_to_geojson(&m.prepared.frame, poly)),
+                properties: Some(props),
+                ..Default::default()
+            });
+        }
+    }
+    let fc = FeatureCollection {
+        features,
+        bbox: None,
+        foreign_members: Some(named("segments")),
+    };
+    Ok((csv, render::geojson_bytes(fc)?))
+}
+
+fn named(name: &str) -> JsonObject {
+    let mut f = JsonObject::new();
+    f.insert("name".into(), name.into());
+    f.insert("caution".into(), CAUTION.into());
+    f
+}
+
+fn searches_geojson(incident: &Incident, m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
+    let frame = &m.prepared.frame;
+    let mut features = Vec::new();
+    for s in &m.searches {
+        let mut props = JsonObject::new();
+        props.insert("search".into(), s.id.clone().into());
+        props.insert("unit".into(), s.unit.clone().into());
+        props.insert("start".into(), s.start.to_rfc3339().into());
+        props.insert("end".into(), s.end.to_rfc3339().into());
+        props.insert("sweep_width_m".into(), s.sweep_width_m.into());
+        props.insert("detection".into(), s.detection.into());
+        props.insert("track_length_m".into(), s.track_length_m.into());
+        props.insert("pos".into(), s.pos.into());
+        props.insert("pod_mean_in_area".into(), s.outcome.pod_mean_in_area.into());
+        if let Some(v) = s.track_spacing_m {
+            props.insert("track_spacing_m".into(), v.into());
+        }
+        if let Some(v) = s.coverage {
+            props.insert("coverage".into(), v.into());
+        }
+        if let Some(v) = s.pod_pattern {
+            props.insert("pod".into(), v.into());
+        }
+        if let Some(area) = &s.area_polygon {
+            let mut p = props.clone();
+            p.insert("part".into(), "area".into());
+            features.push(Feature {
+                geometry: Some(render::polygon_to_geojson(frame, area)),
+                properties: Some(p),
+                ..Default::default()
+            });
+        }
+        props.insert("part".into(), "track".into());
+        features.push(Feature {
+            geometry: Some(render::line_to_geojson(frame, &s.track)),
+            properties: Some(props),
+            ..Default::default()
+        });
+    }
+    let mut f = named("searches");
+    f.insert("title".into(), JsonValue::from(incident.title.clone()));
+    render::geojson_bytes(FeatureCollection {
+        features,
+        bbox: None,
+        foreign_members: Some(f),
+    })
+}

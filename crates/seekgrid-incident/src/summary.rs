@@ -1,0 +1,287 @@
+//! `summary.json`: what a run computed, in numbers a reviewer can check.
+
+use crate::model::Incident;
+use crate::timeline::IncidentMap;
+use serde::Serialize;
+
+/// The caution every output carries.
+pub const CAUTION: &str = "Decision support only: seekgrid's output is only as good as its inputs. The search mission coordinator decides, following the governing SAR manual, local procedures and licensed practice.";
+
+/// The grid, in the frame and in lon/lat.
+#[derive(Debug, Clone, Serialize)]
+pub struct GridSummary {
+    /// Working CRS.
+    pub crs: String,
+    /// Cell side, metres.
+    pub cell_m: f64,
+    /// Rows.
+    pub rows: usize,
+    /// Columns.
+    pub cols: usize,
+    /// West edge, metres.
+    pub west_m: f64,
+    /// South edge, metres.
+    pub south_m: f64,
+    /// East edge, metres.
+    pub east_m: f64,
+    /// North edge, metres.
+    pub north_m: f64,
+    /// `"auto"` (holds the prior's mass) or `"given"` (the incident's bounds).
+    pub extent: &'static str,
+}
+
+/// One analyst's weight and how far they stand from the crowd.
+#[derive(Debug, Clone, Serialize)]
+pub struct AnalystSummary {
+    /// Id.
+    pub id: String,
+    /// Normalised credibility weight.
+    pub weight: f64,
+    /// Share of the stationary pool.
+    pub share_of_stationary: Option<f64>,
+    /// Jensen-Shannon divergence from the pooled map, bits.
+    pub js_divergence_bits: Option<f64>,
+    /// Total-variation distance between the pool with and without this analyst.
+    pub leave_one_out_shift: Option<f64>,
+    /// How far the pool's centroid moves without this analyst, metres.
+    pub leave_one_out_centroid_shift_m: Option<f64>,
+}
+
+/// One scenario's effective weight.
+#[derive(Debug, Clone, Serialize)]
+pub struct ScenarioSummary {
+    /// Id.
+    pub id: String,
+    /// Analyst.
+    pub analyst: String,
+    /// Kind.
+    pub kind: &'static str,
+    /// Mass in the pool (analyst weight x scenario weight).
+    pub weight: f64,
+}
+
+/// One completed search.
+#[derive(Debug, Clone, Serialize)]
+pub struct SearchSummary {
+    /// Id.
+    pub id: String,
+    /// Unit.
+    pub unit: String,
+    /// Start.
+    pub start: String,
+    /// End.
+    pub end: String,
+    /// POS of this search given the searches before it.
+    pub pos: f64,
+    /// Mass-weighted mean POD over the searched cells.
+    pub pod_mean_in_area: f64,
+    /// POC of the searched cells before the update.
+    pub poc_before: f64,
+    /// POC of the searched cells after the update.
+    pub poc_after: f64,
+    /// Effective sweep width, metres.
+    pub sweep_width_m: f64,
+    /// Detection law.
+    pub detection: &'static str,
+    /// Track spacing, metres (patterns).
+    pub track_spacing_m: Option<f64>,
+    /// Track length, metres.
+    pub track_length_m: f64,
+    /// Coverage (patterns).
+    pub coverage: Option<f64>,
+    /// Mass removed from the drifting part.
+    pub particle_mass_removed: f64,
+    /// Mass removed from the grid part.
+    pub grid_mass_removed: f64,
+}
+
+/// One drift scenario.
+#[derive(Debug, Clone, Serialize)]
+pub struct DriftSummary {
+    /// Scenario id.
+    pub id: String,
+    /// Particles.
+    pub particles: usize,
+    /// Mass in the pool.
+    pub weight: f64,
+    /// Time step used, seconds.
+    pub step_s: f64,
+    /// Particles stranded ashore at the map time.
+    pub stranded_at_map_time: usize,
+}
+
+/// The whole summary.
+#[derive(Debug, Clone, Serialize)]
+pub struct Summary {
+    /// The caution.
+    pub caution: &'static str,
+    /// Title.
+    pub title: String,
+    /// Notes from the incident.
+    pub notes: Option<String>,
+    /// Reference time of the prior.
+    pub reference_time: String,
+    /// The time this map describes.
+    pub at: String,
+    /// Grid.
+    pub grid: GridSummary,
+    /// Pool.
+    pub pool: &'static str,
+    /// Probability inside the grid (cells plus particles inside it).
+    pub poc_in_grid: f64,
+    /// Probability outside the grid: rest of world declared by analysts, mass that fell outside
+    /// the grid, and particles outside it.
+    pub poc_outside: f64,
+    /// Of `poc_outside`: declared rest of world.
+    pub rest_of_world_declared: f64,
+    /// Of `poc_outside`: stationary mass outside the grid extent.
+    pub outside_grid: f64,
+    /// Of `poc_outside`: particles outside the grid.
+    pub particles_outside_grid: f64,
+    /// Mass held by the drifting part.
+    pub poc_drifting: f64,
+    /// Analysts.
+    pub analysts: Vec<AnalystSummary>,
+    /// Effective number of independent opinions (stationary part).
+    pub effective_opinions: Option<f64>,
+    /// Scenarios.
+    pub scenarios: Vec<ScenarioSummary>,
+    /// Searches applied, in order.
+    pub searches: Vec<SearchSummary>,
+    /// Searches logged but ending after `at`.
+    pub searches_pending: Vec<String>,
+    /// 1 - prod(1 - POS_k): the chance the searches so far would have found the object.
+    pub pos_cumulative: f64,
+    /// Drift scenarios.
+    pub drift: Vec<DriftSummary>,
+    /// What each output file holds (filled in by the writer).
+    pub outputs: serde_json::Map<String, serde_json::Value>,
+}
+
+fn kind_name(k: &crate::model::ScenarioKind) -> &'static str {
+    use crate::model::ScenarioKind as K;
+    match k {
+        K::Point { .. } => "point",
+        K::Route { .. } => "route",
+        K::Area { .. } => "area",
+        K::Segments { .. } => "segments",
+        K::Rings { .. } => "rings",
+        K::Drift(_) => "drift",
+    }
+}
+
+/// The summary of a computed map.
+#[must_use]
+pub fn summarise(incident: &Incident, m: &IncidentMap) -> Summary {
+    let g = &m.grid;
+    let e = g.extent();
+    let b = &m.belief;
+    let particles_outside = m.particles_outside_grid();
+    let row = b.rest_of_world();
+    let declared = row * m.declared_share_of_outside;
+    let outside_grid = row - declared;
+    let poc_outside = row + particles_outside;
+    let diag = m.prior.as_ref().map(|p| &p.diagnostics);
+    let analysts = m
+        .prepared
+        .analyst_weights
+        .iter()
+        .map(|(id, w)| {
+            let d = diag.and_then(|d| d.analysts.iter().find(|a| a.id == *id));
+            AnalystSummary {
+                id: id.clone(),
+                weight: *w,
+                share_of_stationary: d.map(|d| d.share),
+                js_divergence_bits: d.map(|d| d.js_divergence_bits),
+                leave_one_out_shift: d.map(|d| d.leave_one_out_shift),
+                leave_one_out_centroid_shift_m: d.map(|d| d.leave_one_out_centroid_shift_m),
+            }
+        })
+        .collect();
+    let scenarios = incident
+        .scenarios
+        .iter()
+        .zip(&m.prepared.scenario_weights)
+        .map(|(s, (_, _, w))| ScenarioSummary {
+            id: s.id.clone(),
+            analyst: s.analyst.clone(),
+            kind: kind_name(&s.kind),
+            weight: *w,
+        })
+        .collect();
+    let searches = m
+        .searches
+        .iter()
+        .map(|r| SearchSummary {
+            id: r.id.clone(),
+            unit: r.unit.clone(),
+            start: r.start.to_rfc3339(),
+            end: r.end.to_rfc3339(),
+            pos: r.pos,
+            pod_mean_in_area: r.outcome.pod_mean_in_area,
+            poc_before: r.outcome.poc_in_area_before,
+            poc_after: r.outcome.poc_in_area_after,
+            sweep_width_m: r.sweep_width_m,
+            detection: r.detection,
+            track_spacing_m: r.track_spacing_m,
+            track_length_m: r.track_length_m,
+            coverage: r.coverage,
+            particle_mass_removed: r.outcome.particle_mass_removed,
+            grid_mass_removed: r.outcome.grid_mass_removed,
+        })
+        .collect();
+    let drift = m
+        .prepared
+        .drift
+        .iter()
+        .zip(&m.drift_runs)
+        .map(|(d, (_, run))| DriftSummary {
+            id: d.id.clone(),
+            particles: run.len(),
+            weight: d.mass,
+            step_s: run.step_s(),
+            stranded_at_map_time: run
+                .positions_at(m.at)
+                .stranded
+                .iter()
+                .filter(|s| **s)
+                .count(),
+        })
+        .collect();
+    Summary {
+        caution: CAUTION,
+        title: incident.title.clone(),
+        notes: incident.notes.clone(),
+        reference_time: incident.reference_time.to_rfc3339(),
+        at: m.at.to_rfc3339(),
+        grid: GridSummary {
+            crs: format!("EPSG:{}", m.prepared.frame.epsg()),
+            cell_m: g.cell_m(),
+            rows: g.rows(),
+            cols: g.cols(),
+            west_m: e.west_m,
+            south_m: e.south_m,
+            east_m: e.east_m,
+            north_m: e.north_m,
+            extent: if m.grid_auto { "auto" } else { "given" },
+        },
+        pool: match m.prepared.pool {
+            seekgrid_prior::Pool::Linear => "linear",
+            seekgrid_prior::Pool::Logarithmic => "logarithmic",
+        },
+        poc_in_grid: 1.0 - poc_outside,
+        poc_outside,
+        rest_of_world_declared: declared,
+        outside_grid,
+        particles_outside_grid: particles_outside,
+        poc_drifting: b.particle_mass(),
+        analysts,
+        effective_opinions: diag.map(|d| d.effective_opinions),
+        scenarios,
+        searches,
+        searches_pending: m.searches_pending.clone(),
+        pos_cumulative: m.pos_cumulative,
+        drift,
+        outputs: serde_json::Map::new(),
+    }
+}
