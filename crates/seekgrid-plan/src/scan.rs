@@ -1,0 +1,484 @@
+//! The global scan: every orientation, size and position of a rectangle, scored on rotated
+//! summed-area tables of the residual mass.
+//!
+//! For each orientation the residual (first block-summed to about half the scan cell) is
+//! splatted bilinearly onto a raster aligned with the rectangle's axes; a pyramid of 2x2 sums
+//! gives coarser rasters, and each candidate size is scanned on the level whose cells are at
+//! most 1/K of its short side, at every node position, in O(1) per position with the
+//! summed-area table (mass taken as uniform within a scan cell, so fractional rectangle edges
+//! are exact bilinear look-ups). The result is approximate (the resampling moves mass by up to
+//! a scan cell); the local search and the exact evaluation that follow work on the grid's own
+//! cells.
+
+use crate::geometry::{Convex, axes};
+use geo::Coord;
+use ndarray::Array2;
+use rayon::prelude::*;
+use seekgrid_core::GridSpec;
+
+/// One rectangle size of the scan: `legs` legs at spacing `spacing_m` (short side
+/// `legs x spacing`, long side `track / legs`), with the POD it gives.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub(crate) struct RectSize {
+    pub(crate) spacing_m: f64,
+    pub(crate) legs: usize,
+    pub(crate) long_m: f64,
+    pub(crate) short_m: f64,
+    pub(crate) pod: f64,
+}
+
+/// The best position found for one orientation and size.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub(crate) struct ScanHit {
+    pub(crate) score: f64,
+    pub(crate) theta_deg: f64,
+    pub(crate) size: usize,
+    pub(crate) center: Coord<f64>,
+    /// The scan cell used, metres (the local search starts with this step).
+    pub(crate) cell_m: f64,
+}
+
+/// Settings of one scan.
+pub(crate) struct ScanSettings<'a> {
+    pub(crate) thetas_deg: &'a [f64],
+    pub(crate) cells_per_side: usize,
+    pub(crate) max_cells_per_axis: usize,
+    pub(crate) placed: &'a [Convex],
+    pub(crate) overlap_tolerance_m: f64,
+    /// Scan every position touching the raster, not only centres over the mass.
+    pub(crate) full_range: bool,
+}
+
+struct Block {
+    x: f64,
+    y: f64,
+    m: f64,
+}
+
+/// Scans every orientation and size; returns the best clear position of each (orientation,
+/// size) pair that has one, in the order orientation-major, size-minor.
+pub(crate) fn scan(
+    grid: &GridSpec,
+    residual: &Array2<f64>,
+    sizes: &[RectSize],
+    s: &ScanSettings<'_>,
+) -> Vec<ScanHit> {
+    if sizes.is_empty() {
+        return Vec::new();
+    }
+    let cell = grid.cell_m();
+    let ext = grid.extent();
+    let diag = ext.width_m().hypot(ext.height_m());
+    let min_short = sizes
+        .iter()
+        .map(|z| z.short_m)
+        .fold(f64::INFINITY, f64::min);
+    let h0 = cell
+        .max(min_short / s.cells_per_side as f64)
+        .max(diag / s.max_cells_per_axis as f64);
+    let mut blocks = block_sum(
+        grid,
+        residual,
+        ((h0 / (2.0 * cell)).floor() as usize).max(1),
+    );
+    // Leave out blocks that together hold at most 1e-9 of the mass: no candidate can gain
+    // from them, and they would widen the region scanned.
+    let total: f64 = blocks.iter().map(|b| b.m).sum();
+    let floor_m = 1e-9 * total / blocks.len().max(1) as f64;
+    blocks.retain(|b| b.m > floor_m);
+    if blocks.is_empty() {
+        return Vec::new();
+    }
+    let per_theta: Vec<Vec<ScanHit>> = s
+        .thetas_deg
+        .par_iter()
+        .map(|&theta| scan_orientation(&blocks, theta, h0, sizes, s))
+        .collect();
+    per_theta.into_iter().flatten().collect()
+}
+
+/// Block sums of the residual (b x b cells), as points at the centre of each block's cells;
+/// blocks without mass are left out.
+fn block_sum(grid: &GridSpec, residual: &Array2<f64>, b: usize) -> Vec<Block> {
+    let (rows, cols) = residual.dim();
+    let (br, bc) = (rows.div_ceil(b), cols.div_ceil(b));
+    let cell = grid.cell_m();
+    let per_row: Vec<Vec<Block>> = (0..br)
+        .into_par_iter()
+        .map(|i| {
+            let r0 = i * b;
+            let r1 = (r0 + b).min(rows);
+            let mut sums = vec![0.0; bc];
+            for r in r0..r1 {
+                let row = residual.row(r);
+                let row = row.as_slice().expect("standard layout");
+                for (s, chunk) in sums.iter_mut().zip(row.chunks(b)) {
+                    *s += chunk.iter().sum::<f64>();
+                }
+            }
+            let y = grid.north_m() - 0.5 * (r0 + r1) as f64 * cell;
+            sums.iter()
+                .enumerate()
+                .filter(|(_, m)| **m > 0.0)
+                .map(|(j, &m)| {
+                    let c0 = j * b;
+                    let c1 = (c0 + b).min(cols);
+                    Block {
+                        x: grid.west_m() + 0.5 * (c0 + c1) as f64 * cell,
+                        y,
+                        m,
+                    }
+                })
+                .collect()
+        })
+        .collect();
+    per_row.into_iter().flatten().collect()
+}
+
+/// A summed-area table `(na + 1) x (nb + 1)` with clamped look-ups.
+struct Sat {
+    na: usize,
+    nb: usize,
+    v: Vec<f64>,
+}
+
+impl Sat {
+    fn new(raster: &[f64], na: usize, nb: usize) -> Self {
+        let w = nb + 1;
+        let mut v = vec![0.0; (na + 1) * w];
+        for i in 0..na {
+            let mut run = 0.0;
+            for j in 0..nb {
+                run += raster[i * nb + j];
+                v[(i + 1) * w + j + 1] = v[i * w + j + 1] + run;
+            }
+        }
+        Self { na, nb, v }
+    }
+
+    /// Mass of the rectangle with lower corner at node `(i, j)` and sides `ia + fa`, `ib + fb`
+    /// cells (clamped look-ups; mass uniform within a cell makes the fractional edges exact
+    /// bilinear interpolation).
+    fn rect(&self, i: isize, j: isize, ia: isize, ib: isize, fa: f64, fb: f64) -> f64 {
+        let far = (1.0 - fa) * (1.0 - fb) * self.at(i + ia, j + ib)
+            + fa * (1.0 - fb) * self.at(i + ia + 1, j + ib)
+            + (1.0 - fa) * fb * self.at(i + ia, j + ib + 1)
+            + fa * fb * self.at(i + ia + 1, j + ib + 1);
+        let top = (1.0 - fb) * self.at(i, j + ib) + fb * self.at(i, j + ib + 1);
+        let side = (1.0 - fa) * self.at(i + ia, j) + fa * self.at(i + ia + 1, j);
+        far - top - side + self.at(i, j)
+    }
+
+    #[inline(always)]
+    fn at(&self, i: isize, j: isize) -> f64 {
+        let i = i.clamp(0, self.na as isize) as usize;
+        let j = j.clamp(0, self.nb as isize) as usize;
+        self.v[i * (self.nb + 1) + j]
+    }
+}
+
+fn scan_orientation(
+    blocks: &[Block],
+    theta: f64,
+    h0: f64,
+    sizes: &[RectSize],
+    s: &ScanSettings<'_>,
+) -> Vec<ScanHit> {
+    let (u, v) = axes(theta);
+    let (mut a_min, mut a_max, mut b_min, mut b_max) = (
+        f64::INFINITY,
+        f64::NEG_INFINITY,
+        f64::INFINITY,
+        f64::NEG_INFINITY,
+    );
+    for bl in blocks {
+        let a = bl.x * u.x + bl.y * u.y;
+        let b = bl.x * v.x + bl.y * v.y;
+        a_min = a_min.min(a);
+        a_max = a_max.max(a);
+        b_min = b_min.min(b);
+        b_max = b_max.max(b);
+    }
+    // One spare cell on each side for the bilinear splat.
+    let a0 = a_min - h0;
+    let b0 = b_min - h0;
+    let na = ((a_max - a0) / h0).ceil() as usize + 2;
+    let nb = ((b_max - b0) / h0).ceil() as usize + 2;
+    let mut raster = vec![0.0; na * nb];
+    for bl in blocks {
+        let fa = (bl.x * u.x + bl.y * u.y - a0) / h0 - 0.5;
+        let fb = (bl.x * v.x + bl.y * v.y - b0) / h0 - 0.5;
+        // fa, fb >= 0.5, so truncation is the floor.
+        let (ia, ib) = (fa as usize, fb as usize);
+        let (wa, wb) = (fa - ia as f64, fb - ib as f64);
+        raster[ia * nb + ib] += bl.m * (1.0 - wa) * (1.0 - wb);
+        raster[(ia + 1) * nb + ib] += bl.m * wa * (1.0 - wb);
+        raster[ia * nb + ib + 1] += bl.m * (1.0 - wa) * wb;
+        raster[(ia + 1) * nb + ib + 1] += bl.m * wa * wb;
+    }
+    // Pyramid of 2x2 sums.
+    let mut levels = vec![Sat::new(&raster, na, nb)];
+    let (mut cur, mut cna, mut cnb) = (raster, na, nb);
+    while cna >= 4 && cnb >= 4 {
+        let (pa, pb) = (cna.div_ceil(2), cnb.div_ceil(2));
+        let mut next = vec![0.0; pa * pb];
+        for i in 0..cna {
+            for j in 0..cnb {
+                next[(i / 2) * pb + j / 2] += cur[i * cnb + j];
+            }
+        }
+        levels.push(Sat::new(&next, pa, pb));
+        (cur, cna, cnb) = (next, pa, pb);
+    }
+    let blockers: Vec<Blocker> = s
+        .placed
+        .iter()
+        .map(|p| Blocker::new(p, u, v, s.overlap_tolerance_m))
+        .collect();
+    let k = s.cells_per_side as f64;
+    sizes
+        .iter()
+        .enumerate()
+        .filter_map(|(idx, z)| {
+            let ratio = z.short_m / (k * h0);
+            let level = if ratio >= 2.0 {
+                (ratio.log2().floor() as usize).min(levels.len() - 1)
+            } else {
+                0
+            };
+            let h = h0 * (1u64 << level) as f64;
+            best_position(
+                &levels[level],
+                z,
+                h,
+                a0,
+                b0,
+                u,
+                v,
+                &blockers,
+                (a_min, a_max, b_min, b_max),
+                s.full_range,
+            )
+            .map(|(score, center)| ScanHit {
+                score,
+                theta_deg: theta,
+                size: idx,
+                center,
+                cell_m: h,
+            })
+        })
+        .collect()
+}
+
+/// One separating-axis test of the candidates against a placed area: the candidates overlap
+/// the area on this axis when `lo < c·n ± extent < hi` (see [`Blocker`]).
+struct Axis {
+    /// Components of the axis along the candidate's u and v.
+    nu: f64,
+    nv: f64,
+    /// The placed area's projection, shrunk by the tolerance.
+    lo: f64,
+    hi: f64,
+}
+
+/// A placed area as seen by the scan of one orientation: for each row `i` of positions, the
+/// positions `j` whose rectangle overlaps it form an open interval (the separating axis theorem
+/// with the candidate's two axes and the area's edge normals, each giving an interval that is
+/// linear in `j`), so blocked positions are skipped without testing each one.
+struct Blocker {
+    axes: Vec<Axis>,
+}
+
+impl Blocker {
+    fn new(poly: &Convex, u: Coord<f64>, v: Coord<f64>, tol: f64) -> Self {
+        let mut normals = vec![u, v];
+        let n = poly.pts.len();
+        for k in 0..n {
+            let a = poly.pts[k];
+            let b = poly.pts[(k + 1) % n];
+            let (nx, ny) = (b.y - a.y, a.x - b.x);
+            let len = nx.hypot(ny);
+            if len > 0.0 {
+                normals.push(Coord {
+                    x: nx / len,
+                    y: ny / len,
+                });
+            }
+        }
+        let axes = normals
+            .into_iter()
+            .map(|nrm| {
+                let (lo, hi) =
+                    poly.pts
+                        .iter()
+                        .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), p| {
+                            let d = p.x * nrm.x + p.y * nrm.y;
+                            (l.min(d), h.max(d))
+                        });
+                Axis {
+                    nu: u.x * nrm.x + u.y * nrm.y,
+                    nv: v.x * nrm.x + v.y * nrm.y,
+                    lo: lo + tol,
+                    hi: hi - tol,
+                }
+            })
+            .collect();
+        Self { axes }
+    }
+
+    /// The open interval of `j` blocked in row `i`, for candidates centred at
+    /// `a_c u + (b_start + j h) v` with half extents `ha` (along u) and `hb` (along v).
+    fn blocked(&self, a_c: f64, b_start: f64, h: f64, ha: f64, hb: f64) -> (f64, f64) {
+        let (mut jl, mut jh) = (f64::NEG_INFINITY, f64::INFINITY);
+        for ax in &self.axes {
+            let e = ha * ax.nu.abs() + hb * ax.nv.abs();
+            // Overlap on this axis: lo - e < alpha + beta j < hi + e.
+            let alpha = a_c * ax.nu + b_start * ax.nv;
+            let beta = h * ax.nv;
+            let (lo, hi) = (ax.lo - e - alpha, ax.hi + e - alpha);
+            if beta.abs() < 1e-12 * h {
+                if !(lo < 0.0 && 0.0 < hi) {
+                    return (0.0, 0.0);
+                }
+                continue;
+            }
+            let (a, b) = if beta > 0.0 {
+                (lo / beta, hi / beta)
+            } else {
+                (hi / beta, lo / beta)
+            };
+            jl = jl.max(a);
+            jh = jh.min(b);
+            if jl >= jh {
+                return (0.0, 0.0);
+            }
+        }
+        (jl, jh)
+    }
+}
+
+#[allow(clippy::too_many_arguments)]
+fn best_position(
+    sat: &Sat,
+    z: &RectSize,
+    h: f64,
+    a0: f64,
+    b0: f64,
+    u: Coord<f64>,
+    v: Coord<f64>,
+    blockers: &[Blocker],
+    region: (f64, f64, f64, f64),
+    full: bool,
+) -> Option<(f64, Coord<f64>)> {
+    let la = z.long_m / h;
+    let lb = z.short_m / h;
+    let (ia, ib) = (la.floor() as isize, lb.floor() as isize);
+    let (fa, fb) = (la - ia as f64, lb - ib as f64);
+    let w00 = (1.0 - fa) * (1.0 - fb);
+    let w10 = fa * (1.0 - fb);
+    let w01 = (1.0 - fa) * fb;
+    let w11 = fa * fb;
+    let (ha, hb) = (0.5 * z.long_m, 0.5 * z.short_m);
+    let b_start = b0 + 0.5 * lb * h;
+    let mut best: Option<(f64, isize, isize)> = None;
+    let mut blocked: Vec<(isize, isize)> = Vec::with_capacity(blockers.len());
+    let (na, nb) = (sat.na as isize, sat.nb as isize);
+    let w = sat.nb + 1;
+    // Centres within the region that holds mass (one cell of slack): moving a rectangle whose
+    // centre lies outside it towards it never loses mass. `full` scans every position that
+    // touches the raster instead (used when the region's positions are all blocked).
+    let (mut i_first, mut i_last) = (-(ia + 1), na);
+    let (mut j_first, mut j_last) = (-(ib + 1), nb);
+    if !full {
+        let (ra0, ra1) = ((region.0 - a0) / h, (region.1 - a0) / h);
+        let (rb0, rb1) = ((region.2 - b0) / h, (region.3 - b0) / h);
+        i_first = i_first.max((ra0 - 0.5 * la).floor() as isize - 1);
+        i_last = i_last.min((ra1 - 0.5 * la).ceil() as isize + 1);
+        j_first = j_first.max((rb0 - 0.5 * lb).floor() as isize - 1);
+        j_last = j_last.min((rb1 - 0.5 * lb).ceil() as isize + 1);
+    }
+    for i in i_first..=i_last {
+        let a_c = a0 + (i as f64 + 0.5 * la) * h;
+        // Blocked positions j: l < j < h, as inclusive integer ranges.
+        blocked.clear();
+        for bl in blockers {
+            let (l, hh) = bl.blocked(a_c, b_start, h, ha, hb);
+            if l < hh {
+                let lo = if l.is_finite() {
+                    (l.floor() as isize + 1).max(j_first)
+                } else {
+                    j_first
+                };
+                let hi = if hh.is_finite() {
+                    (hh.ceil() as isize - 1).min(j_last)
+                } else {
+                    j_last
+                };
+                if lo <= hi {
+                    blocked.push((lo, hi));
+                }
+            }
+        }
+        blocked.sort_unstable();
+        let rows_inside = i >= 0 && i + ia < na;
+        let mut j = j_first;
+        let mut k = 0;
+        while j <= j_last {
+            // Skip blocked ranges that start at or before j.
+            while k < blocked.len() && blocked[k].1 < j {
+                k += 1;
+            }
+            if k < blocked.len() && blocked[k].0 <= j {
+                j = blocked[k].1 + 1;
+                continue;
+            }
+            let seg_end = if k < blocked.len() {
+                blocked[k].0 - 1
+            } else {
+                j_last
+            };
+            if rows_inside {
+                let (iu, iau) = (i as usize, (i + ia) as usize);
+                let r0 = &sat.v[iu * w..(iu + 1) * w];
+                let ra = &sat.v[iau * w..(iau + 1) * w];
+                let rb = &sat.v[(iau + 1) * w..(iau + 2) * w];
+                // Columns needing no clamp: 0 <= j and j + ib + 1 <= nb.
+                let fast_lo = j.max(0);
+                let fast_hi = seg_end.min(nb - ib - 1);
+                for jj in j..=seg_end {
+                    let m = if jj >= fast_lo && jj <= fast_hi {
+                        let (q, qb) = (jj as usize, (jj + ib) as usize);
+                        w00 * ra[qb] + w10 * rb[qb] + w01 * ra[qb + 1] + w11 * rb[qb + 1]
+                            - ((1.0 - fb) * r0[qb] + fb * r0[qb + 1])
+                            - ((1.0 - fa) * ra[q] + fa * rb[q])
+                            + r0[q]
+                    } else {
+                        sat.rect(i, jj, ia, ib, fa, fb)
+                    };
+                    if best.is_none_or(|(bm, _, _)| m > bm) {
+                        best = Some((m, i, jj));
+                    }
+                }
+            } else {
+                for jj in j..=seg_end {
+                    let m = sat.rect(i, jj, ia, ib, fa, fb);
+                    if best.is_none_or(|(bm, _, _)| m > bm) {
+                        best = Some((m, i, jj));
+                    }
+                }
+            }
+            j = seg_end + 1;
+        }
+    }
+    best.map(|(m, i, j)| {
+        let a = a0 + (i as f64 + 0.5 * la) * h;
+        let b = b_start + j as f64 * h;
+        (
+            m.max(0.0) * z.pod,
+            Coord {
+                x: a * u.x + b * v.x,
+                y: a * u.y + b * v.y,
+            },
+        )
+    })
+}
