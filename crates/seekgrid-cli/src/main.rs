@@ -48,7 +48,7 @@ enum Command {
         #[arg(long)]
         at: Option<String>,
         /// Comma-separated outputs to write (default: all): summary, probability, containment,
-        /// heatmap, segments, searches, pod
+        /// heatmap, segments, searches, pod, particles, drift
         #[arg(long)]
         outputs: Option<String>,
         /// Also print the summary as JSON on standard output

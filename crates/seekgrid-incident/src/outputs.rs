@@ -9,7 +9,7 @@ use seekgrid_render::{self as render, ColourScale, MapStyle, OutputDir, Overlay,
 use std::collections::BTreeSet;
 
 /// The outputs that can be chosen with `--outputs`.
-pub const OUTPUT_NAMES: [&str; 7] = [
+pub const OUTPUT_NAMES: [&str; 9] = [
     "summary",
     "probability",
     "containment",
@@ -17,7 +17,12 @@ pub const OUTPUT_NAMES: [&str; 7] = [
     "segments",
     "searches",
     "pod",
+    "particles",
+    "drift",
 ];
+
+/// Particles written per drift scenario to `particles.geojson` at most.
+pub const MAX_PARTICLE_FEATURES: usize = 5_000;
 
 /// Cells written to `probability.geojson` at most before it is limited to the top share.
 pub const MAX_PROBABILITY_FEATURES: usize = 200_000;
@@ -239,6 +244,22 @@ pub fn write(
             serde_json::json!({"searches": m.searches.len()}),
         );
     }
+    if !m.drift_runs.is_empty() {
+        if selection.has("particles") {
+            dir.write("particles.geojson", &particles_geojson(m)?)?;
+            written.insert(
+                "particles.geojson".into(),
+                serde_json::json!({"thinned_to_at_most_per_scenario": MAX_PARTICLE_FEATURES, "weight": "mass of the particles each point stands for"}),
+            );
+        }
+        if selection.has("drift") {
+            dir.write("drift.geojson", &drift_geojson(m)?)?;
+            written.insert(
+                "drift.geojson".into(),
+                serde_json::json!({"mean_track": "hourly weighted mean", "ellipses": [0.5, 0.9], "weights": "the belief's weights at the map time"}),
+            );
+        }
+    }
     summary.outputs = written;
     if selection.has("summary") {
         let mut bytes = serde_json::to_vec_pretty(&summary)
@@ -361,5 +382,116 @@ fn searches_geojson(incident: &Incident, m: &IncidentMap) -> Result<Vec<u8>, Ren
         features,
         bbox: None,
         foreign_members: Some(f),
+    })
+}
+
+/// A thinned sample of each drift scenario's particles at the map time: every k-th particle,
+/// carrying the mass of the k particles it stands for, so the sample's weights add up to the
+/// drifting mass.
+fn particles_geojson(m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
+    let frame = &m.prepared.frame;
+    let p = m.belief.particles();
+    let mut features = Vec::new();
+    for (range, (id, _)) in m.particle_clouds().into_iter().zip(&m.drift_runs) {
+        let n = range.len();
+        let k = n.div_ceil(MAX_PARTICLE_FEATURES).max(1);
+        let mut i = range.start;
+        while i < range.end {
+            let block = i..(i + k).min(range.end);
+            let weight: f64 = p.weights()[block.clone()].iter().sum();
+            let mut props = JsonObject::new();
+            props.insert("scenario".into(), id.clone().into());
+            props.insert("weight".into(), weight.into());
+            props.insert("stranded".into(), p.stranded()[i].into());
+            features.push(Feature {
+                geometry: Some(render::point_to_geojson(frame, p.position(i))),
+                properties: Some(props),
+                ..Default::default()
+            });
+            i = block.end;
+        }
+    }
+    let mut f = named("particles");
+    f.insert("time".into(), m.at.to_rfc3339().into());
+    render::geojson_bytes(FeatureCollection {
+        features,
+        bbox: None,
+        foreign_members: Some(f),
+    })
+}
+
+/// Hourly weighted mean position of each drift scenario's cloud (a track and points) and its
+/// 50 % and 90 % spread ellipses, from the hour after the earliest adrift time to the map time.
+fn drift_geojson(m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
+    use chrono::{DurationRound, TimeDelta};
+    let frame = &m.prepared.frame;
+    let weights = m.belief.particles().weights();
+    let mut features = Vec::new();
+    let bad = |e: seekgrid_drift::DriftError| RenderError::Topology(e.to_string());
+    for (range, (id, run)) in m.particle_clouds().into_iter().zip(&m.drift_runs) {
+        let w = &weights[range];
+        let hour = TimeDelta::hours(1);
+        let mut t = run
+            .start()
+            .duration_trunc(hour)
+            .map_err(|e| RenderError::Topology(e.to_string()))?
+            + hour;
+        let mut times = vec![run.start()];
+        while t < m.at {
+            times.push(t);
+            t += hour;
+        }
+        times.push(m.at);
+        let mut track = Vec::new();
+        for t in &times {
+            let spread = run.spread_at(*t, w).map_err(bad)?;
+            track.push(spread.mean);
+            let mut props = JsonObject::new();
+            props.insert("scenario".into(), id.clone().into());
+            props.insert("time".into(), t.to_rfc3339().into());
+            props.insert("part".into(), "mean".into());
+            features.push(Feature {
+                geometry: Some(render::point_to_geojson(frame, spread.mean)),
+                properties: Some(props),
+                ..Default::default()
+            });
+            for level in [0.5, 0.9] {
+                let e = spread.ellipse(level).map_err(bad)?;
+                if e.semi_major_m <= 0.0 {
+                    continue;
+                }
+                let ring = geo::LineString(e.boundary(72));
+                let mut props = JsonObject::new();
+                props.insert("scenario".into(), id.clone().into());
+                props.insert("time".into(), t.to_rfc3339().into());
+                props.insert("part".into(), "ellipse".into());
+                props.insert("level".into(), level.into());
+                props.insert("semi_major_m".into(), e.semi_major_m.into());
+                props.insert("semi_minor_m".into(), e.semi_minor_m.into());
+                features.push(Feature {
+                    geometry: Some(render::polygon_to_geojson(
+                        frame,
+                        &geo::Polygon::new(ring, vec![]),
+                    )),
+                    properties: Some(props),
+                    ..Default::default()
+                });
+            }
+        }
+        let mut props = JsonObject::new();
+        props.insert("scenario".into(), id.clone().into());
+        props.insert("part".into(), "mean-track".into());
+        props.insert("start".into(), run.start().to_rfc3339().into());
+        props.insert("end".into(), m.at.to_rfc3339().into());
+        features.push(Feature {
+            geometry: Some(render::line_to_geojson(frame, &geo::LineString(track))),
+            properties: Some(props),
+            ..Default::default()
+        });
+    }
+    render::geojson_bytes(FeatureCollection {
+        features,
+        bbox: None,
+        foreign_members: Some(named("drift")),
     })
 }

@@ -215,6 +215,9 @@ fn demo_geojson_layers_pass_gdal_validity_and_winding_checks() {
         }
     }
     check_geojson(&demo.join("land/map/segments.geojson"));
+    for layer in ["particles.geojson", "drift.geojson"] {
+        check_geojson(&demo.join("marine/map").join(layer));
+    }
 }
 
 #[test]
@@ -317,4 +320,33 @@ fn searches_lower_the_probability_where_they_looked() {
         miss *= 1.0 - pos;
     }
     assert!((s["pos_cumulative"].as_f64().unwrap() - (1.0 - miss)).abs() < 1e-12);
+}
+
+#[test]
+fn drift_layers_carry_the_drifting_mass() {
+    let demo = demo_once();
+    let dir = demo.join("marine/map");
+    let s = summary(&dir);
+    let particles: Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.join("particles.geojson")).unwrap())
+            .unwrap();
+    let total: f64 = particles["features"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| f["properties"]["weight"].as_f64().unwrap())
+        .sum();
+    assert!(
+        (total - s["poc_drifting"].as_f64().unwrap()).abs() < 1e-9,
+        "{total}"
+    );
+    let drift: Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.join("drift.geojson")).unwrap()).unwrap();
+    let parts: Vec<&str> = drift["features"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| f["properties"]["part"].as_str().unwrap())
+        .collect();
+    assert!(parts.contains(&"mean-track") && parts.contains(&"ellipse"));
 }
