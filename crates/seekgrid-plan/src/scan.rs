@@ -156,9 +156,25 @@ impl Sat {
         Self { na, nb, v }
     }
 
+    /// The table extended by `pad` nodes on every side with the clamped values (0 before the
+    /// first row or column, the totals after the last), so that look-ups need no clamp.
+    fn padded(&self, pad: usize) -> Padded {
+        let w = self.nb + 1 + 2 * pad;
+        let rows = self.na + 1 + 2 * pad;
+        let mut v = vec![0.0; rows * w];
+        for pi in 0..rows {
+            let i = pi as isize - pad as isize;
+            for pj in 0..w {
+                v[pi * w + pj] = self.at(i, pj as isize - pad as isize);
+            }
+        }
+        Padded { pad, w, v }
+    }
+
     /// Mass of the rectangle with lower corner at node `(i, j)` and sides `ia + fa`, `ib + fb`
     /// cells (clamped look-ups; mass uniform within a cell makes the fractional edges exact
-    /// bilinear interpolation).
+    /// bilinear interpolation). The slow reference of the padded scan.
+    #[cfg(test)]
     fn rect(&self, i: isize, j: isize, ia: isize, ib: isize, fa: f64, fb: f64) -> f64 {
         let far = (1.0 - fa) * (1.0 - fb) * self.at(i + ia, j + ib)
             + fa * (1.0 - fb) * self.at(i + ia + 1, j + ib)
@@ -175,6 +191,13 @@ impl Sat {
         let j = j.clamp(0, self.nb as isize) as usize;
         self.v[i * (self.nb + 1) + j]
     }
+}
+
+/// A summed-area table padded with its clamped values (see [`Sat::padded`]).
+struct Padded {
+    pad: usize,
+    w: usize,
+    v: Vec<f64>,
 }
 
 fn scan_orientation(
@@ -199,9 +222,10 @@ fn scan_orientation(
         b_min = b_min.min(b);
         b_max = b_max.max(b);
     }
-    // One spare cell on each side for the bilinear splat.
-    let a0 = a_min - h0;
-    let b0 = b_min - h0;
+    // One spare cell on each side for the bilinear splat; the first mass point sits at the
+    // centre of a cell, so that at 0° and 90° the grid's cells land whole in the raster's.
+    let a0 = a_min - 1.5 * h0;
+    let b0 = b_min - 1.5 * h0;
     let na = ((a_max - a0) / h0).ceil() as usize + 2;
     let nb = ((b_max - b0) / h0).ceil() as usize + 2;
     let mut raster = vec![0.0; na * nb];
@@ -236,19 +260,37 @@ fn scan_orientation(
         .map(|p| Blocker::new(p, u, v, s.overlap_tolerance_m))
         .collect();
     let k = s.cells_per_side as f64;
+    let level_of = |z: &RectSize| {
+        let ratio = z.short_m / (k * h0);
+        if ratio >= 2.0 {
+            (ratio.log2().floor() as usize).min(levels.len() - 1)
+        } else {
+            0
+        }
+    };
+    // Padding each level needs: the largest side in cells, plus two.
+    let mut pads = vec![0usize; levels.len()];
+    for z in sizes {
+        let l = level_of(z);
+        let h = h0 * (1u64 << l) as f64;
+        let need = (z.long_m / h).max(z.short_m / h).ceil() as usize + 2;
+        pads[l] = pads[l].max(need);
+    }
+    let padded: Vec<Option<Padded>> = levels
+        .iter()
+        .zip(&pads)
+        .map(|(sat, &p)| (p > 0).then(|| sat.padded(p)))
+        .collect();
     sizes
         .iter()
         .enumerate()
         .filter_map(|(idx, z)| {
-            let ratio = z.short_m / (k * h0);
-            let level = if ratio >= 2.0 {
-                (ratio.log2().floor() as usize).min(levels.len() - 1)
-            } else {
-                0
-            };
+            let level = level_of(z);
             let h = h0 * (1u64 << level) as f64;
+            let table = padded[level].as_ref().expect("padded for its sizes");
             best_position(
                 &levels[level],
+                table,
                 z,
                 h,
                 a0,
@@ -360,6 +402,7 @@ impl Blocker {
 #[allow(clippy::too_many_arguments)]
 fn best_position(
     sat: &Sat,
+    table: &Padded,
     z: &RectSize,
     h: f64,
     a0: f64,
@@ -383,7 +426,6 @@ fn best_position(
     let mut best: Option<(f64, isize, isize)> = None;
     let mut blocked: Vec<(isize, isize)> = Vec::with_capacity(blockers.len());
     let (na, nb) = (sat.na as isize, sat.nb as isize);
-    let w = sat.nb + 1;
     // Centres within the region that holds mass (one cell of slack): moving a rectangle whose
     // centre lies outside it towards it never loses mass. `full` scans every position that
     // touches the raster instead (used when the region's positions are all blocked).
@@ -420,7 +462,12 @@ fn best_position(
             }
         }
         blocked.sort_unstable();
-        let rows_inside = i >= 0 && i + ia < na;
+        let (pad, w) = (table.pad as isize, table.w);
+        let row = |r: isize| {
+            let r = (r + pad) as usize;
+            &table.v[r * w..(r + 1) * w]
+        };
+        let (r0, ra, rb) = (row(i), row(i + ia), row(i + ia + 1));
         let mut j = j_first;
         let mut k = 0;
         while j <= j_last {
@@ -437,34 +484,15 @@ fn best_position(
             } else {
                 j_last
             };
-            if rows_inside {
-                let (iu, iau) = (i as usize, (i + ia) as usize);
-                let r0 = &sat.v[iu * w..(iu + 1) * w];
-                let ra = &sat.v[iau * w..(iau + 1) * w];
-                let rb = &sat.v[(iau + 1) * w..(iau + 2) * w];
-                // Columns needing no clamp: 0 <= j and j + ib + 1 <= nb.
-                let fast_lo = j.max(0);
-                let fast_hi = seg_end.min(nb - ib - 1);
-                for jj in j..=seg_end {
-                    let m = if jj >= fast_lo && jj <= fast_hi {
-                        let (q, qb) = (jj as usize, (jj + ib) as usize);
-                        w00 * ra[qb] + w10 * rb[qb] + w01 * ra[qb + 1] + w11 * rb[qb + 1]
-                            - ((1.0 - fb) * r0[qb] + fb * r0[qb + 1])
-                            - ((1.0 - fa) * ra[q] + fa * rb[q])
-                            + r0[q]
-                    } else {
-                        sat.rect(i, jj, ia, ib, fa, fb)
-                    };
-                    if best.is_none_or(|(bm, _, _)| m > bm) {
-                        best = Some((m, i, jj));
-                    }
-                }
-            } else {
-                for jj in j..=seg_end {
-                    let m = sat.rect(i, jj, ia, ib, fa, fb);
-                    if best.is_none_or(|(bm, _, _)| m > bm) {
-                        best = Some((m, i, jj));
-                    }
+            for jj in j..=seg_end {
+                let q = (jj + pad) as usize;
+                let qb = q + ib as usize;
+                let m = w00 * ra[qb] + w10 * rb[qb] + w01 * ra[qb + 1] + w11 * rb[qb + 1]
+                    - ((1.0 - fb) * r0[qb] + fb * r0[qb + 1])
+                    - ((1.0 - fa) * ra[q] + fa * rb[q])
+                    + r0[q];
+                if best.is_none_or(|(bm, _, _)| m > bm) {
+                    best = Some((m, i, jj));
                 }
             }
             j = seg_end + 1;
@@ -481,4 +509,108 @@ fn best_position(
             },
         )
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::geometry::{RowPrefix, rectangle};
+    use seekgrid_core::DEFAULT_MAX_CELLS;
+
+    fn raster(na: usize, nb: usize) -> Vec<f64> {
+        (0..na * nb)
+            .map(|k| ((k * 37 + 11) % 17) as f64 / 17.0)
+            .collect()
+    }
+
+    #[test]
+    fn padded_table_matches_clamped_lookups() {
+        let sat = Sat::new(&raster(7, 5), 7, 5);
+        let p = sat.padded(4);
+        for i in -4..=11isize {
+            for j in -4..=9isize {
+                let v = p.v[(i + 4) as usize * p.w + (j + 4) as usize];
+                assert_eq!(v, sat.at(i, j));
+            }
+        }
+        // The bilinear rectangle of the clamped table against a direct sum of whole cells.
+        let r = raster(7, 5);
+        let direct: f64 = (1..4)
+            .flat_map(|i| (2..4).map(move |j| (i, j)))
+            .map(|(i, j)| r[i * 5 + j])
+            .sum();
+        assert!((sat.rect(1, 2, 3, 2, 0.0, 0.0) - direct).abs() < 1e-12);
+    }
+
+    #[test]
+    fn blocked_positions_are_exactly_the_overlapping_ones() {
+        let placed = rectangle(Coord { x: 40.0, y: -25.0 }, 63.0, 120.0, 45.0);
+        for theta in [0.0, 15.0, 63.0, 100.0] {
+            let (u, v) = axes(theta);
+            let bl = Blocker::new(&placed, u, v, 1e-6);
+            let (h, long, short) = (7.0, 55.0, 20.0);
+            let (a0, b0) = (-150.0, -140.0);
+            for i in 0..40 {
+                let a_c = a0 + (i as f64 + 0.5 * long / h) * h;
+                let b_start = b0 + 0.5 * short;
+                let (l, hi) = bl.blocked(a_c, b_start, h, 0.5 * long, 0.5 * short);
+                for j in 0..40 {
+                    let b = b_start + j as f64 * h;
+                    let c = Coord {
+                        x: a_c * u.x + b * v.x,
+                        y: a_c * u.y + b * v.y,
+                    };
+                    let slow = rectangle(c, theta, long, short).overlaps(&placed, 1e-6);
+                    let jf = j as f64;
+                    let fast = l < hi && l < jf && jf < hi;
+                    assert_eq!(fast, slow, "theta {theta} i {i} j {j}");
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn aligned_scan_finds_the_brute_force_best_position() {
+        let grid = GridSpec::new(0.0, 2000.0, 100.0, 20, 20, DEFAULT_MAX_CELLS).unwrap();
+        let m = Array2::from_shape_fn((20, 20), |(r, c)| {
+            let (r, c) = (r as f64, c as f64);
+            (-((r - 6.0).powi(2) + (c - 12.0).powi(2)) / 8.0).exp()
+        });
+        let z = RectSize {
+            spacing_m: 50.0,
+            legs: 6,
+            long_m: 700.0,
+            short_m: 300.0,
+            pod: 0.5,
+        };
+        let s = ScanSettings {
+            thetas_deg: &[0.0],
+            cells_per_side: 3,
+            max_cells_per_axis: 1024,
+            placed: &[],
+            overlap_tolerance_m: 1e-6,
+            full_range: true,
+        };
+        let hits = scan(&grid, &m, &[z], &s);
+        assert_eq!(hits.len(), 1);
+        assert_eq!(hits[0].cell_m, 100.0);
+        // Brute force on the same lattice of positions (lower corners on cell corners).
+        let rp = RowPrefix::new(&grid, &m);
+        let mut best = 0.0f64;
+        for i in -8..28 {
+            for j in -8..28 {
+                let c = Coord {
+                    x: i as f64 * 100.0 + 150.0,
+                    y: j as f64 * 100.0 + 350.0,
+                };
+                best = best.max(rp.mass_under(&rectangle(c, 0.0, 700.0, 300.0)));
+            }
+        }
+        assert!(
+            (hits[0].score - 0.5 * best).abs() < 1e-12,
+            "{} vs {}",
+            hits[0].score,
+            0.5 * best
+        );
+    }
 }
