@@ -161,6 +161,15 @@ pub fn end_subpoints(cell_m: f64, width_m: f64) -> usize {
     (END_FACTOR * near_subpoints(cell_m, width_m)).clamp(1, MAX_END_SUBPOINTS)
 }
 
+/// Euclidean norm of `(dx, dy)`. `f64::hypot` guards against overflow at a cost of several
+/// times a square root; working-frame coordinates are metres (far below 1e150), so the plain
+/// square root is exact to rounding here. A track with coordinates beyond 1e150 m gives an
+/// infinite distance, i.e. no exposure, never a panic.
+#[inline]
+fn norm(dx: f64, dy: f64) -> f64 {
+    (dx * dx + dy * dy).sqrt()
+}
+
 #[inline]
 fn pod_of_exposure(e: f64) -> f64 {
     if e.is_nan() { 0.0 } else { -(-e).exp_m1() }
@@ -217,7 +226,7 @@ fn smooth_cells(
                     Sampling::Uniform(n) => n,
                     Sampling::Adaptive(n) => {
                         let near_end =
-                            |q: Coord<f64>| (q.x - centre.x).hypot(q.y - centre.y) <= near_radius;
+                            |q: Coord<f64>| norm(q.x - centre.x, q.y - centre.y) <= near_radius;
                         if near_end(first) || near_end(last) {
                             n_end
                         } else if n > 1 && tree.within(centre, near_radius) {
@@ -291,6 +300,20 @@ struct Node {
     len: f64,
     /// Length of the chord, metres.
     chord: f64,
+    /// Bounding box of the run's fixes (west, south, east, north), metres.
+    bbox: [f64; 4],
+}
+
+impl Node {
+    /// Distance from `p` to the run's bounding box (0 inside): a lower bound on the distance
+    /// from `p` to every point of the run (the run lies in the convex hull of its fixes).
+    #[inline]
+    fn bbox_distance(&self, p: Coord<f64>) -> f64 {
+        let [w, s, e, n] = self.bbox;
+        let dx = (w - p.x).max(p.x - e).max(0.0);
+        let dy = (s - p.y).max(p.y - n).max(0.0);
+        norm(dx, dy)
+    }
 }
 
 /// A track as a tree of runs of fixes (see the module documentation).
@@ -318,9 +341,9 @@ fn segment_geometry(a: Coord<f64>, b: Coord<f64>, len: f64, p: Coord<f64>) -> Se
     let s = rx * tx + ry * ty;
     let x = rx * ty - ry * tx;
     let dist = if s < 0.0 {
-        rx.hypot(ry)
+        norm(rx, ry)
     } else if s > len {
-        (p.x - b.x).hypot(p.y - b.y)
+        norm(p.x - b.x, p.y - b.y)
     } else {
         x.abs()
     };
@@ -333,9 +356,9 @@ fn segment_geometry(a: Coord<f64>, b: Coord<f64>, len: f64, p: Coord<f64>) -> Se
 }
 
 fn point_segment_distance(a: Coord<f64>, b: Coord<f64>, p: Coord<f64>) -> f64 {
-    let len = (b.x - a.x).hypot(b.y - a.y);
+    let len = norm(b.x - a.x, b.y - a.y);
     if len == 0.0 {
-        (p.x - a.x).hypot(p.y - a.y)
+        norm(p.x - a.x, p.y - a.y)
     } else {
         segment_geometry(a, b, len, p).dist
     }
@@ -348,7 +371,7 @@ impl TrackTree {
         let mut acc = 0.0;
         cum.push(0.0);
         for s in pts.windows(2) {
-            acc += (s[1].x - s[0].x).hypot(s[1].y - s[0].y);
+            acc += norm(s[1].x - s[0].x, s[1].y - s[0].y);
             cum.push(acc);
         }
         let mut tree = Self {
@@ -364,7 +387,7 @@ impl TrackTree {
 
     fn build(&mut self, i0: usize, i1: usize) -> usize {
         let (a, b) = (self.pts[i0], self.pts[i1]);
-        let chord = (b.x - a.x).hypot(b.y - a.y);
+        let chord = norm(b.x - a.x, b.y - a.y);
         let len = self.cum[i1] - self.cum[i0];
         let mut node = Node {
             i0,
@@ -374,6 +397,7 @@ impl TrackTree {
             delta: 0.0,
             len,
             chord,
+            bbox: [a.x.min(b.x), a.y.min(b.y), a.x.max(b.x), a.y.max(b.y)],
         };
         if i1 > i0 + 1 {
             let mut far = i0 + 1;
@@ -395,6 +419,13 @@ impl TrackTree {
             };
             node.left = self.build(i0, split);
             node.right = self.build(split, i1);
+            let (l, r) = (self.nodes[node.left].bbox, self.nodes[node.right].bbox);
+            node.bbox = [
+                l[0].min(r[0]),
+                l[1].min(r[1]),
+                l[2].max(r[2]),
+                l[3].max(r[3]),
+            ];
         }
         self.nodes.push(node);
         self.nodes.len() - 1
@@ -410,12 +441,16 @@ impl TrackTree {
         if node.len == 0.0 {
             return 0.0;
         }
+        let d_box = node.bbox_distance(p);
+        if d_box > reach {
+            return 0.0;
+        }
         let a = self.pts[node.i0];
         let b = self.pts[node.i1];
         if node.chord == 0.0 {
             // A closed run (it ends where it starts); never a leaf since len > 0.
-            let d = (p.x - a.x).hypot(p.y - a.y);
-            let d_lb = d - node.delta;
+            let d = norm(p.x - a.x, p.y - a.y);
+            let d_lb = (d - node.delta).max(d_box);
             if d_lb > reach {
                 return 0.0;
             }
@@ -429,7 +464,7 @@ impl TrackTree {
             return self.children_exposure(kernel, reach, node, p);
         }
         let g = segment_geometry(a, b, node.chord, p);
-        let d_lb = g.dist - node.delta;
+        let d_lb = (g.dist - node.delta).max(d_box);
         if d_lb > reach {
             return 0.0;
         }
@@ -440,10 +475,7 @@ impl TrackTree {
         }
         if d_lb > 0.0 {
             let ratio = node.len / node.chord;
-            let d_max = (p.x - a.x)
-                .hypot(p.y - a.y)
-                .max((p.x - b.x).hypot(p.y - b.y))
-                + node.delta;
+            let d_max = norm(p.x - a.x, p.y - a.y).max(norm(p.x - b.x, p.y - b.y)) + node.delta;
             // The chord, weighted by the run's length.
             let rel_chord = kernel.relative_variation(d_lb, d_max, node.delta) + (ratio - 1.0);
             let approx_chord = ratio * kernel.segment_exposure(g.x2, g.sa, g.sb);
@@ -456,7 +488,7 @@ impl TrackTree {
                 y: 0.5 * (a.y + b.y),
             };
             let rho = 0.5 * node.chord + node.delta;
-            let dm = (p.x - m.x).hypot(p.y - m.y);
+            let dm = norm(p.x - m.x, p.y - m.y);
             if dm - rho > 0.0 {
                 let rel_point = kernel.relative_variation(dm - rho, dm + rho, rho);
                 let approx_point = kernel.point_exposure(dm, node.len);
@@ -484,6 +516,9 @@ impl TrackTree {
 
     fn node_within(&self, ni: usize, p: Coord<f64>, radius: f64) -> bool {
         let node = &self.nodes[ni];
+        if node.bbox_distance(p) > radius {
+            return false;
+        }
         let d = point_segment_distance(self.pts[node.i0], self.pts[node.i1], p);
         if node.left == usize::MAX {
             return d <= radius;
@@ -503,7 +538,7 @@ mod tests {
         track
             .windows(2)
             .map(|s| {
-                let len = (s[1].x - s[0].x).hypot(s[1].y - s[0].y);
+                let len = norm(s[1].x - s[0].x, s[1].y - s[0].y);
                 if len == 0.0 {
                     0.0
                 } else {
