@@ -3,7 +3,7 @@
 //! The incidents live in `scenarios/` at the workspace root and are compiled into the binary,
 //! so the demo runs from any folder.
 
-use crate::{Failure, map_incident};
+use crate::{Failure, map_incident, plan_incident};
 use seekgrid_incident::outputs::OutputSelection;
 use seekgrid_render::OutputDir;
 use std::path::Path;
@@ -89,7 +89,11 @@ pub(crate) fn run(out: &Path, force: bool) -> Result<(), Failure> {
             out.display()
         )));
     }
-    for (name, files) in [("marine", MARINE), ("land", LAND)] {
+    // The next period of each invented incident starts after its last logged search.
+    for (name, files, plan_start) in [
+        ("marine", MARINE, "2026-06-14T22:30:00Z"),
+        ("land", LAND, "2026-06-15T12:00:00Z"),
+    ] {
         let input = out.join(name).join("input");
         write_inputs(&input, files, force)?;
         let incident = seekgrid_incident::load(&input.join("incident.toml"))?;
@@ -102,6 +106,17 @@ pub(crate) fn run(out: &Path, force: bool) -> Result<(), Failure> {
             summary.poc_in_grid,
             summary.searches.len(),
             summary.pos_cumulative
+        );
+        let start = chrono::DateTime::parse_from_rfc3339(plan_start)
+            .map(|d| d.with_timezone(&chrono::Utc))
+            .map_err(|e| Failure::failed(e.to_string()))?;
+        let plan_dir = out.join(name).join("plan");
+        let plan = plan_incident(&incident, &plan_dir, start, force)?;
+        eprintln!(
+            "{name}: plan from {plan_start} -> {} (plan POS {:.4}, best possible {:.4})",
+            plan_dir.display(),
+            plan.pos_plan.unwrap_or(0.0),
+            plan.pos_optimal_bound.unwrap_or(0.0)
         );
     }
     eprintln!(

@@ -58,7 +58,27 @@ enum Command {
         #[arg(long)]
         force: bool,
     },
-    /// Write the bundled invented demo incidents into a folder and map them
+    /// Plan the next search period: the best possible POS for the units' effort and a
+    /// practical plan (one area or segment per unit, pattern, spacing, waypoints)
+    #[command(after_help = AFTER_HELP)]
+    Plan {
+        /// The incident file (TOML), with its [[unit]] list
+        file: PathBuf,
+        /// Start of the period (RFC 3339, UTC): the plan works on the belief at that time,
+        /// after the searches logged by then
+        #[arg(long)]
+        start: String,
+        /// Output folder (created; an existing non-empty folder needs --force)
+        #[arg(long)]
+        out: PathBuf,
+        /// Also print the summary as JSON on standard output
+        #[arg(long)]
+        json: bool,
+        /// Write into an existing output folder, replacing files of the same name
+        #[arg(long)]
+        force: bool,
+    },
+    /// Write the bundled invented demo incidents into a folder, map them and plan for them
     #[command(after_help = AFTER_HELP)]
     Demo {
         /// Output folder (created; an existing non-empty folder needs --force)
@@ -151,6 +171,33 @@ fn run(cli: Cli) -> Result<(), Failure> {
             }
             Ok(())
         }
+        Command::Plan {
+            file,
+            start,
+            out,
+            json,
+            force,
+        } => {
+            let start = parse_time(&start)?;
+            let incident = seekgrid_incident::load(&file)?;
+            let summary = plan_incident(&incident, &out, start, force)?;
+            if json {
+                println!(
+                    "{}",
+                    serde_json::to_string_pretty(&summary)
+                        .map_err(|e| Failure::failed(e.to_string()))?
+                );
+            } else {
+                eprintln!(
+                    "wrote {} (plan POS {:.4}, best possible {:.4})\n{}",
+                    out.display(),
+                    summary.pos_plan.unwrap_or(0.0),
+                    summary.pos_optimal_bound.unwrap_or(0.0),
+                    CAUTION
+                );
+            }
+            Ok(())
+        }
         Command::Demo { out, force } => demo::run(&out, force),
     }
 }
@@ -212,6 +259,33 @@ fn map_incident(
         other => located(incident, &other.to_string()),
     })?;
     seekgrid_incident::outputs::write(incident, &m, &dir, selection)
+        .map_err(|e| Failure::failed(e.to_string()))
+}
+
+/// Plans the period from `start` into `out`; shared by `plan` and `demo`.
+fn plan_incident(
+    incident: &Incident,
+    out: &Path,
+    start: chrono::DateTime<chrono::Utc>,
+    force: bool,
+) -> Result<seekgrid_incident::summary::Summary, Failure> {
+    let mut dir = seekgrid_render::OutputDir::create(out, force)
+        .map_err(|e| Failure::bad_input(e.to_string()))?;
+    dir.protect(&incident.path);
+    let bar = progress_bar();
+    let progress = |what: &str, done: u64, total: u64| {
+        if let Some(b) = &bar {
+            b.set_length(total);
+            b.set_position(done);
+            b.set_message(format!("drifting {what}"));
+        }
+    };
+    let result = seekgrid_incident::planning::plan_at(incident, start, &progress);
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    let run = result.map_err(|e| located(incident, &e.to_string()))?;
+    seekgrid_incident::plan_outputs::write(incident, &run, &dir)
         .map_err(|e| Failure::failed(e.to_string()))
 }
 

@@ -19,6 +19,8 @@ pub mod load;
 pub mod locate;
 pub mod model;
 pub mod outputs;
+pub mod plan_outputs;
+pub mod planning;
 pub mod prepare;
 pub mod raster;
 pub mod summary;

@@ -94,7 +94,7 @@ fn subtitle(m: &IncidentMap, what: &str) -> String {
     )
 }
 
-fn base_overlays(incident: &Incident, m: &IncidentMap) -> Vec<Overlay> {
+pub(crate) fn base_overlays(incident: &Incident, m: &IncidentMap) -> Vec<Overlay> {
     let mut o = Vec::new();
     if let Some(land) = &m.prepared.land {
         for p in land {

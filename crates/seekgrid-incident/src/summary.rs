@@ -156,6 +156,15 @@ pub struct Summary {
     pub drift: Vec<DriftSummary>,
     /// What each output file holds (filled in by the writer).
     pub outputs: serde_json::Map<String, serde_json::Value>,
+    /// Plans only: joint POS of the practical plan.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub pos_plan: Option<f64>,
+    /// Plans only: POS of the optimal allocation of the same effort (an upper bound).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub pos_optimal_bound: Option<f64>,
+    /// Plans only: the plan per unit.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub plan: Option<serde_json::Value>,
 }
 
 fn kind_name(k: &crate::model::ScenarioKind) -> &'static str {
@@ -283,5 +292,8 @@ pub fn summarise(incident: &Incident, m: &IncidentMap) -> Summary {
         pos_cumulative: m.pos_cumulative,
         drift,
         outputs: serde_json::Map::new(),
+        pos_plan: None,
+        pos_optimal_bound: None,
+        plan: None,
     }
 }

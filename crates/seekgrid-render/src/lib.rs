@@ -45,6 +45,7 @@ mod canvas;
 mod containment;
 pub mod error;
 pub mod georef;
+pub mod gpx;
 mod heatmap;
 pub mod output;
 mod probability;

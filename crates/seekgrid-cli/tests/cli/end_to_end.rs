@@ -350,3 +350,53 @@ fn drift_layers_carry_the_drifting_mass() {
         .collect();
     assert!(parts.contains(&"mean-track") && parts.contains(&"ellipse"));
 }
+
+#[test]
+fn demo_plans_stay_under_their_bound_and_their_files_validate() {
+    let demo = demo_once();
+    for name in ["marine", "land"] {
+        let dir = demo.join(name).join("plan");
+        let s = summary(&dir);
+        let plan = s["pos_plan"].as_f64().unwrap();
+        let bound = s["pos_optimal_bound"].as_f64().unwrap();
+        // The optimal allocation bounds every practical plan of the same effort (Stone 1975;
+        // REFERENCES.md section 4).
+        assert!(
+            plan > 0.0 && plan <= bound + 1e-9,
+            "{name}: plan {plan} bound {bound}"
+        );
+        check_geojson(&dir.join("plan.geojson"));
+        let md = std::fs::read_to_string(dir.join("plan.md")).unwrap();
+        assert!(
+            md.contains("search mission coordinator"),
+            "the briefing carries the caution"
+        );
+        let gpx = dir.join("plan.gpx");
+        // GPX 1.1 schema (topografix.com), copied into fixtures/schemas as GIS.md advises.
+        if have("xmllint") {
+            let xsd = workspace().join("fixtures/schemas/gpx11.xsd");
+            let o = run(
+                "xmllint",
+                &[
+                    "--noout",
+                    "--schema",
+                    xsd.to_str().unwrap(),
+                    gpx.to_str().unwrap(),
+                ],
+            );
+            assert!(
+                o.status.success(),
+                "{name}: {}",
+                String::from_utf8_lossy(&o.stderr)
+            );
+        }
+        if have("ogrinfo") {
+            let o = run("ogrinfo", &["-ro", "-so", "-al", gpx.to_str().unwrap()]);
+            assert!(
+                o.status.success() && stdout(&o).contains("routes"),
+                "{name}: {}",
+                stdout(&o)
+            );
+        }
+    }
+}

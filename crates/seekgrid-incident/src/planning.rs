@@ -1,0 +1,118 @@
+//! Planning the next search period: the belief at the plan's start, the units available,
+//! and the plan with its bound.
+
+use crate::model::{Incident, Time, UnitDef};
+use crate::prepare::law;
+use crate::timeline::{IncidentMap, MapError, MapOptions, Progress, map};
+use seekgrid_plan as plan;
+
+/// Search speed above which a unit is treated as an aircraft (knots); only the briefing
+/// wording depends on it.
+const AIRCRAFT_SPEED_KN: f64 = 40.0;
+
+/// A computed plan.
+#[derive(Debug)]
+pub struct PlanRun {
+    /// The belief at the start of the period (after the searches logged by then).
+    pub map: IncidentMap,
+    /// The start of the period.
+    pub start: Time,
+    /// Units as the planner sees them.
+    pub units: Vec<plan::UnitSpec>,
+    /// The theoretical bound.
+    pub bound: plan::OptimalBound,
+    /// Rectangles or datum patterns per unit (vessels and aircraft, or teams without segments).
+    pub areas: Option<plan::Plan>,
+    /// Teams to segments, when the incident has segments and ground teams.
+    pub segments: Option<plan::SegmentPlan>,
+}
+
+/// Why a plan cannot be made.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum PlanRunError {
+    /// The belief at the start cannot be computed.
+    #[error(transparent)]
+    Map(#[from] MapError),
+    /// No unit is listed.
+    #[error(
+        "no [[unit]] is listed; add the units available for the next period (speed, hours_on_scene, sweep_width_m)"
+    )]
+    NoUnits,
+    /// The planner refused.
+    #[error("plan: {0}")]
+    Plan(#[from] plan::PlanError),
+}
+
+fn unit_spec(u: &UnitDef) -> plan::UnitSpec {
+    let kind = match u.searchers {
+        Some(searchers) => plan::UnitKind::GroundTeam { searchers },
+        None if u.speed_mps / seekgrid_core::units::MPS_PER_KNOT > AIRCRAFT_SPEED_KN => {
+            plan::UnitKind::Aircraft
+        }
+        None => plan::UnitKind::Vessel,
+    };
+    plan::UnitSpec {
+        id: u.id.clone(),
+        speed_mps: u.speed_mps,
+        hours_on_scene: u.hours_on_scene,
+        sweep_width_m: u.sweep_width_m,
+        track_spacing_min_m: u.track_spacing_min_m,
+        law: law(u.detection),
+        kind,
+    }
+}
+
+/// Plans the period starting at `start` against the belief at that time.
+///
+/// # Errors
+/// See [`PlanRunError`].
+pub fn plan_at(
+    incident: &Incident,
+    start: Time,
+    progress: Progress<'_>,
+) -> Result<PlanRun, PlanRunError> {
+    if incident.units.is_empty() {
+        return Err(PlanRunError::NoUnits);
+    }
+    let m = map(incident, &MapOptions { at: Some(start) }, progress)?;
+    let units: Vec<plan::UnitSpec> = incident.units.iter().map(unit_spec).collect();
+    let options = plan::PlanOptions::default();
+    let bound = plan::optimal_bound(&m.belief, &units, &options)?;
+    let teams: Vec<plan::UnitSpec> = units
+        .iter()
+        .filter(|u| matches!(u.kind, plan::UnitKind::GroundTeam { .. }))
+        .cloned()
+        .collect();
+    let others: Vec<plan::UnitSpec> = units
+        .iter()
+        .filter(|u| !matches!(u.kind, plan::UnitKind::GroundTeam { .. }))
+        .cloned()
+        .collect();
+    let (segments, areas) = match (&m.prepared.segments, teams.is_empty()) {
+        (Some(segs), false) => {
+            let poc = m.poc_cells();
+            let rows = seekgrid_prior::segment_table(&poc, &m.grid, segs);
+            let table: Vec<(String, f64, f64)> = rows
+                .iter()
+                .map(|r| (r.id.clone(), r.poa, r.area_m2))
+                .collect();
+            let sp = plan::assign_teams_to_segments(&table, &teams, &options)?;
+            let areas = if others.is_empty() {
+                None
+            } else {
+                Some(plan::plan(&m.belief, &others, &options)?)
+            };
+            (Some(sp), areas)
+        }
+        _ => (None, Some(plan::plan(&m.belief, &units, &options)?)),
+    };
+    Ok(PlanRun {
+        map: m,
+        start,
+        units,
+        bound,
+        areas,
+        segments,
+    })
+}
