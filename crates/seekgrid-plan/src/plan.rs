@@ -706,9 +706,14 @@ fn argmax(v: &[(Shape, f64)]) -> Option<(Shape, f64)> {
 ///    rectangle when its POS is at least `1 - pattern_switch_tolerance` of the rectangle's.
 /// 5. `refinement_rounds` rounds of coordinate ascent re-place each unit given all the others
 ///    (its current area among the candidates, so the joint POS never falls); they stop early
-///    when a round changes nothing.
-/// 6. Areas of different units do not overlap (edges may touch) unless `allow_overlap`.
-/// 7. The result is evaluated exactly: cells with `pattern_pod` (convex clipping for the
+///    when a round changes nothing. Then exchanges: each pair of units tries to swap places
+///    (one moves into the other's place keeping clear of its own old area, the other into the
+///    first's old place, or the best place left; both orders), kept when the joint POS rises
+///    and followed by one more ascent round (at most two passes).
+/// 6. With several units and `restarts` ≥ 1, steps 2-5 run again with the units placed
+///    smallest effort first, and the start with the higher joint POS is kept.
+/// 7. Areas of different units do not overlap (edges may touch) unless `allow_overlap`.
+/// 8. The result is evaluated exactly: cells with `pattern_pod` (convex clipping for the
 ///    sector search), particles at their own positions with `pattern_pod_at`, overlaps as
 ///    `1 - Π(1 - d)`.
 ///
@@ -763,7 +768,7 @@ pub fn plan(belief: &Belief, units: &[UnitSpec], options: &PlanOptions) -> Resul
             s.particles_outside_mass
         ),
         format!(
-            "method: units placed one at a time, largest effort first, each against the residual belief after the units already placed; global scan of rectangles at orientations every {}°, aspect ratios {:?}, coverages {}..{} in {} geometric steps, at every position of a rotated summed-area table (cells at most 1/{} of the short side); the best {} refined by hill climbing on the grid cells and scored exactly; then up to {} rounds of coordinate ascent",
+            "method: units placed one at a time, largest effort first, each against the residual belief after the units already placed; global scan of rectangles at orientations every {}°, aspect ratios {:?}, coverages {}..{} in {} geometric steps, at every position of a rotated summed-area table (cells at most 1/{} of the short side); the best {} refined by hill climbing on the grid cells and scored exactly; then up to {} rounds of coordinate ascent and exchanges of places between pairs of units",
             options.orientation_step_deg,
             options.aspect_ratios,
             options.min_coverage,
