@@ -239,21 +239,10 @@ fn map_incident(
     selection: &OutputSelection,
     force: bool,
 ) -> Result<seekgrid_incident::summary::Summary, Failure> {
-    let mut dir = seekgrid_render::OutputDir::create(out, force)
-        .map_err(|e| Failure::bad_input(e.to_string()))?;
-    dir.protect(&incident.path);
-    let bar = progress_bar();
-    let progress = |what: &str, done: u64, total: u64| {
-        if let Some(b) = &bar {
-            b.set_length(total);
-            b.set_position(done);
-            b.set_message(format!("drifting {what}"));
-        }
-    };
-    let result = seekgrid_incident::timeline::map(incident, &MapOptions { at }, &progress);
-    if let Some(b) = &bar {
-        b.finish_and_clear();
-    }
+    let dir = output_dir(incident, out, force)?;
+    let result = with_progress(|progress| {
+        seekgrid_incident::timeline::map(incident, &MapOptions { at }, progress)
+    });
     let m = result.map_err(|e| match e {
         MapError::Belief(_) => Failure::failed(format!("{}: {e}", incident.path.display())),
         other => located(incident, &other.to_string()),
@@ -269,9 +258,29 @@ fn plan_incident(
     start: chrono::DateTime<chrono::Utc>,
     force: bool,
 ) -> Result<seekgrid_incident::summary::Summary, Failure> {
+    let dir = output_dir(incident, out, force)?;
+    let result =
+        with_progress(|progress| seekgrid_incident::planning::plan_at(incident, start, progress));
+    let run = result.map_err(|e| located(incident, &e.to_string()))?;
+    seekgrid_incident::plan_outputs::write(incident, &run, &dir)
+        .map_err(|e| Failure::failed(e.to_string()))
+}
+
+/// The output folder, refusing to write over the incident file.
+fn output_dir(
+    incident: &Incident,
+    out: &Path,
+    force: bool,
+) -> Result<seekgrid_render::OutputDir, Failure> {
     let mut dir = seekgrid_render::OutputDir::create(out, force)
         .map_err(|e| Failure::bad_input(e.to_string()))?;
     dir.protect(&incident.path);
+    Ok(dir)
+}
+
+/// Runs `work` with a progress callback that drives a bar on a terminal (and does nothing
+/// when standard error is piped), then clears the bar.
+fn with_progress<T>(work: impl FnOnce(seekgrid_incident::timeline::Progress<'_>) -> T) -> T {
     let bar = progress_bar();
     let progress = |what: &str, done: u64, total: u64| {
         if let Some(b) = &bar {
@@ -280,13 +289,11 @@ fn plan_incident(
             b.set_message(format!("drifting {what}"));
         }
     };
-    let result = seekgrid_incident::planning::plan_at(incident, start, &progress);
+    let result = work(&progress);
     if let Some(b) = &bar {
         b.finish_and_clear();
     }
-    let run = result.map_err(|e| located(incident, &e.to_string()))?;
-    seekgrid_incident::plan_outputs::write(incident, &run, &dir)
-        .map_err(|e| Failure::failed(e.to_string()))
+    result
 }
 
 /// A progress bar on standard error when it is a terminal; nothing when piped.

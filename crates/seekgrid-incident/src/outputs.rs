@@ -262,12 +262,21 @@ pub fn write(
     }
     summary.outputs = written;
     if selection.has("summary") {
-        let mut bytes = serde_json::to_vec_pretty(&summary)
-            .map_err(|e| RenderError::Topology(e.to_string()))?;
-        bytes.push(b'\n');
-        dir.write("summary.json", &bytes)?;
+        write_summary(dir, &summary)?;
     }
     Ok(summary)
+}
+
+/// Writes `summary.json` (pretty JSON, ending with a newline).
+///
+/// # Errors
+/// [`RenderError`] when it cannot be serialised or written.
+pub(crate) fn write_summary(dir: &OutputDir, summary: &Summary) -> Result<(), RenderError> {
+    let mut bytes =
+        serde_json::to_vec_pretty(summary).map_err(|e| RenderError::Json(e.to_string()))?;
+    bytes.push(b'\n');
+    dir.write("summary.json", &bytes)?;
+    Ok(())
 }
 
 /// Per segment: POA now, area, density, and after searches cumulative POD and POS.

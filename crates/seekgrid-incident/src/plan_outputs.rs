@@ -382,10 +382,7 @@ pub fn write(incident: &Incident, run: &PlanRun, dir: &OutputDir) -> Result<Summ
     ] {
         summary.outputs.insert(name.into(), serde_json::json!({}));
     }
-    let mut bytes =
-        serde_json::to_vec_pretty(&summary).map_err(|e| RenderError::Json(e.to_string()))?;
-    bytes.push(b'\n');
-    dir.write("summary.json", &bytes)?;
+    outputs::write_summary(dir, &summary)?;
     Ok(summary)
 }
 
