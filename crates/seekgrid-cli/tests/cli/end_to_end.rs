@@ -400,3 +400,52 @@ fn demo_plans_stay_under_their_bound_and_their_files_validate() {
         }
     }
 }
+
+#[test]
+fn gpx_tracks_read_like_gdal_reads_them() {
+    // Our reader (the gpx crate) against GDAL's GPX driver on the demo's recorded tracks:
+    // the same number of track points and the same extent.
+    if !have("ogrinfo") {
+        return;
+    }
+    for f in [
+        "scenarios/marine/tracks/helicopter-1.gpx",
+        "scenarios/land/tracks/team-alpha.gpx",
+    ] {
+        let path = workspace().join(f);
+        let (points, times) = seekgrid_incident::geofiles::read_track(&path).unwrap();
+        assert!(times.iter().all(Option::is_some));
+        let o = run(
+            "ogrinfo",
+            &["-ro", "-so", path.to_str().unwrap(), "track_points"],
+        );
+        let text = stdout(&o);
+        let count: usize = text
+            .lines()
+            .find_map(|l| l.strip_prefix("Feature Count: "))
+            .expect("a feature count")
+            .trim()
+            .parse()
+            .unwrap();
+        assert_eq!(count, points.0.len(), "{f}");
+        let ext = text
+            .lines()
+            .find_map(|l| l.strip_prefix("Extent: "))
+            .expect("an extent");
+        let nums: Vec<f64> = ext
+            .split(|c: char| !(c.is_ascii_digit() || c == '.' || c == '-'))
+            .filter(|s| !s.is_empty() && *s != "-")
+            .map(|s| s.parse().unwrap())
+            .collect();
+        let (mut w, mut s, mut e, mut n) = (f64::MAX, f64::MAX, f64::MIN, f64::MIN);
+        for c in &points.0 {
+            w = w.min(c.x);
+            e = e.max(c.x);
+            s = s.min(c.y);
+            n = n.max(c.y);
+        }
+        for (ours, gdal) in [w, s, e, n].iter().zip(&nums) {
+            assert!((ours - gdal).abs() < 1e-9, "{f}: ours {ours}, GDAL {gdal}");
+        }
+    }
+}
