@@ -428,15 +428,7 @@ fn gpx_tracks_read_like_gdal_reads_them() {
             .parse()
             .unwrap();
         assert_eq!(count, points.0.len(), "{f}");
-        let ext = text
-            .lines()
-            .find_map(|l| l.strip_prefix("Extent: "))
-            .expect("an extent");
-        let nums: Vec<f64> = ext
-            .split(|c: char| !(c.is_ascii_digit() || c == '.' || c == '-'))
-            .filter(|s| !s.is_empty() && *s != "-")
-            .map(|s| s.parse().unwrap())
-            .collect();
+        let (gw, gs, ge, gn) = crate::external::extent(&text);
         let (mut w, mut s, mut e, mut n) = (f64::MAX, f64::MAX, f64::MIN, f64::MIN);
         for c in &points.0 {
             w = w.min(c.x);
@@ -444,7 +436,7 @@ fn gpx_tracks_read_like_gdal_reads_them() {
             s = s.min(c.y);
             n = n.max(c.y);
         }
-        for (ours, gdal) in [w, s, e, n].iter().zip(&nums) {
+        for (ours, gdal) in [w, s, e, n].iter().zip(&[gw, gs, ge, gn]) {
             assert!((ours - gdal).abs() < 1e-9, "{f}: ours {ours}, GDAL {gdal}");
         }
     }

@@ -99,7 +99,12 @@ pub fn check_geojson(path: &std::path::Path) -> Option<(f64, f64, f64, f64)> {
         out.contains("n (Integer) = 0"),
         "{p}: null or empty geometries: {out}"
     );
-    let ext = text
+    Some(extent(&text))
+}
+
+/// The `Extent: (w, s) - (e, n)` line of `ogrinfo -so` output, as (west, south, east, north).
+pub fn extent(ogrinfo_output: &str) -> (f64, f64, f64, f64) {
+    let ext = ogrinfo_output
         .lines()
         .find_map(|l| l.strip_prefix("Extent: "))
         .expect("an extent");
@@ -109,5 +114,5 @@ pub fn check_geojson(path: &std::path::Path) -> Option<(f64, f64, f64, f64)> {
         .map(|s| s.parse().unwrap())
         .collect();
     assert_eq!(nums.len(), 4, "extent {ext}");
-    Some((nums[0], nums[1], nums[2], nums[3]))
+    (nums[0], nums[1], nums[2], nums[3])
 }
