@@ -324,18 +324,14 @@ impl Pattern {
             } => {
                 let u = unit(major_grid_bearing_deg);
                 let v = unit(major_grid_bearing_deg + 90.0);
-                let n = legs_across(width_m, track_spacing_m);
-                let half_leg = 0.5 * (length_m - track_spacing_m);
-                for j in 0..n {
-                    let off = (j as f64 - 0.5 * (n - 1) as f64) * track_spacing_m;
-                    let (s0, s1) = if j % 2 == 0 {
-                        (-half_leg, half_leg)
-                    } else {
-                        (half_leg, -half_leg)
-                    };
-                    pts.push(at(center, u, s0, v, off));
-                    pts.push(at(center, u, s1, v, off));
-                }
+                // Legs along the major axis, stepping across it.
+                back_and_forth(
+                    &mut pts,
+                    center,
+                    (u, length_m),
+                    (v, width_m),
+                    track_spacing_m,
+                );
             }
             Self::CreepingLine {
                 center,
@@ -346,18 +342,14 @@ impl Pattern {
             } => {
                 let u = unit(major_grid_bearing_deg);
                 let v = unit(major_grid_bearing_deg + 90.0);
-                let n = legs_across(length_m, track_spacing_m);
-                let half_leg = 0.5 * (width_m - track_spacing_m);
-                for j in 0..n {
-                    let off = (j as f64 - 0.5 * (n - 1) as f64) * track_spacing_m;
-                    let (s0, s1) = if j % 2 == 0 {
-                        (-half_leg, half_leg)
-                    } else {
-                        (half_leg, -half_leg)
-                    };
-                    pts.push(at(center, u, off, v, s0));
-                    pts.push(at(center, u, off, v, s1));
-                }
+                // Legs across the major axis, creeping along it.
+                back_and_forth(
+                    &mut pts,
+                    center,
+                    (v, width_m),
+                    (u, length_m),
+                    track_spacing_m,
+                );
             }
             Self::ExpandingSquare {
                 center,
@@ -430,6 +422,30 @@ impl Pattern {
 }
 
 /// Legs of a rectangle pattern across `extent_m` at spacing `spacing_m`.
+/// The turn points of legs of a rectangle's back-and-forth pattern, centred on `center`: legs
+/// along `leg` (direction, extent of the rectangle that way; each leg stops half a spacing short
+/// of the edges), `spacing_m` apart along `step` (direction, extent), alternating in direction.
+fn back_and_forth(
+    pts: &mut Vec<Coord<f64>>,
+    center: Coord<f64>,
+    leg: (Coord<f64>, f64),
+    step: (Coord<f64>, f64),
+    spacing_m: f64,
+) {
+    let n = legs_across(step.1, spacing_m);
+    let half_leg = 0.5 * (leg.1 - spacing_m);
+    for j in 0..n {
+        let off = (j as f64 - 0.5 * (n - 1) as f64) * spacing_m;
+        let (s0, s1) = if j % 2 == 0 {
+            (-half_leg, half_leg)
+        } else {
+            (half_leg, -half_leg)
+        };
+        pts.push(at(center, leg.0, s0, step.0, off));
+        pts.push(at(center, leg.0, s1, step.0, off));
+    }
+}
+
 fn legs_across(extent_m: f64, spacing_m: f64) -> usize {
     ((extent_m / spacing_m).round() as usize).clamp(1, MAX_LEGS)
 }
