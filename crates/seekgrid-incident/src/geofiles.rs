@@ -313,6 +313,31 @@ fn csv_reader(file: &Path, what: &str) -> Result<csv::Reader<std::fs::File>, Inc
         .from_reader(f))
 }
 
+/// The header and every row of a CSV file, each read error reported with its line.
+fn csv_rows(
+    file: &Path,
+    what: &str,
+) -> Result<(csv::StringRecord, Vec<csv::StringRecord>), IncidentError> {
+    let mut rdr = csv_reader(file, what)?;
+    let headers = rdr
+        .headers()
+        .map_err(|e| csv_error(file, 1, format!("unreadable header: {e}")))?
+        .clone();
+    let records = rdr
+        .records()
+        .map(|rec| {
+            rec.map_err(|e| {
+                csv_error(
+                    file,
+                    e.position().map_or(0, csv::Position::line),
+                    format!("unreadable row: {e}"),
+                )
+            })
+        })
+        .collect::<Result<Vec<_>, _>>()?;
+    Ok((headers, records))
+}
+
 fn csv_error(file: &Path, line: u64, message: String) -> IncidentError {
     IncidentError {
         kind: ErrorKind::Invalid,
@@ -386,20 +411,9 @@ pub fn read_series(
     speed_sigma_kn: f64,
     direction_sigma_deg: f64,
 ) -> Result<Vec<(Time, VectorSample)>, IncidentError> {
-    let mut rdr = csv_reader(file, "series")?;
-    let headers = rdr
-        .headers()
-        .map_err(|e| csv_error(file, 1, format!("unreadable header: {e}")))?
-        .clone();
+    let (headers, records) = csv_rows(file, "series")?;
     let mut out: Vec<(Time, VectorSample)> = Vec::new();
-    for rec in rdr.records() {
-        let rec = rec.map_err(|e| {
-            csv_error(
-                file,
-                e.position().map_or(0, csv::Position::line),
-                format!("unreadable row: {e}"),
-            )
-        })?;
+    for rec in records {
         let line = rec.position().map_or(0, csv::Position::line);
         let t = time(file, &rec, &headers)?;
         let speed_kn = number(file, &rec, &headers, "speed_kn")?;
@@ -456,20 +470,9 @@ pub fn read_series(
 /// # Errors
 /// Unreadable file, missing columns, bad numbers, positions out of range, no rows.
 pub fn read_field(file: &Path) -> Result<Vec<FieldSample>, IncidentError> {
-    let mut rdr = csv_reader(file, "field")?;
-    let headers = rdr
-        .headers()
-        .map_err(|e| csv_error(file, 1, format!("unreadable header: {e}")))?
-        .clone();
+    let (headers, records) = csv_rows(file, "field")?;
     let mut out = Vec::new();
-    for rec in rdr.records() {
-        let rec = rec.map_err(|e| {
-            csv_error(
-                file,
-                e.position().map_or(0, csv::Position::line),
-                format!("unreadable row: {e}"),
-            )
-        })?;
+    for rec in records {
         let line = rec.position().map_or(0, csv::Position::line);
         let lon = number(file, &rec, &headers, "lon")?;
         let lat = number(file, &rec, &headers, "lat")?;

@@ -331,12 +331,19 @@ fn segment_tables(
             });
         }
     }
-    let fc = FeatureCollection {
+    Ok((csv, collection_bytes(features, named("segments"))?))
+}
+
+/// A feature collection with its foreign members, as RFC 7946 bytes.
+pub(crate) fn collection_bytes(
+    features: Vec<Feature>,
+    foreign: JsonObject,
+) -> Result<Vec<u8>, RenderError> {
+    render::geojson_bytes(FeatureCollection {
         features,
         bbox: None,
-        foreign_members: Some(named("segments")),
-    };
-    Ok((csv, render::geojson_bytes(fc)?))
+        foreign_members: Some(foreign),
+    })
 }
 
 fn named(name: &str) -> JsonObject {
@@ -387,11 +394,7 @@ fn searches_geojson(incident: &Incident, m: &IncidentMap) -> Result<Vec<u8>, Ren
     }
     let mut f = named("searches");
     f.insert("title".into(), JsonValue::from(incident.title.clone()));
-    render::geojson_bytes(FeatureCollection {
-        features,
-        bbox: None,
-        foreign_members: Some(f),
-    })
+    collection_bytes(features, f)
 }
 
 /// A thinned sample of each drift scenario's particles at the map time: every k-th particle,
@@ -422,11 +425,7 @@ fn particles_geojson(m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
     }
     let mut f = named("particles");
     f.insert("time".into(), m.at.to_rfc3339().into());
-    render::geojson_bytes(FeatureCollection {
-        features,
-        bbox: None,
-        foreign_members: Some(f),
-    })
+    collection_bytes(features, f)
 }
 
 /// Hourly weighted mean position of each drift scenario's cloud (a track and points) and its
@@ -498,9 +497,5 @@ fn drift_geojson(m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
             ..Default::default()
         });
     }
-    render::geojson_bytes(FeatureCollection {
-        features,
-        bbox: None,
-        foreign_members: Some(named("drift")),
-    })
+    collection_bytes(features, named("drift"))
 }

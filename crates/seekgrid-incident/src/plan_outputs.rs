@@ -6,7 +6,7 @@ use crate::outputs::{self, OutputSelection};
 use crate::planning::PlanRun;
 use crate::summary::{CAUTION, Summary};
 use geo::{Area, Coord};
-use geojson::{Feature, FeatureCollection, JsonObject};
+use geojson::{Feature, JsonObject};
 use seekgrid_core::Frame;
 use seekgrid_render::gpx::{RouteSpec, routes_gpx};
 use seekgrid_render::{self as render, ColourScale, MapStyle, OutputDir, Overlay, RenderError};
@@ -306,14 +306,7 @@ pub fn write(incident: &Incident, run: &PlanRun, dir: &OutputDir) -> Result<Summ
     fm.insert("start".into(), run.start.to_rfc3339().into());
     fm.insert("pos_plan".into(), pos_plan.into());
     fm.insert("pos_optimal_bound".into(), bound.into());
-    dir.write(
-        "plan.geojson",
-        &render::geojson_bytes(FeatureCollection {
-            features,
-            bbox: None,
-            foreign_members: Some(fm),
-        })?,
-    )?;
+    dir.write("plan.geojson", &outputs::collection_bytes(features, fm)?)?;
     if !routes.is_empty() {
         dir.write(
             "plan.gpx",
