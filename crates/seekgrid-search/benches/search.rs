@@ -105,6 +105,8 @@ fn track(c: &mut Criterion) {
         ("definite_range_W2km", DetectionLaw::DefiniteRange, 2000.0),
         ("exponential_W2km", DetectionLaw::Exponential, 2000.0),
         ("inverse_cube_W2km", DetectionLaw::InverseCube, 2000.0),
+        // Narrower sweep: 2 x 2 sub-points in every cell within 1 km of the track.
+        ("inverse_cube_W500m", DetectionLaw::InverseCube, 500.0),
     ] {
         let w = SweepWidth::new(width, &[]).unwrap();
         for noise in [false, true] {

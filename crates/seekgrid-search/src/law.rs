@@ -17,6 +17,9 @@ use crate::error::SearchError;
 /// an exposure (≈ POD) below this value, and the track contributes nothing there.
 pub const REACH_EXPOSURE: f64 = 1e-5;
 
+/// Terms of the Taylor expansion of a smooth rate in `r²` ([`Kernel::rate_taylor_in_r2`]).
+pub(crate) const RATE_TAYLOR_TERMS: usize = 7;
+
 /// Peak exposure of the single-pass curve used for the exponential law (see
 /// [`DetectionLaw::lateral_range_pod`]): a pass straight over the object detects it with
 /// probability 1 - e^(-1).
@@ -324,6 +327,41 @@ impl Kernel {
                 }
             }
         }
+    }
+
+    /// Taylor coefficients of the detection rate as a function of `u = r²` about `u0 > 0`:
+    /// `c[n] = f⁽ⁿ⁾(u0) / n!`, so that `f(u) ≈ Σ c[n] (u - u0)ⁿ` (used to smooth the rate inside
+    /// the near-field radius, [`crate::split`]). Definite range has no smooth rate: zeros.
+    pub(crate) fn rate_taylor_in_r2(&self, u0: f64) -> [f64; RATE_TAYLOR_TERMS] {
+        let mut c = [0.0; RATE_TAYLOR_TERMS];
+        match *self {
+            Self::InverseCube { half_k, .. } => {
+                // f(u) = (k/2) u^(-3/2): f⁽ⁿ⁾/n! = (k/2) C(-3/2, n) u0^(-3/2-n).
+                let mut binom = 1.0;
+                let mut power = half_k / (u0 * u0.sqrt());
+                for (n, slot) in c.iter_mut().enumerate() {
+                    *slot = binom * power;
+                    binom *= (-1.5 - n as f64) / (n as f64 + 1.0);
+                    power /= u0;
+                }
+            }
+            Self::Gaussian {
+                peak,
+                inv_two_sigma2,
+                sigma,
+                ..
+            } => {
+                // f(u) = g0 exp(-β u): f⁽ⁿ⁾/n! = f(u0) (-β)ⁿ / n!.
+                let mut term = peak / (sigma * (2.0 * std::f64::consts::PI).sqrt())
+                    * (-u0 * inv_two_sigma2).exp();
+                for (n, slot) in c.iter_mut().enumerate() {
+                    *slot = term;
+                    term *= -inv_two_sigma2 / (n as f64 + 1.0);
+                }
+            }
+            Self::Disc { .. } => {}
+        }
+        c
     }
 
     /// Bound on the relative change of the rate between ranges `d_min..d_max` when points move

@@ -51,6 +51,7 @@ pub mod error;
 pub mod law;
 pub mod pattern;
 pub mod pod_layer;
+mod split;
 mod sum;
 pub mod track;
 pub mod update;

@@ -159,55 +159,64 @@ fn wandering_track(
 #[test]
 fn four_times_finer_sampling_changes_no_cell_by_more_than_a_thousandth() {
     let grid = GridSpec::new(0.0, 800.0, 50.0, 16, 16, DEFAULT_MAX_CELLS).unwrap();
-    let track = wandering_track(3, 40, 12.0, 3.0, c(250.0, 300.0));
-    let ends = [track[0], track[track.len() - 1]];
-    for law in [DetectionLaw::InverseCube, DetectionLaw::Exponential] {
-        for width in [15.0, 50.0, 250.0] {
-            let w = SweepWidth::new(width, &[]).unwrap();
-            let fast = track_pod(&grid, &track, law, &w)
-                .unwrap()
-                .to_dense(&grid)
-                .unwrap();
-            let n_near = near_subpoints(50.0, width);
-            let fine = track_pod_sampled(&grid, &track, law, &w, 4 * n_near)
-                .unwrap()
-                .to_dense(&grid)
-                .unwrap();
-            let near_radius = 200.0_f64.max(2.0 * width) + 35.4;
-            let mut worst = 0.0_f64;
-            for ((r, col), v) in fast.indexed_iter() {
-                let centre = grid.cell_center(r, col);
-                let at_end = ends
-                    .iter()
-                    .any(|e| (e.x - centre.x).hypot(e.y - centre.y) <= near_radius);
-                if !at_end {
-                    worst = worst.max((v - fine[[r, col]]).abs());
-                }
+    // A short track (summed through the track tree) and a long one of many fixes (summed
+    // through the split near/far field).
+    let short = wandering_track(3, 40, 12.0, 3.0, c(250.0, 300.0));
+    let long = wandering_track(4, 300, 1.6, 0.5, c(250.0, 300.0));
+    for (track, law, width) in [&short, &long].into_iter().flat_map(|t| {
+        [DetectionLaw::InverseCube, DetectionLaw::Exponential]
+            .into_iter()
+            .flat_map(move |law| [15.0, 50.0, 250.0].map(|w| (t, law, w)))
+    }) {
+        let ends = [track[0], track[track.len() - 1]];
+        let w = SweepWidth::new(width, &[]).unwrap();
+        let fast = track_pod(&grid, track, law, &w)
+            .unwrap()
+            .to_dense(&grid)
+            .unwrap();
+        let n_near = near_subpoints(50.0, width);
+        let fine = track_pod_sampled(&grid, track, law, &w, 4 * n_near)
+            .unwrap()
+            .to_dense(&grid)
+            .unwrap();
+        let near_radius = 200.0_f64.max(2.0 * width) + 35.4;
+        let mut worst = 0.0_f64;
+        for ((r, col), v) in fast.indexed_iter() {
+            let centre = grid.cell_center(r, col);
+            let at_end = ends
+                .iter()
+                .any(|e| (e.x - centre.x).hypot(e.y - centre.y) <= near_radius);
+            if !at_end {
+                worst = worst.max((v - fine[[r, col]]).abs());
             }
-            assert!(worst <= 1e-3, "{law:?} W={width}: {worst}");
-            // Cells round the ends use end_subpoints: compare them with 4x that, on a small
-            // grid aligned with the big one.
-            let n_end = end_subpoints(50.0, width);
-            for e in ends {
-                let (r, col) = grid.locate(e).unwrap();
-                let (r0, c0) = (r.saturating_sub(2), col.saturating_sub(2));
-                let sub = GridSpec::new(
-                    grid.west_m() + c0 as f64 * 50.0,
-                    grid.north_m() - r0 as f64 * 50.0,
-                    50.0,
-                    5,
-                    5,
-                    DEFAULT_MAX_CELLS,
-                )
+        }
+        assert!(
+            worst <= 1e-3,
+            "{law:?} W={width} {} fixes: {worst}",
+            track.len()
+        );
+        // Cells round the ends use end_subpoints: compare them with 4x that, on a small
+        // grid aligned with the big one.
+        let n_end = end_subpoints(50.0, width);
+        for e in ends {
+            let (r, col) = grid.locate(e).unwrap();
+            let (r0, c0) = (r.saturating_sub(2), col.saturating_sub(2));
+            let sub = GridSpec::new(
+                grid.west_m() + c0 as f64 * 50.0,
+                grid.north_m() - r0 as f64 * 50.0,
+                50.0,
+                5,
+                5,
+                DEFAULT_MAX_CELLS,
+            )
+            .unwrap();
+            let fine_end = track_pod_sampled(&sub, track, law, &w, 4 * n_end)
+                .unwrap()
+                .to_dense(&sub)
                 .unwrap();
-                let fine_end = track_pod_sampled(&sub, &track, law, &w, 4 * n_end)
-                    .unwrap()
-                    .to_dense(&sub)
-                    .unwrap();
-                for ((i, j), v) in fine_end.indexed_iter() {
-                    let d = (fast[[r0 + i, c0 + j]] - v).abs();
-                    assert!(d <= 1e-3, "{law:?} W={width} end cell: {d}");
-                }
+            for ((i, j), v) in fine_end.indexed_iter() {
+                let d = (fast[[r0 + i, c0 + j]] - v).abs();
+                assert!(d <= 1e-3, "{law:?} W={width} end cell: {d}");
             }
         }
     }
@@ -321,4 +330,32 @@ fn bad_tracks_are_refused_with_a_reason() {
         assert!(matches!(err, SearchError::TrackOutsideGrid { .. }));
         assert!(!err.to_string().ends_with('.'));
     }
+}
+
+#[test]
+fn a_long_track_scores_the_same_bits_on_one_thread_and_on_two() {
+    // The split field transforms every mesh row and column on its own and sums each point's
+    // near pieces in a fixed order, so the thread count cannot change a bit.
+    let grid = GridSpec::new(0.0, 3000.0, 25.0, 120, 120, DEFAULT_MAX_CELLS).unwrap();
+    let track = wandering_track(8, 500, 6.0, 1.0, c(900.0, 1200.0));
+    let w = SweepWidth::new(120.0, &[]).unwrap();
+    let run = |threads: usize| {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap()
+            .install(|| {
+                track_pod(&grid, &track, DetectionLaw::InverseCube, &w)
+                    .unwrap()
+                    .to_dense(&grid)
+                    .unwrap()
+            })
+    };
+    let (one, two) = (run(1), run(2));
+    assert!(
+        one.iter()
+            .zip(two.iter())
+            .all(|(a, b)| a.to_bits() == b.to_bits())
+    );
+    assert!(one.sum() > 0.0);
 }
