@@ -4,6 +4,7 @@
 //!   copy of the same two arrays in the same run (throughput in bytes of mass + POD).
 //! * `track_pod`: a 10 000-fix track (a parallel sweep flown with small position noise, and the
 //!   same legs without noise) rasterised onto a 1 M-cell grid.
+//! * `track_pod_at`: POD of the same track at 1 M particle positions.
 //! * `allocation`: optimal effort on a 1 M-cell circular normal prior to exact λ.
 
 use criterion::{BatchSize, Criterion, Throughput, criterion_group, criterion_main};
@@ -11,7 +12,8 @@ use geo::Coord;
 use ndarray::Array2;
 use seekgrid_core::{Belief, DEFAULT_MAX_CELLS, GridSpec, Particles};
 use seekgrid_search::{
-    DetectionLaw, PodLayer, SweepWidth, optimal_allocation, track_pod, update_after_miss,
+    DetectionLaw, PodLayer, SweepWidth, optimal_allocation, track_pod, track_pod_at,
+    update_after_miss,
 };
 use std::hint::black_box;
 
@@ -120,6 +122,33 @@ fn track(c: &mut Criterion) {
     group.finish();
 }
 
+/// POD at 1 M particle positions (a deterministic scatter over the benchmark grid) for the
+/// noisy benchmark track.
+fn track_points(c: &mut Criterion) {
+    let points: Vec<Coord<f64>> = (0..N * N)
+        .map(|k| {
+            let (i, j) = ((k / N) as f64, (k % N) as f64);
+            Coord {
+                x: 100.0 * j + 50.0 + 40.0 * (0.37 * k as f64).sin(),
+                y: 100.0 * i + 50.0 + 40.0 * (0.53 * k as f64).cos(),
+            }
+        })
+        .collect();
+    let t = bench_track(true);
+    let mut group = c.benchmark_group("track_pod_at_10k_fixes_1M_points");
+    group.sample_size(10);
+    for (name, law) in [
+        ("exponential_W2km_noisy", DetectionLaw::Exponential),
+        ("inverse_cube_W2km_noisy", DetectionLaw::InverseCube),
+    ] {
+        let w = SweepWidth::new(2000.0, &[]).unwrap();
+        group.bench_function(name, |b| {
+            b.iter(|| black_box(track_pod_at(&points, &t, law, &w).unwrap()))
+        });
+    }
+    group.finish();
+}
+
 fn allocation(c: &mut Criterion) {
     let cells = prior();
     let effort = 2_000.0 * 1_250_000.0; // W = 2 km, 1250 km of track
@@ -136,5 +165,5 @@ fn allocation(c: &mut Criterion) {
     group.finish();
 }
 
-criterion_group!(benches, update, allocation, track);
+criterion_group!(benches, update, allocation, track, track_points);
 criterion_main!(benches);

@@ -524,20 +524,19 @@ pub(crate) struct TrackField {
 }
 
 impl TrackField {
-    /// Builds the field for points inside `eval`, scored at `points_per_side²` points per
-    /// cell of side `cell_m`, on a lattice through `anchor` whose spacing [`choose_spacing`]
-    /// picks. Pieces farther than `reach` from `eval` are left out (as beyond the law's
-    /// reach).
+    /// Builds the field for points inside `eval`, on a lattice through `choice.anchor` whose
+    /// spacing [`choose_spacing`] picks. Pieces farther than `reach` from `eval` are left out
+    /// (as beyond the law's reach).
     pub(crate) fn new(
         kernel: Kernel,
         track: &[Coord<f64>],
         eval: &ProjectedBox,
-        (anchor, cell_m, points_per_side): (Coord<f64>, f64, usize),
+        choice: &MeshChoice,
         reach: f64,
     ) -> Self {
         let lattice = Lattice {
-            anchor,
-            spacing_m: choose_spacing(cell_m, points_per_side, track, eval, reach),
+            anchor: choice.anchor,
+            spacing_m: choose_spacing(choice, track, eval, reach),
         };
         let split = SplitKernel::new(kernel, SPLIT_RADIUS_NODES * lattice.spacing_m);
         let piece_max = 0.25 * split.radius_m();
@@ -613,14 +612,38 @@ impl TrackField {
 const FFT_NS_PER_NODE_LOG: f64 = 3.0;
 const NEAR_NS_PER_PAIR: f64 = 20.0;
 
-/// The mesh spacing for a track scored at `points_per_side²` points per cell of side `cell_m`
-/// over `eval`: the candidate spacing (`cell_m · m / points_per_side` for whole `m`, or whole
-/// multiples of `cell_m`) of least estimated cost, among those whose FFT stays within
-/// [`MAX_FFT_NODES`]. A finer mesh shrinks the near radius and so the near sum, but enlarges
-/// the FFT.
+/// Where the field will be evaluated, for the choice of its mesh.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct MeshChoice {
+    /// A point every lattice must pass through.
+    pub(crate) anchor: Coord<f64>,
+    /// The natural spacing: the cell size for cells, the mean spacing of the points for points.
+    pub(crate) base_m: f64,
+    /// Finest spacing considered, as a divisor of `base_m` (sub-points per cell side).
+    pub(crate) finest_divisor: usize,
+    /// Evaluation points per square metre (near the track).
+    pub(crate) density_per_m2: f64,
+}
+
+impl MeshChoice {
+    /// Cells of side `cell_m` scored at up to `points_per_side²` sub-points each, on a mesh
+    /// through `anchor` (a cell centre).
+    pub(crate) fn cells(anchor: Coord<f64>, cell_m: f64, points_per_side: usize) -> Self {
+        let n = points_per_side.max(1);
+        Self {
+            anchor,
+            base_m: cell_m,
+            finest_divisor: n,
+            density_per_m2: (n as f64 / cell_m).powi(2),
+        }
+    }
+}
+
+/// The mesh spacing of least estimated cost among `base · m / finest_divisor` (whole `m`) and
+/// whole multiples of `base` up to 64, whose FFT stays within [`MAX_FFT_NODES`]. A finer mesh
+/// shrinks the near radius and so the near sum, but enlarges the FFT.
 fn choose_spacing(
-    cell_m: f64,
-    points_per_side: usize,
+    choice: &MeshChoice,
     track: &[Coord<f64>],
     eval: &ProjectedBox,
     reach: f64,
@@ -640,8 +663,9 @@ fn choose_spacing(
         let h = t.north_m.min(keep.north_m) - t.south_m.max(keep.south_m);
         (w.max(0.0), h.max(0.0))
     });
-    let n = points_per_side.max(1);
-    let density = (n as f64 / cell_m).powi(2);
+    let n = choice.finest_divisor.max(1);
+    let base = choice.base_m;
+    let density = choice.density_per_m2;
     let points = eval.width_m() * eval.height_m() * density;
     let nodes = |h: f64| {
         let margin = 4.0 * STENCIL_MARGIN as f64 + 2.0;
@@ -658,17 +682,17 @@ fn choose_spacing(
         FFT_NS_PER_NODE_LOG * m * m.log2() + NEAR_NS_PER_PAIR * pairs
     };
     let candidates = (1..=n)
-        .map(|m| cell_m * m as f64 / n as f64)
-        .chain((2..=64).map(|k| cell_m * k as f64));
+        .map(|m| base * m as f64 / n as f64)
+        .chain((2..=64).map(|k| base * k as f64));
     let best = candidates
         .filter(|&h| nodes(h) <= MAX_FFT_NODES as f64)
         .map(|h| (cost(h), h))
         .min_by(|a, b| a.0.total_cmp(&b.0));
     match best {
         Some((_, h)) => h,
-        // Beyond 64 cells a node: coarsen until the FFT fits.
+        // Beyond 64 times the base spacing: coarsen until the FFT fits.
         None => {
-            let mut h = cell_m * 64.0;
+            let mut h = base * 64.0;
             while nodes(h) > MAX_FFT_NODES as f64 {
                 h *= 2.0;
             }
@@ -766,7 +790,7 @@ mod tests {
     fn mesh_far_field_matches_the_far_rate_integrated_along_the_segment() {
         // computed: the far part of the rate integrated along the segment by Simpson's rule.
         let kernel = Kernel::new(DetectionLaw::InverseCube, 300.0);
-        let lattice = (Coord { x: 50.0, y: 50.0 }, 100.0, 1);
+        let lattice = MeshChoice::cells(Coord { x: 50.0, y: 50.0 }, 100.0, 1);
         let (a, b) = (
             Coord {
                 x: 3000.0,
@@ -783,7 +807,7 @@ mod tests {
             east_m: 12_000.0,
             north_m: 12_000.0,
         };
-        let field = TrackField::new(kernel, &[a, b], &eval, lattice, 1e6);
+        let field = TrackField::new(kernel, &[a, b], &eval, &lattice, 1e6);
         let len = (b.x - a.x).hypot(b.y - a.y);
         for (x, y) in [
             (3050.0, 4050.0),
