@@ -32,11 +32,17 @@ Run from the repository root:  python3 benches/baselines/track_split_baseline.py
 """
 import argparse
 import math
+import os
+import sys
 import time
 
 import numpy as np
 import scipy
 import scipy.fft
+
+# The benchmark track, shared with the brute-force baseline in this folder.
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from track_baseline import bench_track  # noqa: E402
 
 N = 1000
 CELL = 100.0
@@ -56,20 +62,6 @@ STENCIL_MARGIN = 3
 BATCH = 256  # pieces per vectorised near batch
 CHECK_CELLS = 200
 SEED = 20240611
-
-
-def bench_track(noise=True):
-    per_leg = 400
-    pts = []
-    for leg in range(25):
-        y = 26_000.0 + 2_000.0 * leg
-        for i in range(per_leg):
-            s = 25_000.0 + 50_000.0 * i / (per_leg - 1)
-            x = s if leg % 2 == 0 else 100_000.0 - s
-            k = leg * per_leg + i
-            nx, ny = (5.0 * math.sin(1.7 * k), 5.0 * math.cos(2.3 * k)) if noise else (0.0, 0.0)
-            pts.append((x + nx, y + ny))
-    return np.array(pts)
 
 
 def segment_exposure(ax, ay, bx, by, px, py):

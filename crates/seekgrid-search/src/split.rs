@@ -451,10 +451,7 @@ fn fft_convolve(a: Vec<f64>, b: Vec<f64>, nx: usize, ny: usize) -> Vec<f64> {
                 },
             );
         let mut cols = transpose(&spectrum, ny, nxc);
-        cols.par_chunks_mut(ny).for_each_init(
-            || vec![zero; col_fwd.get_inplace_scratch_len()],
-            |scratch, col| col_fwd.process_with_scratch(col, scratch),
-        );
+        columns_in_place(&mut cols, &*col_fwd);
         cols
     };
     let fa = forward(a);
@@ -464,10 +461,7 @@ fn fft_convolve(a: Vec<f64>, b: Vec<f64>, nx: usize, ny: usize) -> Vec<f64> {
         .zip(fa.par_iter())
         .for_each(|(p, q)| *p *= q);
     drop(fa);
-    product.par_chunks_mut(ny).for_each_init(
-        || vec![zero; col_inv.get_inplace_scratch_len()],
-        |scratch, col| col_inv.process_with_scratch(col, scratch),
-    );
+    columns_in_place(&mut product, &*col_inv);
     let mut rows = transpose(&product, nxc, ny);
     drop(product);
     let scale = 1.0 / (nx * ny) as f64;
@@ -490,6 +484,15 @@ fn fft_convolve(a: Vec<f64>, b: Vec<f64>, nx: usize, ny: usize) -> Vec<f64> {
             },
         );
     result
+}
+
+/// One complex FFT of each contiguous run of `fft.len()` values (a column of the transposed
+/// spectrum), in parallel.
+fn columns_in_place(data: &mut [Complex<f64>], fft: &dyn rustfft::Fft<f64>) {
+    data.par_chunks_mut(fft.len()).for_each_init(
+        || vec![Complex::new(0.0, 0.0); fft.get_inplace_scratch_len()],
+        |scratch, col| fft.process_with_scratch(col, scratch),
+    );
 }
 
 /// Transpose of a `rows x cols` row-major array, in tiles so that reads and writes both stay
