@@ -42,7 +42,7 @@ import scipy.fft
 
 # The benchmark track, shared with the brute-force baseline in this folder.
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
-from track_baseline import bench_track  # noqa: E402
+from track_baseline import K as BRUTE_K, bench_track, segment_exposure  # noqa: E402
 
 N = 1000
 CELL = 100.0
@@ -50,6 +50,7 @@ NORTH = 100_000.0
 W = 2000.0
 K = W * W / (4 * math.pi)
 HALF_K = 0.5 * K
+assert BRUTE_K == K, "the brute-force reference must use the same sweep width"
 H = CELL
 R = 10.0 * H
 R2 = R * R
@@ -62,18 +63,6 @@ STENCIL_MARGIN = 3
 BATCH = 256  # pieces per vectorised near batch
 CHECK_CELLS = 200
 SEED = 20240611
-
-
-def segment_exposure(ax, ay, bx, by, px, py):
-    """(k/2) * integral over the segment of ds / r^3, vectorised over points (px, py)."""
-    length = math.hypot(bx - ax, by - ay)
-    if length == 0.0:
-        return np.zeros_like(px)
-    tx, ty = (bx - ax) / length, (by - ay) / length
-    rx, ry = px - ax, py - ay
-    s = rx * tx + ry * ty
-    x2 = (rx * ty - ry * tx) ** 2
-    return HALF_K * inverse_cube_integral(x2, -s, length - s)
 
 
 def inverse_cube_integral(x2, a, b):
