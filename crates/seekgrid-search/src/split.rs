@@ -12,16 +12,18 @@
 //!   `R` of the point: the law's closed form ([`Kernel::segment_exposure`]) on the part of the
 //!   segment inside the disc, minus the closed-form integral of the polynomial there.
 //!
-//! The far field is computed on a square mesh of spacing `h` (the grid's cell size, or a whole
-//! multiple of it when the mesh would be too large) with `R = 10 h`: the track's length is
+//! The far field is computed on a square mesh of spacing `h` with `R = 10 h` (`h` is the
+//! cheapest, by a stated cost model, of the cell size, its fractions down to the sub-point
+//! spacing and its whole multiples, within an FFT size limit): the track's length is
 //! deposited on the mesh by 2-point Gauss-Legendre points on pieces at most `h/2` long, each
 //! spread over its 6 x 6 neighbouring nodes with quintic Lagrange weights (which keep the
 //! moments up to fifth order), convolved with `f_far` sampled at the node offsets by FFT
 //! (`realfft`), and read back at any point by quintic Lagrange interpolation. Both steps are
 //! sixth order in `h / R`; the tests compare the result with the exact sum over all segments.
 //!
-//! This is the splitting of particle-mesh methods (Hockney & Eastwood, *Computer Simulation
-//! Using Particles*, 1988, ch. 8) applied to a line source; the Taylor join is our choice.
+//! This is the particle-particle/particle-mesh splitting (Hockney & Eastwood, *Computer
+//! Simulation Using Particles*, 1981; cited from memory) applied to a line source instead of
+//! point charges; the Taylor join and the quintic stencils are our choice.
 //! The near sum is written by hand because it is the search-theory core (exact segment
 //! integrals of the detection rate); the FFT comes from `realfft`/`rustfft`.
 
@@ -39,7 +41,7 @@ use seekgrid_core::ProjectedBox;
 pub(crate) const SPLIT_RADIUS_NODES: f64 = 10.0;
 /// Largest FFT (nodes along both axes together) before the mesh is coarsened.
 const MAX_FFT_NODES: usize = 1 << 24;
-/// Extra nodes kept round every mesh region for the 4-point stencils.
+/// Extra nodes kept round every mesh region for the 6-point stencils.
 const STENCIL_MARGIN: i64 = 3;
 
 /// The rate split at a radius (see the module documentation).
