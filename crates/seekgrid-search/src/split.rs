@@ -606,7 +606,10 @@ impl TrackField {
             let x = rx * piece.ty - ry * piece.tx;
             sum += self.split.near_exposure(x * x, -s, piece.len - s);
         }
-        sum + self.far.at(p)
+        // The near part is never negative (the rate lies above its Taylor polynomial inside
+        // R: the remainder's sign); the far mesh can dip a rounding error below zero where
+        // the field is tiny, since the quintic weights have negative lobes.
+        (sum + self.far.at(p)).max(0.0)
     }
 }
 

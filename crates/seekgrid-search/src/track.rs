@@ -737,6 +737,10 @@ mod tests {
                         .unwrap()
                         .to_dense(&grid)
                         .unwrap();
+                    assert!(
+                        fast.iter().all(|v| (0.0..=1.0).contains(v)),
+                        "{law:?} W={width}"
+                    );
                     let mut worst_pod = 0.0_f64;
                     let mut worst_rel = 0.0_f64;
                     for ((r, col), v) in fast.indexed_iter() {
@@ -794,6 +798,7 @@ mod tests {
                 let kernel = Kernel::new(law, width);
                 let got = track_pod_at(&points, &track, law, &w).unwrap();
                 assert_eq!(got.len(), points.len());
+                assert!(got.iter().all(|v| (0.0..=1.0).contains(v)));
                 assert_eq!(got[points.len() - 2], 0.0);
                 assert_eq!(got[points.len() - 1], 0.0);
                 let mut worst = 0.0_f64;
