@@ -66,6 +66,7 @@ fn bench(c: &mut Criterion) {
         end: s.adrift_earliest + Duration::hours(STEPS as i64),
         record_every_s: 3600.0,
         step_s: Some(3600.0),
+        also_record_at: Vec::new(),
     };
     let mut group = c.benchmark_group("drift");
     group.sample_size(10);

@@ -37,7 +37,12 @@
 //!     seed: 7,
 //! };
 //! let frame = Frame::for_position(-30.5, 20.2).unwrap();
-//! let options = SimulationOptions { end: t0 + chrono::Duration::hours(2), record_every_s: 3600.0, step_s: None };
+//! let options = SimulationOptions {
+//!     end: t0 + chrono::Duration::hours(2),
+//!     record_every_s: 3600.0,
+//!     step_s: None,
+//!     also_record_at: Vec::new(),
+//! };
 //! let run = simulate(&scenario, &frame, None, &options, &|_done, _total| {}).unwrap();
 //! let spread = run.spread_at(options.end, &run.initial_weights()).unwrap();
 //! let lkp = frame.to_xy(-30.5, 20.2);

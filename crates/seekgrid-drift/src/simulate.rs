@@ -70,8 +70,8 @@ pub struct DriftScenario {
     pub seed: u64,
 }
 
-/// How long to run and how often to store positions.
-#[derive(Debug, Clone, Copy, PartialEq)]
+/// How long to run and when to store positions.
+#[derive(Debug, Clone, PartialEq)]
 pub struct SimulationOptions {
     /// End of the simulation (at or after `adrift_earliest`, which is its start).
     pub end: Time,
@@ -81,6 +81,9 @@ pub struct SimulationOptions {
     /// Time step, seconds; `None` chooses it automatically (see [`simulate()`]). Steps are
     /// shortened so that a whole number of them fills each record interval.
     pub step_s: Option<f64>,
+    /// Further times to store positions at exactly (e.g. the times searches are scored at),
+    /// besides the regular records; times outside the simulated span are ignored.
+    pub also_record_at: Vec<Time>,
 }
 
 /// Positions of all particles at one time.
@@ -280,13 +283,22 @@ struct Lattice {
 }
 
 impl Lattice {
-    fn record_times(end_s: f64, record_every_s: f64) -> Vec<f64> {
+    /// Every `record_every_s` from the start, the end, and the `extra` times (seconds from
+    /// the start) strictly inside the span, sorted; records closer than a millisecond merge.
+    fn record_times(end_s: f64, record_every_s: f64, extra: &[f64]) -> Vec<f64> {
         if end_s <= 0.0 {
             return vec![0.0];
         }
         let intervals = ((end_s / record_every_s - 1e-9).ceil() as usize).max(1);
         let mut t: Vec<f64> = (0..intervals).map(|k| k as f64 * record_every_s).collect();
+        t.extend(extra.iter().copied().filter(|&e| e > 0.0 && e < end_s));
         t.push(end_s);
+        t.sort_by(f64::total_cmp);
+        t.dedup_by(|later, earlier| *later - *earlier < 1e-3);
+        // The end must stay the last record even if an extra time merged into it.
+        if let Some(last) = t.last_mut() {
+            *last = end_s;
+        }
         t
     }
 
@@ -784,7 +796,8 @@ pub fn simulate(
     let end_s = (options.end - start).as_seconds_f64();
     let n = scenario.particles;
     // Count before allocating anything.
-    let records_f = (end_s / options.record_every_s).ceil() + 1.0;
+    let records_f =
+        (end_s / options.record_every_s).ceil() + 1.0 + options.also_record_at.len() as f64;
     let bytes_f = n as f64 * records_f * 16.0;
     if bytes_f > MAX_RECORD_BYTES as f64 {
         return Err(DriftError::TooLarge {
@@ -804,7 +817,12 @@ pub fn simulate(
             });
         }
     }
-    let record_s = Lattice::record_times(end_s, options.record_every_s);
+    let extra: Vec<f64> = options
+        .also_record_at
+        .iter()
+        .map(|t| (*t - start).as_seconds_f64())
+        .collect();
+    let record_s = Lattice::record_times(end_s, options.record_every_s, &extra);
     let records = record_s.len();
 
     let model = Model::new(scenario, frame);
@@ -918,7 +936,7 @@ mod tests {
         let model = Model::new(&scenario, &frame);
         let mut breaks = model.current.breaks();
         breaks.extend(model.wind.breaks());
-        let record_s = Lattice::record_times(6.0 * 3600.0, 3600.0);
+        let record_s = Lattice::record_times(6.0 * 3600.0, 3600.0, &[]);
         let plain = Lattice::with_step(record_s, 1200.0, &breaks);
         let table = plain.clone().tabulate(&model.current, &model.wind);
         assert!(plain.nominal.is_none() && table.nominal.is_some());
@@ -935,14 +953,23 @@ mod tests {
     #[test]
     fn record_times_end_at_the_end_and_steps_end_at_kinks() {
         assert_eq!(
-            Lattice::record_times(7200.0, 3600.0),
+            Lattice::record_times(7200.0, 3600.0, &[]),
             vec![0.0, 3600.0, 7200.0]
         );
         assert_eq!(
-            Lattice::record_times(5000.0, 3600.0),
+            Lattice::record_times(5000.0, 3600.0, &[]),
             vec![0.0, 3600.0, 5000.0]
         );
-        assert_eq!(Lattice::record_times(0.0, 600.0), vec![0.0]);
+        assert_eq!(Lattice::record_times(0.0, 600.0, &[]), vec![0.0]);
+        // Extra times inside the span are added once; outside it, or on a record, ignored.
+        assert_eq!(
+            Lattice::record_times(
+                7200.0,
+                3600.0,
+                &[-5.0, 1234.5, 3600.0, 3600.0004, 7199.9999, 9000.0]
+            ),
+            vec![0.0, 1234.5, 3600.0, 7200.0]
+        );
         let l = Lattice::with_step(vec![0.0, 3600.0], 1000.0, &[100.0, 1800.0, 5000.0]);
         assert_eq!(l.bounds[0], vec![0.0, 100.0, 900.0, 1800.0, 2700.0, 3600.0]);
     }

@@ -10,6 +10,10 @@ use seekgrid_drift as drift;
 use seekgrid_prior as prior;
 use seekgrid_search as search;
 
+/// Regular interval of the stored drift positions, seconds, besides the times the map uses
+/// (see [`map`]).
+const DRIFT_RECORD_EVERY_S: f64 = 6.0 * 3600.0;
+
 /// Options of one map computation.
 #[derive(Debug, Clone, Copy)]
 pub struct MapOptions {
@@ -203,10 +207,25 @@ pub fn map(
         let end = at
             .max(incident.reference_time)
             .max(d.scenario.adrift_latest);
+        // Positions are stored exactly where they are used: the reference time, the map
+        // time, each search's mid-time and every whole hour (the drift layer's track); a
+        // record every six hours beyond that keeps interpolated positions close for other
+        // readers. 16 bytes per particle per record.
+        let mut record_at: Vec<Time> = vec![incident.reference_time, at];
+        record_at.extend(to_apply.iter().map(|s| mid_time(s)));
+        let hour = chrono::TimeDelta::hours(1);
+        if let Ok(first) = chrono::DurationRound::duration_trunc(d.scenario.adrift_earliest, hour) {
+            let mut t = first + hour;
+            while t < end {
+                record_at.push(t);
+                t += hour;
+            }
+        }
         let options = drift::SimulationOptions {
             end,
-            record_every_s: 600.0,
+            record_every_s: DRIFT_RECORD_EVERY_S,
             step_s: None,
+            also_record_at: record_at,
         };
         let report = |done: u64, total: u64| progress(&d.id, done, total);
         let run = drift::simulate(&d.scenario, &frame, land.as_ref(), &options, &report).map_err(

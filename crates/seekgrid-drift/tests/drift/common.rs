@@ -63,6 +63,7 @@ pub fn run(s: &DriftScenario, end_h: f64, record_every_s: f64, step_s: Option<f6
         end: hours(end_h),
         record_every_s,
         step_s,
+        also_record_at: Vec::new(),
     };
     simulate(s, &frame(), None, &options, &|_, _| {}).unwrap()
 }

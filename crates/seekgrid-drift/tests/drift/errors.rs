@@ -20,6 +20,7 @@ fn options(end_h: f64) -> SimulationOptions {
         end: hours(end_h),
         record_every_s: 600.0,
         step_s: None,
+        also_record_at: Vec::new(),
     }
 }
 
@@ -133,6 +134,7 @@ fn zero_particles_and_bad_options_are_refused() {
     );
     let bad_step = SimulationOptions {
         step_s: Some(f64::NAN),
+        also_record_at: Vec::new(),
         ..options(1.0)
     };
     assert_eq!(field_of(&try_run(&s, &bad_step).unwrap_err()), "step_s");
@@ -146,6 +148,7 @@ fn records_that_would_not_fit_in_memory_are_refused() {
         end: hours(240.0),
         record_every_s: 1.0,
         step_s: Some(1.0),
+        also_record_at: Vec::new(),
     };
     assert!(matches!(
         try_run(&s, &tiny_records),
@@ -156,6 +159,7 @@ fn records_that_would_not_fit_in_memory_are_refused() {
         end: hours(24.0 * 3650.0),
         record_every_s: 1e-6,
         step_s: None,
+        also_record_at: Vec::new(),
     };
     assert!(matches!(
         try_run(&s, &absurd),
@@ -167,6 +171,7 @@ fn records_that_would_not_fit_in_memory_are_refused() {
         end: hours(48.0),
         record_every_s: 3600.0,
         step_s: Some(1e-4),
+        also_record_at: Vec::new(),
     };
     assert!(matches!(
         try_run(&one, &tiny_steps),

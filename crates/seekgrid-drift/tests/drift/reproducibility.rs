@@ -59,6 +59,7 @@ fn options(step_s: Option<f64>) -> SimulationOptions {
         end: hours(8.0),
         record_every_s: 3600.0,
         step_s,
+        also_record_at: Vec::new(),
     }
 }
 
@@ -150,7 +151,7 @@ fn halving_the_automatic_step_moves_the_mean_by_less_than_one_percent_of_the_spr
     };
     let half_opts = SimulationOptions {
         step_s: Some(2.0 * 3600.0),
-        ..coarse_opts
+        ..coarse_opts.clone()
     };
     let coarse = simulate(&s, &f, None, &coarse_opts, &|_, _| {}).unwrap();
     let finer = simulate(&s, &f, None, &half_opts, &|_, _| {}).unwrap();

@@ -87,3 +87,43 @@ fn a_run_that_ends_at_its_start_keeps_the_start_positions() {
     assert_eq!(run.record_times(), vec![t0()]);
     assert!(snap.x_m.iter().any(|x| *x != snap.x_m[0]));
 }
+
+#[test]
+fn extra_record_times_give_exact_positions_where_interpolation_would_cut_the_corner() {
+    // computed: the current turns linearly from 1 kn toward 090° at 0 h to 1 kn toward 000° at
+    // 2 h, so (u, v) = (1 - t/2, t/2) kn and the displacement at 1 h is (0.75, 0.25) nm; the
+    // straight line between the records at 0 h and 2 h would put it at (0.5, 0.5) nm.
+    let s = scenario(
+        Environment::Series(vec![
+            (hours(0.0), exact(1.0, 90.0)),
+            (hours(2.0), exact(1.0, 0.0)),
+        ]),
+        Environment::Constant(exact(0.0, 0.0)),
+        Leeway::NONE,
+    );
+    let position_at_1h = |also_record_at: Vec<Time>| {
+        let options = SimulationOptions {
+            end: hours(2.0),
+            record_every_s: 7200.0,
+            step_s: None,
+            also_record_at,
+        };
+        let run = simulate(&s, &frame(), None, &options, &|_, _| {}).unwrap();
+        let snap = run.positions_at(hours(1.0));
+        (
+            run.record_times(),
+            true_displacement_nm(Coord {
+                x: snap.x_m[0],
+                y: snap.y_m[0],
+            }),
+        )
+    };
+    let (times, (e, n)) = position_at_1h(vec![hours(1.0), hours(-1.0), hours(5.0)]);
+    assert_eq!(times, vec![hours(0.0), hours(1.0), hours(2.0)]);
+    assert_abs_diff_eq!(e, 0.75, epsilon = 1e-6);
+    assert_abs_diff_eq!(n, 0.25, epsilon = 1e-6);
+    let (times, (e, n)) = position_at_1h(Vec::new());
+    assert_eq!(times, vec![hours(0.0), hours(2.0)]);
+    assert_abs_diff_eq!(e, 0.5, epsilon = 1e-6);
+    assert_abs_diff_eq!(n, 0.5, epsilon = 1e-6);
+}

@@ -66,6 +66,7 @@ fn particles_heading_into_an_island_stop_on_its_shore_flagged_and_never_inside()
         end: hours(6.0),
         record_every_s: 1800.0,
         step_s: None,
+        also_record_at: Vec::new(),
     };
     let free = simulate(&s, &f, None, &options, &|_, _| {}).unwrap();
     let run = simulate(&s, &f, Some(&land), &options, &|_, _| {}).unwrap();
@@ -137,6 +138,7 @@ fn particles_drawn_on_land_are_stranded_from_the_start() {
         end: hours(2.0),
         record_every_s: 3600.0,
         step_s: None,
+        also_record_at: Vec::new(),
     };
     let run = simulate(&s, &f, Some(&land), &options, &|_, _| {}).unwrap();
     let a = run.positions_at(hours(0.0));
