@@ -542,70 +542,59 @@ fn neighbours(s: &Shape, dm: f64, dd: f64, ds: f64) -> Vec<Shape> {
             center,
             theta_deg,
             spacing_m,
-        } => {
-            for (dx, dy) in [(dm, 0.0), (-dm, 0.0), (0.0, dm), (0.0, -dm)] {
-                out.push(Shape::Square {
-                    center: Coord {
-                        x: center.x + dx,
-                        y: center.y + dy,
-                    },
-                    theta_deg,
-                    spacing_m,
-                });
-            }
-            for t in [theta_deg + dd, theta_deg - dd]
-                .into_iter()
-                .filter(|_| dd > 0.0)
-            {
-                out.push(Shape::Square {
-                    center,
-                    theta_deg: wrap360(t),
-                    spacing_m,
-                });
-            }
-            for f in [1.0 + ds, 1.0 / (1.0 + ds)] {
-                out.push(Shape::Square {
-                    center,
-                    theta_deg,
-                    spacing_m: spacing_m * f,
-                });
-            }
-        }
+        } => centred_neighbours(
+            (center, theta_deg, spacing_m),
+            (dm, dd, ds),
+            |center, theta_deg, spacing_m| Shape::Square {
+                center,
+                theta_deg,
+                spacing_m,
+            },
+            &mut out,
+        ),
         Shape::Sector {
             center,
             theta_deg,
             radius_m,
-        } => {
-            for (dx, dy) in [(dm, 0.0), (-dm, 0.0), (0.0, dm), (0.0, -dm)] {
-                out.push(Shape::Sector {
-                    center: Coord {
-                        x: center.x + dx,
-                        y: center.y + dy,
-                    },
-                    theta_deg,
-                    radius_m,
-                });
-            }
-            for t in [theta_deg + dd, theta_deg - dd]
-                .into_iter()
-                .filter(|_| dd > 0.0)
-            {
-                out.push(Shape::Sector {
-                    center,
-                    theta_deg: wrap360(t),
-                    radius_m,
-                });
-            }
-            for f in [1.0 + ds, 1.0 / (1.0 + ds)] {
-                out.push(Shape::Sector {
-                    center,
-                    theta_deg,
-                    radius_m: radius_m * f,
-                });
-            }
-        }
+        } => centred_neighbours(
+            (center, theta_deg, radius_m),
+            (dm, dd, ds),
+            |center, theta_deg, radius_m| Shape::Sector {
+                center,
+                theta_deg,
+                radius_m,
+            },
+            &mut out,
+        ),
     }
     out
+}
+
+/// Neighbours of a pattern fixed by its centre, orientation and one size (an expanding
+/// square's spacing, a sector search's radius): the centre moved by `dm` along each axis, the
+/// orientation turned by `±dd` (when `dd > 0`), and the size scaled by `1 + ds` either way.
+fn centred_neighbours(
+    (center, theta_deg, size_m): (Coord<f64>, f64, f64),
+    (dm, dd, ds): (f64, f64, f64),
+    make: impl Fn(Coord<f64>, f64, f64) -> Shape,
+    out: &mut Vec<Shape>,
+) {
+    for (dx, dy) in [(dm, 0.0), (-dm, 0.0), (0.0, dm), (0.0, -dm)] {
+        let moved = Coord {
+            x: center.x + dx,
+            y: center.y + dy,
+        };
+        out.push(make(moved, theta_deg, size_m));
+    }
+    for t in [theta_deg + dd, theta_deg - dd]
+        .into_iter()
+        .filter(|_| dd > 0.0)
+    {
+        out.push(make(center, wrap360(t), size_m));
+    }
+    for f in [1.0 + ds, 1.0 / (1.0 + ds)] {
+        out.push(make(center, theta_deg, size_m * f));
+    }
 }
 
 #[cfg(test)]
