@@ -174,15 +174,22 @@ fn cubic_cells(w: &mut Window, pchip: &Pchip, h: f64, cx: f64, cy: f64) {
 /// about the origin (closed form: integrate the chord height sqrt(r² - x²) - y between the
 /// clipped abscissae, ∫ = ½(x sqrt(r² - x²) + r² asin(x/r)) - y x).
 pub(crate) fn disc_rect_area(x0: f64, x1: f64, y0: f64, y1: f64, r: f64) -> f64 {
+    between_heights(y0, y1, |y| above(x0, x1, y, r))
+}
+
+/// The part of a disc-symmetric quantity between heights `y0 < y1`, from `above(y)`, its part
+/// above the line at height `y >= 0` (the disc is symmetric about the x axis, so a band
+/// below the axis is its mirror image).
+fn between_heights(y0: f64, y1: f64, above: impl Fn(f64) -> f64) -> f64 {
     if y0 < 0.0 {
         if y1 <= 0.0 {
-            above(x0, x1, -y1, r) - above(x0, x1, -y0, r)
+            above(-y1) - above(-y0)
         } else {
-            let half = above(x0, x1, 0.0, r);
-            (half - above(x0, x1, -y0, r)) + (half - above(x0, x1, y1, r))
+            let half = above(0.0);
+            (half - above(-y0)) + (half - above(y1))
         }
     } else {
-        above(x0, x1, y0, r) - above(x0, x1, y1, r)
+        above(y0) - above(y1)
     }
 }
 
@@ -190,16 +197,7 @@ pub(crate) fn disc_rect_area(x0: f64, x1: f64, y0: f64, y1: f64, r: f64) -> f64 
 /// A'(r)/r for A = [`disc_rect_area`] (differentiating its closed form: ∂/∂r of the chord
 /// integral is r·asin(x/r); the clamping terms vanish).
 pub(crate) fn arc_angle(x0: f64, x1: f64, y0: f64, y1: f64, r: f64) -> f64 {
-    if y0 < 0.0 {
-        if y1 <= 0.0 {
-            angle_above(x0, x1, -y1, r) - angle_above(x0, x1, -y0, r)
-        } else {
-            let half = angle_above(x0, x1, 0.0, r);
-            (half - angle_above(x0, x1, -y0, r)) + (half - angle_above(x0, x1, y1, r))
-        }
-    } else {
-        angle_above(x0, x1, y0, r) - angle_above(x0, x1, y1, r)
-    }
+    between_heights(y0, y1, |y| angle_above(x0, x1, y, r))
 }
 
 /// Angle of the circle's arc above the line y = `y` (y >= 0) with x between x0 and x1.
