@@ -23,6 +23,7 @@ pub mod plan_outputs;
 pub mod planning;
 pub mod prepare;
 pub mod raster;
+pub mod slices;
 pub mod summary;
 pub mod timeline;
 

@@ -3,7 +3,7 @@
 
 use crate::model::{
     DetectionName, DriftDef, Incident, PatternDef, PoolChoice, RingMode, ScenarioKind,
-    SearchGeometry, VectorDef, VectorSample,
+    SearchGeometry, Time, VectorDef, VectorSample,
 };
 use geo::{Coord, LineString, MultiPolygon, Polygon};
 use seekgrid_core::{Frame, ProjectedBox};
@@ -39,6 +39,8 @@ pub struct PreparedSearch {
     pub pattern: Option<search::Pattern>,
     /// The followed track in the frame.
     pub track: Option<Vec<Coord<f64>>>,
+    /// The time of every fix of the followed track, when the file gave one for each.
+    pub track_times: Option<Vec<Time>>,
 }
 
 /// An incident in the working frame.
@@ -467,6 +469,10 @@ pub fn prepare(incident: &Incident) -> Result<Prepared, PrepareError> {
                 id: s.id.clone(),
                 source: Box::new(source),
             })?;
+        let track_times = match &s.geometry {
+            SearchGeometry::Track { times, .. } => times.iter().copied().collect(),
+            SearchGeometry::Pattern(_) => None,
+        };
         let (pattern, track) = match &s.geometry {
             SearchGeometry::Pattern(p) => (Some(pattern(&frame, &what, p)?), None),
             SearchGeometry::Track { points, .. } => (
@@ -493,6 +499,7 @@ pub fn prepare(incident: &Incident) -> Result<Prepared, PrepareError> {
             sweep_width,
             pattern,
             track,
+            track_times,
         });
     }
 

@@ -3,6 +3,7 @@
 
 use crate::model::{Incident, Time};
 use crate::prepare::{PrepareError, Prepared, PreparedSearch, prepare};
+use crate::slices;
 use geo::Coord;
 use ndarray::Array2;
 use seekgrid_core::{Belief, CoreError, Frame, GridSpec, Particles, ProjectedBox};
@@ -213,6 +214,9 @@ pub fn map(
         // readers. 16 bytes per particle per record.
         let mut record_at: Vec<Time> = vec![incident.reference_time, at];
         record_at.extend(to_apply.iter().map(|s| mid_time(s)));
+        for s in &to_apply {
+            record_at.extend(slices::slices(s).into_iter().flatten().map(|p| p.mid));
+        }
         let hour = chrono::TimeDelta::hours(1);
         if let Ok(first) = chrono::DurationRound::duration_trunc(d.scenario.adrift_earliest, hour) {
             let mut t = first + hour;
@@ -325,16 +329,29 @@ pub fn map(
             id: s.def.id.clone(),
             source: Box::new(source),
         };
+        // Drifting particles meet a long search part by part (see `slices`); otherwise they
+        // are scored where they are at its middle.
+        let parts = slices::slices(s);
+        let sliced = match &parts {
+            Some(parts) => Some(sliced_particle_pod(parts, &place, s.law, sw).map_err(err)?),
+            None => None,
+        };
         let (layer, particle_pod, track_line, area) = match (&s.pattern, &s.track) {
             (Some(p), _) => (
                 search::pattern_pod(&grid, p, s.law, sw).map_err(err)?,
-                search::pattern_pod_at(&points, p, s.law, sw).map_err(err)?,
+                match sliced {
+                    Some(pod) => pod,
+                    None => search::pattern_pod_at(&points, p, s.law, sw).map_err(err)?,
+                },
                 p.tracks(),
                 Some(p.area_polygon()),
             ),
             (None, Some(tr)) => (
                 search::track_pod(&grid, tr, s.law, sw).map_err(err)?,
-                search::track_pod_at(&points, tr, s.law, sw).map_err(err)?,
+                match sliced {
+                    Some(pod) => pod,
+                    None => search::track_pod_at(&points, tr, s.law, sw).map_err(err)?,
+                },
                 geo::LineString(tr.clone()),
                 None,
             ),
@@ -513,6 +530,43 @@ fn euclid_length(l: &geo::LineString<f64>) -> f64 {
     l.0.windows(2)
         .map(|w| (w[1].x - w[0].x).hypot(w[1].y - w[0].y))
         .sum()
+}
+
+/// POD at every particle of a search cut into parts: each part's stretch of track scored
+/// against the particles where they are at its mid-time, the parts combined as
+/// `1 - Π(1 - p)`. A part without a stretch of track (the unit idle, or the track over)
+/// detects nothing.
+fn sliced_particle_pod(
+    parts: &[slices::Slice],
+    place: &impl Fn(Time) -> (Vec<f64>, Vec<f64>, Vec<bool>),
+    law: search::DetectionLaw,
+    sw: &search::SweepWidth,
+) -> Result<Vec<f64>, search::SearchError> {
+    let mut miss: Option<Vec<f64>> = None;
+    for part in parts {
+        let (x, y, _) = place(part.mid);
+        let miss = miss.get_or_insert_with(|| vec![1.0; x.len()]);
+        if part.track.len() < 2 {
+            continue;
+        }
+        let points: Vec<Coord<f64>> = x.iter().zip(&y).map(|(&x, &y)| Coord { x, y }).collect();
+        match search::track_pod_at(&points, &part.track, law, sw) {
+            Ok(pod) => {
+                for (m, d) in miss.iter_mut().zip(pod) {
+                    *m *= 1.0 - d;
+                }
+            }
+            Err(
+                search::SearchError::TrackHasNoLength | search::SearchError::TrackTooShort { .. },
+            ) => {}
+            Err(e) => return Err(e),
+        }
+    }
+    Ok(miss
+        .unwrap_or_default()
+        .into_iter()
+        .map(|m| 1.0 - m)
+        .collect())
 }
 
 fn mid_time(s: &PreparedSearch) -> Time {

@@ -416,7 +416,10 @@ impl Pattern {
         }
     }
 
-    fn is_rectangle(&self) -> bool {
+    /// Whether the pattern is a rectangle scored by its coverage (parallel sweep, creeping
+    /// line), rather than along its track (expanding square, sector search).
+    #[must_use]
+    pub fn is_rectangle(&self) -> bool {
         matches!(self, Self::ParallelSweep { .. } | Self::CreepingLine { .. })
     }
 }
