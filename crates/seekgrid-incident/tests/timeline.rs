@@ -3,6 +3,28 @@
 use seekgrid_incident::parse;
 use seekgrid_incident::timeline::{MapOptions, map};
 
+/// The incident, grid and a target drifting east at exactly 1 kn from a known position (every
+/// error zero), shared by the tests below.
+const DRIFTING_TARGET: &str = r#"
+[incident]
+title = "Drift test (invented)"
+reference_time = "2026-06-14T10:00:00Z"
+crs = "EPSG:32626"
+[grid]
+cell_m = 200
+[[analyst]]
+id = "a"
+[[scenario]]
+id = "adrift"
+analyst = "a"
+kind = "drift"
+position = [-30.0, 30.0]
+adrift = { earliest = "2026-06-14T10:00:00Z", latest = "2026-06-14T10:00:00Z" }
+current = { speed_kn = 1.0, toward_deg = 90 }
+wind = { speed_kn = 0.0, from_deg = 0 }
+leeway = { downwind_slope = 0.0 }
+particles = 500"#;
+
 /// A target drifting east at exactly 1 kn from a known position (every error zero), and a
 /// stationary scenario far away that no search touches. Two parallel sweeps are placed where
 /// the target is at the middle of each search window.
@@ -20,25 +42,7 @@ fn incident_text(second_search_east_m: f64) -> String {
     let (lon1, lat1) = scale(2.0 * 1852.0); // 2 h after going adrift at 1 kn
     let (lon2, lat2) = scale(second_search_east_m);
     format!(
-        r#"
-[incident]
-title = "Drift test (invented)"
-reference_time = "2026-06-14T10:00:00Z"
-crs = "EPSG:32626"
-[grid]
-cell_m = 200
-[[analyst]]
-id = "a"
-[[scenario]]
-id = "adrift"
-analyst = "a"
-kind = "drift"
-position = [-30.0, 30.0]
-adrift = {{ earliest = "2026-06-14T10:00:00Z", latest = "2026-06-14T10:00:00Z" }}
-current = {{ speed_kn = 1.0, toward_deg = 90 }}
-wind = {{ speed_kn = 0.0, from_deg = 0 }}
-leeway = {{ downwind_slope = 0.0 }}
-particles = 500
+        r#"{DRIFTING_TARGET}
 [[scenario]]
 id = "far-away"
 analyst = "a"
@@ -139,25 +143,8 @@ fn a_long_search_meets_drifting_particles_part_by_part() {
         ends[0].1, ends[0].0, ends[1].1, ends[1].0
     );
     std::fs::write(dir.path().join("line.gpx"), gpx).unwrap();
-    let text = r#"
-[incident]
-title = "Sliced search test (invented)"
-reference_time = "2026-06-14T10:00:00Z"
-crs = "EPSG:32626"
-[grid]
-cell_m = 200
-[[analyst]]
-id = "a"
-[[scenario]]
-id = "adrift"
-analyst = "a"
-kind = "drift"
-position = [-30.0, 30.0]
-adrift = { earliest = "2026-06-14T10:00:00Z", latest = "2026-06-14T10:00:00Z" }
-current = { speed_kn = 1.0, toward_deg = 90 }
-wind = { speed_kn = 0.0, from_deg = 0 }
-leeway = { downwind_slope = 0.0 }
-particles = 200
+    let text = format!(
+        r#"{DRIFTING_TARGET}
 [[search]]
 id = "line"
 unit = "helicopter"
@@ -166,8 +153,9 @@ end = "2026-06-14T13:00:00Z"
 sweep_width_m = 500
 detection = "inverse-cube"
 track = "line.gpx"
-"#;
-    let inc = parse(&dir.path().join("i.toml"), text.to_string()).unwrap();
+"#
+    );
+    let inc = parse(&dir.path().join("i.toml"), text).unwrap();
     let m = map(&inc, &MapOptions { at: None }, &|_, _, _| {}).unwrap();
     let k = 500.0_f64 * 500.0 / (4.0 * std::f64::consts::PI);
     let exposure = |x: f64| k * 20_000.0 / (x * x * (x * x + 20_000.0_f64 * 20_000.0).sqrt());
