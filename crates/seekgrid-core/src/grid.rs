@@ -20,6 +20,22 @@ pub struct ProjectedBox {
 }
 
 impl ProjectedBox {
+    /// The box as a counter-clockwise polygon (for clipping and export with `geo`).
+    #[must_use]
+    pub fn to_polygon(&self) -> geo::Polygon<f64> {
+        geo::Rect::new(
+            Coord {
+                x: self.west_m,
+                y: self.south_m,
+            },
+            Coord {
+                x: self.east_m,
+                y: self.north_m,
+            },
+        )
+        .to_polygon()
+    }
+
     /// A box around one point with the given half-widths.
     #[must_use]
     pub fn around(center: Coord<f64>, half_width_m: f64, half_height_m: f64) -> Self {

@@ -93,18 +93,7 @@ fn joint_pos_from_patterns(belief: &Belief, plan: &Plan, units: &[UnitSpec]) -> 
             _ => {
                 let area = MultiPolygon(vec![a.pattern.area_polygon()]);
                 let dense = Array2::from_shape_fn((grid.rows(), grid.cols()), |(r, c)| {
-                    let bx = grid.cell_box(r, c);
-                    let cell = geo::Rect::new(
-                        geo::Coord {
-                            x: bx.west_m,
-                            y: bx.south_m,
-                        },
-                        geo::Coord {
-                            x: bx.east_m,
-                            y: bx.north_m,
-                        },
-                    )
-                    .to_polygon();
+                    let cell = grid.cell_box(r, c).to_polygon();
                     let f = area.intersection(&MultiPolygon(vec![cell])).unsigned_area()
                         / grid.cell_area_m2();
                     a.pod * f
@@ -658,11 +647,7 @@ mod properties {
             let mut cut = 0.0;
             for j in 0..b.particles().len() {
                 let (r, c) = match grid.locate(b.particles().position(j)) { Some(rc) => rc, None => continue };
-                let bx = grid.cell_box(r, c);
-                let cell_poly = geo::Rect::new(
-                    geo::Coord { x: bx.west_m, y: bx.south_m },
-                    geo::Coord { x: bx.east_m, y: bx.north_m },
-                ).to_polygon();
+                let cell_poly = grid.cell_box(r, c).to_polygon();
                 let partly = p.assignments.iter().any(|a| {
                     let inter = MultiPolygon(vec![a.pattern.area_polygon()])
                         .intersection(&MultiPolygon(vec![cell_poly.clone()]))

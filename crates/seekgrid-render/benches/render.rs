@@ -64,18 +64,7 @@ fn bench(c: &mut Criterion) {
         b.iter(|| {
             let mut features = Vec::with_capacity(1_000_000);
             for ((r, cc), &p) in poc.indexed_iter() {
-                let bx = grid.cell_box(r, cc);
-                let poly = geo::Rect::new(
-                    geo::Coord {
-                        x: bx.west_m,
-                        y: bx.south_m,
-                    },
-                    geo::Coord {
-                        x: bx.east_m,
-                        y: bx.north_m,
-                    },
-                )
-                .to_polygon();
+                let poly = grid.cell_box(r, cc).to_polygon();
                 let mut f = geojson::Feature::from(polygon_to_geojson(&frame, &poly));
                 f.set_property("poc", p);
                 f.set_property("density_km2", p / 0.01);

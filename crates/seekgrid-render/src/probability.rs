@@ -646,18 +646,7 @@ mod tests {
         );
         let mut features = Vec::new();
         for ((r, c), &p) in poc.indexed_iter().filter(|(_, p)| **p > 0.0) {
-            let b = grid.cell_box(r, c);
-            let poly = geo::Rect::new(
-                Coord {
-                    x: b.west_m,
-                    y: b.south_m,
-                },
-                Coord {
-                    x: b.east_m,
-                    y: b.north_m,
-                },
-            )
-            .to_polygon();
+            let poly = grid.cell_box(r, c).to_polygon();
             let mut f = geojson::Feature::from(crate::vector::polygon_to_geojson(&frame, &poly));
             f.set_property("poc", p);
             f.set_property("density_km2", p / 0.0625);
