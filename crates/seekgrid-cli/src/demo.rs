@@ -4,8 +4,8 @@
 //! so the demo runs from any folder.
 
 use crate::{Failure, map_incident, plan_incident};
-use seekgrid_incident::outputs::OutputSelection;
 use seekgrid_render::OutputDir;
+use seekgrid_render::outputs::OutputSelection;
 use std::path::Path;
 
 /// One bundled file: its path inside the demo's input folder and its contents.
@@ -121,7 +121,7 @@ pub(crate) fn run(out: &Path, force: bool) -> Result<(), Failure> {
     }
     eprintln!(
         "The demo incidents are invented. {}",
-        seekgrid_incident::summary::CAUTION
+        seekgrid_render::summary::CAUTION
     );
     Ok(())
 }

@@ -4,10 +4,10 @@
 mod demo;
 
 use clap::{Parser, Subcommand};
-use seekgrid_incident::outputs::OutputSelection;
-use seekgrid_incident::summary::CAUTION;
-use seekgrid_incident::timeline::{MapError, MapOptions};
+use seekgrid_engine::timeline::{MapError, MapOptions};
 use seekgrid_incident::{Incident, IncidentErrors};
+use seekgrid_render::outputs::OutputSelection;
+use seekgrid_render::summary::CAUTION;
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -133,7 +133,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
         Command::Check { file } => {
             let incident = seekgrid_incident::load(&file)?;
             // Preparing projects every position and validates every shape and search.
-            seekgrid_incident::prepare::prepare(&incident)
+            seekgrid_engine::prepare::prepare(&incident)
                 .map_err(|e| located(&incident, &e.to_string()))?;
             println!(
                 "{}: ok ({} analyst(s), {} scenario(s), {} search(es), {} unit(s))",
@@ -202,7 +202,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
     }
 }
 
-fn one_line(s: &seekgrid_incident::summary::Summary, out: &Path) -> String {
+fn one_line(s: &seekgrid_render::summary::Summary, out: &Path) -> String {
     format!(
         "wrote {} ({} x {} cells of {} m, POC in grid {:.4}, outside {:.4}, {} search(es), cumulative POS {:.4})\n{}",
         out.display(),
@@ -238,16 +238,16 @@ fn map_incident(
     at: Option<chrono::DateTime<chrono::Utc>>,
     selection: &OutputSelection,
     force: bool,
-) -> Result<seekgrid_incident::summary::Summary, Failure> {
+) -> Result<seekgrid_render::summary::Summary, Failure> {
     let dir = output_dir(incident, out, force)?;
     let result = with_progress(|progress| {
-        seekgrid_incident::timeline::map(incident, &MapOptions { at }, progress)
+        seekgrid_engine::timeline::map(incident, &MapOptions { at }, progress)
     });
     let m = result.map_err(|e| match e {
         MapError::Belief(_) => Failure::failed(format!("{}: {e}", incident.path.display())),
         other => located(incident, &other.to_string()),
     })?;
-    seekgrid_incident::outputs::write(incident, &m, &dir, selection)
+    seekgrid_render::outputs::write(incident, &m, &dir, selection)
         .map_err(|e| Failure::failed(e.to_string()))
 }
 
@@ -257,12 +257,12 @@ fn plan_incident(
     out: &Path,
     start: chrono::DateTime<chrono::Utc>,
     force: bool,
-) -> Result<seekgrid_incident::summary::Summary, Failure> {
+) -> Result<seekgrid_render::summary::Summary, Failure> {
     let dir = output_dir(incident, out, force)?;
     let result =
-        with_progress(|progress| seekgrid_incident::planning::plan_at(incident, start, progress));
+        with_progress(|progress| seekgrid_engine::planning::plan_at(incident, start, progress));
     let run = result.map_err(|e| located(incident, &e.to_string()))?;
-    seekgrid_incident::plan_outputs::write(incident, &run, &dir)
+    seekgrid_render::plan_outputs::write(incident, &run, &dir)
         .map_err(|e| Failure::failed(e.to_string()))
 }
 
@@ -280,7 +280,7 @@ fn output_dir(
 
 /// Runs `work` with a progress callback that drives a bar on a terminal (and does nothing
 /// when standard error is piped), then clears the bar.
-fn with_progress<T>(work: impl FnOnce(seekgrid_incident::timeline::Progress<'_>) -> T) -> T {
+fn with_progress<T>(work: impl FnOnce(seekgrid_engine::timeline::Progress<'_>) -> T) -> T {
     let bar = progress_bar();
     let progress = |what: &str, done: u64, total: u64| {
         if let Some(b) = &bar {

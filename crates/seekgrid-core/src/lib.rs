@@ -23,6 +23,7 @@ pub mod error;
 pub mod frame;
 pub mod grid;
 pub mod mass;
+pub mod particle_density;
 pub mod units;
 
 pub use belief::{Belief, BeliefParts, Particles};

@@ -1,5 +1,5 @@
 //! The incident after validation: every value checked and typed, every referenced file read.
-//! Positions are still WGS84 lon/lat; [`crate::prepare`] projects them into the working frame.
+//! Positions are still WGS84 lon/lat; the engine (`seekgrid-engine`, module `prepare`) projects them into the working frame.
 
 use chrono::{DateTime, Utc};
 use geo::{LineString, MultiPolygon};

@@ -48,7 +48,10 @@ pub mod georef;
 pub mod gpx;
 mod heatmap;
 pub mod output;
+pub mod outputs;
+pub mod plan_outputs;
 mod probability;
+pub mod summary;
 pub mod vector;
 
 pub use containment::containment_geojson;

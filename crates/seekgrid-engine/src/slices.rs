@@ -10,9 +10,9 @@
 //! the rectangle patterns (scored by coverage, not along a track), are evaluated once at the
 //! search's mid-time.
 
-use crate::model::Time;
 use crate::prepare::PreparedSearch;
 use geo::Coord;
+use seekgrid_incident::model::Time;
 
 /// Longest part of a search scored against one placement of the particles, seconds.
 pub const SLICE_S: f64 = 1800.0;

@@ -1,7 +1,7 @@
 //! `summary.json`: what a run computed, in numbers a reviewer can check.
 
-use crate::model::Incident;
-use crate::timeline::IncidentMap;
+use seekgrid_engine::IncidentMap;
+use seekgrid_incident::model::Incident;
 use serde::Serialize;
 
 /// The caution every output carries.
@@ -167,8 +167,8 @@ pub struct Summary {
     pub plan: Option<serde_json::Value>,
 }
 
-fn kind_name(k: &crate::model::ScenarioKind) -> &'static str {
-    use crate::model::ScenarioKind as K;
+fn kind_name(k: &seekgrid_incident::model::ScenarioKind) -> &'static str {
+    use seekgrid_incident::model::ScenarioKind as K;
     match k {
         K::Point { .. } => "point",
         K::Route { .. } => "route",

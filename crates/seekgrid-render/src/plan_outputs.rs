@@ -1,15 +1,15 @@
 //! Writing a plan: `plan.geojson`, `plan.gpx`, `plan.md`, `plan.png`, `effort.png` and the
 //! summary with `pos_plan` and `pos_optimal_bound`.
 
-use crate::model::Incident;
+use crate::gpx::{RouteSpec, routes_gpx};
 use crate::outputs::{self, OutputSelection};
-use crate::planning::PlanRun;
 use crate::summary::{CAUTION, Summary};
+use crate::{self as render, ColourScale, MapStyle, OutputDir, Overlay, RenderError};
 use geo::{Area, Coord};
 use geojson::{Feature, JsonObject};
 use seekgrid_core::Frame;
-use seekgrid_render::gpx::{RouteSpec, routes_gpx};
-use seekgrid_render::{self as render, ColourScale, MapStyle, OutputDir, Overlay, RenderError};
+use seekgrid_engine::PlanRun;
+use seekgrid_incident::model::Incident;
 use std::fmt::Write as _;
 
 /// Degrees and decimal minutes, e.g. `31°32.123'N`, `040°57.321'W`.
@@ -319,7 +319,7 @@ pub fn write(incident: &Incident, run: &PlanRun, dir: &OutputDir) -> Result<Summ
     }
     dir.write("plan.md", md.as_bytes())?;
 
-    let poc = m.poc_cells();
+    let poc = &m.poc;
     let cell_km2 = m.grid.cell_area_m2() / 1e6;
     let density = poc.mapv(|p| p / cell_km2);
     let sub = format!(

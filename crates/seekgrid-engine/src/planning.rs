@@ -1,9 +1,9 @@
 //! Planning the next search period: the belief at the plan's start, the units available,
 //! and the plan with its bound.
 
-use crate::model::{Incident, Time, UnitDef};
 use crate::prepare::law;
 use crate::timeline::{IncidentMap, MapError, MapOptions, Progress, map};
+use seekgrid_incident::model::{Incident, Time, UnitDef};
 use seekgrid_plan as plan;
 
 /// Search speed above which a unit is treated as an aircraft (knots); only the briefing
@@ -91,8 +91,8 @@ pub fn plan_at(
         .collect();
     let (segments, areas) = match (&m.prepared.segments, teams.is_empty()) {
         (Some(segs), false) => {
-            let poc = m.poc_cells();
-            let rows = seekgrid_prior::segment_table(&poc, &m.grid, segs);
+            let poc = &m.poc;
+            let rows = seekgrid_prior::segment_table(poc, &m.grid, segs);
             let table: Vec<(String, f64, f64)> = rows
                 .iter()
                 .map(|r| (r.id.clone(), r.poa, r.area_m2))

@@ -1,7 +1,7 @@
 //! The timeline against computations done by hand: a drifting target searched twice.
 
+use seekgrid_engine::timeline::{MapOptions, map};
 use seekgrid_incident::parse;
-use seekgrid_incident::timeline::{MapOptions, map};
 
 /// The incident, grid and a target drifting east at exactly 1 kn from a known position (every
 /// error zero), shared by the tests below.

@@ -1,4 +1,5 @@
-//! Rasterising the particle part of the belief onto the grid for maps.
+//! Spreading the particle part of the belief onto the grid (a kernel density), for maps and
+//! for everything that reads the belief per cell.
 //!
 //! Each drift scenario's particles are spread with a Gaussian kernel whose bandwidth follows
 //! Silverman's rule of thumb for two dimensions, h = σ̂ n^(-1/6), with σ̂ the mean of the two
@@ -9,8 +10,8 @@
 //! grid, so the map holds exactly the mass of the particles inside the grid. Particles stranded
 //! ashore are not spread: their mass stays in the cell they stranded in.
 
+use crate::{GridSpec, Particles};
 use ndarray::Array2;
-use seekgrid_core::{GridSpec, Particles};
 
 /// The bandwidth used for one cloud, metres (see the module docs).
 #[must_use]
@@ -111,7 +112,7 @@ pub fn add_particles(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use seekgrid_core::DEFAULT_MAX_CELLS;
+    use crate::DEFAULT_MAX_CELLS;
 
     fn grid() -> GridSpec {
         GridSpec::new(0.0, 10_000.0, 100.0, 100, 100, DEFAULT_MAX_CELLS).unwrap()

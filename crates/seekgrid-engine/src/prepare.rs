@@ -1,13 +1,13 @@
 //! From a validated incident (lon/lat) to values in the working frame: the frame, the
 //! projected scenarios of the prior, drift scenarios and search geometry.
 
-use crate::model::{
-    DetectionName, DriftDef, Incident, PatternDef, PoolChoice, RingMode, ScenarioKind,
-    SearchGeometry, Time, VectorDef, VectorSample,
-};
 use geo::{Coord, LineString, MultiPolygon, Polygon};
 use seekgrid_core::{Frame, ProjectedBox};
 use seekgrid_drift as drift;
+use seekgrid_incident::model::{
+    DetectionName, DriftDef, Incident, PatternDef, PoolChoice, RingMode, ScenarioKind,
+    SearchGeometry, Time, VectorDef, VectorSample,
+};
 use seekgrid_prior as prior;
 use seekgrid_search as search;
 
@@ -30,7 +30,7 @@ pub struct PreparedSearch {
     /// Index in the incident's search list.
     pub index: usize,
     /// What the incident says.
-    pub def: crate::model::SearchDef,
+    pub def: seekgrid_incident::model::SearchDef,
     /// Detection law.
     pub law: search::DetectionLaw,
     /// Sweep width with its correction factors.

@@ -1,11 +1,11 @@
 //! Writing the layers of a computed map into an output folder, through seekgrid-render.
 
-use crate::model::Incident;
 use crate::summary::{CAUTION, Summary, summarise};
-use crate::timeline::IncidentMap;
+use crate::{self as render, ColourScale, MapStyle, OutputDir, Overlay, RenderError};
 use geojson::{Feature, FeatureCollection, JsonObject, JsonValue};
 use ndarray::Array2;
-use seekgrid_render::{self as render, ColourScale, MapStyle, OutputDir, Overlay, RenderError};
+use seekgrid_engine::IncidentMap;
+use seekgrid_incident::model::Incident;
 use std::collections::BTreeSet;
 
 /// The outputs that can be chosen with `--outputs`.
@@ -146,7 +146,7 @@ pub fn write(
 ) -> Result<Summary, RenderError> {
     let frame = &m.prepared.frame;
     let grid = &m.grid;
-    let poc = m.poc_cells();
+    let poc = &m.poc;
     let mut summary = summarise(incident, m);
     let mut written = serde_json::Map::new();
     let cell_km2 = grid.cell_area_m2() / 1e6;
@@ -155,7 +155,7 @@ pub fn write(
         let layer = render::CellLayer {
             frame,
             grid,
-            poc: &poc,
+            poc,
             pod_cumulative: m.pod_cumulative.as_ref(),
         };
         let export = render::probability_geojson(
@@ -179,7 +179,7 @@ pub fn write(
         let bytes = render::containment_geojson(
             frame,
             grid,
-            &poc,
+            poc,
             &[0.5, 0.9, 0.95],
             "containment",
             foreign(incident, m),
@@ -229,7 +229,7 @@ pub fn write(
     if selection.has("segments")
         && let Some(segments) = &m.prepared.segments
     {
-        let (csv, geojson) = segment_tables(m, segments, &poc)?;
+        let (csv, geojson) = segment_tables(m, segments, poc)?;
         dir.write("segments.csv", csv.as_bytes())?;
         dir.write("segments.geojson", &geojson)?;
         written.insert(

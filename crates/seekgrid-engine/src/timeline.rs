@@ -1,13 +1,13 @@
 //! The timeline of an incident: the prior at the reference time, drift carried forward, and
 //! every completed search applied in time order as a Bayesian update.
 
-use crate::model::{Incident, Time};
 use crate::prepare::{PrepareError, Prepared, PreparedSearch, prepare};
 use crate::slices;
 use geo::Coord;
 use ndarray::Array2;
 use seekgrid_core::{Belief, CoreError, Frame, GridSpec, Particles, ProjectedBox};
 use seekgrid_drift as drift;
+use seekgrid_incident::model::{Incident, Time};
 use seekgrid_prior as prior;
 use seekgrid_search as search;
 
@@ -88,6 +88,9 @@ pub struct IncidentMap {
     pub drift_runs: Vec<(String, drift::DriftRun)>,
     /// Cumulative POS of the applied searches: 1 - prod(1 - POS_k).
     pub pos_cumulative: f64,
+    /// The probability of containment per cell at `at`: the grid part plus the particles
+    /// spread by the kernel of [`seekgrid_core::particle_density`], computed once.
+    pub poc: Array2<f64>,
 }
 
 /// Why an incident map cannot be computed.
@@ -407,7 +410,9 @@ pub fn map(
     let (x, y, st) = place(at);
     belief.move_particles(x, y, st).map_err(MapError::Belief)?;
 
+    let poc = poc_cells(&belief, &grid, &particle_clouds(&drift_runs));
     Ok(IncidentMap {
+        poc,
         prepared,
         grid,
         grid_auto,
@@ -573,6 +578,26 @@ fn mid_time(s: &PreparedSearch) -> Time {
     s.def.start + (s.def.end - s.def.start) / 2
 }
 
+/// The grid part plus the particles spread by the kernel of [`seekgrid_core::particle_density`].
+fn poc_cells(belief: &Belief, grid: &GridSpec, clouds: &[std::ops::Range<usize>]) -> Array2<f64> {
+    let mut cells = belief.cells().clone();
+    seekgrid_core::particle_density::add_particles(&mut cells, grid, belief.particles(), clouds);
+    cells
+}
+
+/// The index range of each drift run's particles in the belief, in run order.
+fn particle_clouds(drift_runs: &[(String, drift::DriftRun)]) -> Vec<std::ops::Range<usize>> {
+    let mut start = 0;
+    drift_runs
+        .iter()
+        .map(|(_, run)| {
+            let r = start..start + run.len();
+            start = r.end;
+            r
+        })
+        .collect()
+}
+
 /// The name of a detection law as written in the incident file.
 #[must_use]
 pub fn law_name(law: search::DetectionLaw) -> &'static str {
@@ -584,32 +609,10 @@ pub fn law_name(law: search::DetectionLaw) -> &'static str {
 }
 
 impl IncidentMap {
-    /// The probability of containment per cell at `at`: the grid part plus the particles
-    /// spread by the kernel of [`crate::raster`].
-    #[must_use]
-    pub fn poc_cells(&self) -> Array2<f64> {
-        let mut cells = self.belief.cells().clone();
-        crate::raster::add_particles(
-            &mut cells,
-            &self.grid,
-            self.belief.particles(),
-            &self.particle_clouds(),
-        );
-        cells
-    }
-
     /// The index range of each drift scenario's particles in the belief.
     #[must_use]
     pub fn particle_clouds(&self) -> Vec<std::ops::Range<usize>> {
-        let mut start = 0;
-        self.drift_runs
-            .iter()
-            .map(|(_, run)| {
-                let r = start..start + run.len();
-                start = r.end;
-                r
-            })
-            .collect()
+        particle_clouds(&self.drift_runs)
     }
 
     /// Mass of particles outside the grid.

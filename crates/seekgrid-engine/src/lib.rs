@@ -1,0 +1,19 @@
+//! The seekgrid engine: from a validated incident to plain result values.
+//!
+//! * [`prepare::prepare`] projects the incident into the working frame (UTM) as values of the
+//!   prior, drift and search crates.
+//! * [`timeline::map`] computes the belief at a time: prior, drift, and every completed search
+//!   applied in time order as a Bayesian update, returned as an [`IncidentMap`].
+//! * [`planning::plan_at`] plans the next period against the belief at its start.
+//!
+//! The engine knows the incident model (`seekgrid-incident`) and the search theory crates; it
+//! knows no output format (no GeoJSON, no JSON, no pictures) and does no I/O: every file a user
+//! receives is written by `seekgrid-render` from the values returned here.
+
+pub mod planning;
+pub mod prepare;
+pub mod slices;
+pub mod timeline;
+
+pub use planning::{PlanRun, PlanRunError, plan_at};
+pub use timeline::{IncidentMap, MapError, MapOptions, Progress, SearchReport, map};
