@@ -1,5 +1,6 @@
 //! End-to-end tests of the `seekgrid` binary: exit codes, messages, and every output file
-//! validated by the outside tools a GIS user relies on (GDAL, PROJ), as ../shared/GIS.md shows.
+//! validated by the outside tools a GIS user relies on (GDAL, PROJ), as docs/references.md §8.7
+//! describes.
 
 use crate::external::{check_geojson, have, run, stdout};
 use serde_json::Value;
@@ -360,7 +361,7 @@ fn demo_plans_stay_under_their_bound_and_their_files_validate() {
         let plan = s["pos_plan"].as_f64().unwrap();
         let bound = s["pos_optimal_bound"].as_f64().unwrap();
         // The optimal allocation bounds every practical plan of the same effort (Stone 1975;
-        // REFERENCES.md section 4).
+        // docs/references.md §4).
         assert!(
             plan > 0.0 && plan <= bound + 1e-9,
             "{name}: plan {plan} bound {bound}"
@@ -372,7 +373,7 @@ fn demo_plans_stay_under_their_bound_and_their_files_validate() {
             "the briefing carries the caution"
         );
         let gpx = dir.join("plan.gpx");
-        // GPX 1.1 schema (topografix.com), copied into fixtures/schemas as GIS.md advises.
+        // GPX 1.1 schema (topografix.com), kept in fixtures/schemas (docs/references.md §8.2).
         if have("xmllint") {
             let xsd = workspace().join("fixtures/schemas/gpx11.xsd");
             let o = run(
