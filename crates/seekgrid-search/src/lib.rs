@@ -12,7 +12,7 @@
 //! * [`update_after_miss`]: `p_i' = p_i (1 - d_i) / (1 - POS)` over cells, particles and rest
 //!   of world, with an [`UpdateOutcome`].
 //! * [`optimal_allocation`]: Stone's optimal effort for exponential detection, the upper bound
-//!   for any plan.
+//!   for any plan of the same effort under that law.
 //!
 //! This crate knows nothing of files, TOML, GPX or GeoJSON: geometry comes in the working frame
 //! (metres, `geo` types), and it does no I/O.
