@@ -51,6 +51,9 @@
 //! assert!((moved - 3704.0).abs() < 5.0);
 //! ```
 
+// A pure library: it prints nothing (results go back to the caller) and reads no files,
+// environment or clock (this crate's clippy.toml lists the disallowed functions).
+#![deny(clippy::print_stdout, clippy::print_stderr, clippy::dbg_macro)]
 #![deny(missing_docs)]
 
 pub mod environment;

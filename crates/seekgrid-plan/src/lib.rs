@@ -45,6 +45,10 @@
 //! assert!(a.hours_needed <= 2.0 + 1e-9);
 //! ```
 
+// A pure library: it prints nothing (results go back to the caller) and reads no files,
+// environment or clock (this crate's clippy.toml lists the disallowed functions).
+#![deny(clippy::print_stdout, clippy::print_stderr, clippy::dbg_macro)]
+
 mod bound;
 mod error;
 mod geometry;

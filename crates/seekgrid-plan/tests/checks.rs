@@ -2,6 +2,10 @@
 //!
 //! One test binary with a module per topic; the frozen reference values come from
 //! `fixtures/reference/make_plan_fixtures.py` (plan_reference.json).
+#![allow(
+    clippy::disallowed_methods,
+    reason = "reads the SciPy values frozen in fixtures/reference"
+)]
 
 use geo::{Area, BooleanOps, MultiPolygon};
 use ndarray::Array2;

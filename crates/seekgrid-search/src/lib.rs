@@ -45,6 +45,10 @@
 //! assert!((belief.total_mass() - 1.0).abs() < 1e-12);
 //! ```
 
+// A pure library: it prints nothing (results go back to the caller) and reads no files,
+// environment or clock (this crate's clippy.toml lists the disallowed functions).
+#![deny(clippy::print_stdout, clippy::print_stderr, clippy::dbg_macro)]
+
 pub mod allocation;
 mod coverage;
 pub mod error;
