@@ -67,10 +67,10 @@ pub fn run(tool: &str, args: &[&str], stdin: Option<&str>) -> Run {
         .stderr(Stdio::piped())
         .spawn()
         .unwrap_or_else(|e| panic!("cannot start {tool}: {e}"));
-    if let Some(mut input) = child.stdin.take() {
-        if let Some(s) = stdin {
-            input.write_all(s.as_bytes()).expect("write stdin");
-        }
+    if let Some(mut input) = child.stdin.take()
+        && let Some(s) = stdin
+    {
+        input.write_all(s.as_bytes()).expect("write stdin");
     }
     let out = child.wait_with_output().expect("wait for tool");
     Run {
