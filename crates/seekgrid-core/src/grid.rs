@@ -290,8 +290,9 @@ impl GridSpec {
         }
     }
 
-    /// Fractional column and row of a point (col 0.5 = centre of the first column); may lie
-    /// outside `0..cols`, `0..rows`.
+    /// Fractional row and column of a point, returned as `(row, col)` like [`GridSpec::locate`]:
+    /// row counted south from the north edge, column east from the west edge, so that 0.5 is
+    /// the centre of the first row or column. May lie outside `0..rows`, `0..cols`.
     #[must_use]
     pub fn fractional_index(&self, p: Coord<f64>) -> (f64, f64) {
         (
@@ -348,6 +349,21 @@ fn round_up_nice(v: f64) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn fractional_index_is_row_then_column() {
+        // Cells of 100 m, north-west corner (1000, 5000): a point 250 m east and 130 m south
+        // of the corner is at row 1.3, column 2.5, in cell (1, 2).
+        let g = GridSpec::new(1000.0, 5000.0, 100.0, 4, 6, DEFAULT_MAX_CELLS).unwrap();
+        let p = Coord {
+            x: 1250.0,
+            y: 4870.0,
+        };
+        let (r, c) = g.fractional_index(p);
+        assert!((r - 1.3).abs() < 1e-12, "row {r}");
+        assert!((c - 2.5).abs() < 1e-12, "col {c}");
+        assert_eq!(g.locate(p), Some((1, 2)));
+    }
 
     #[test]
     fn covering_snaps_outward_to_cell_multiples() {

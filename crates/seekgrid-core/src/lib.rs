@@ -18,6 +18,10 @@
 //! assert_eq!(belief.rest_of_world(), 1.0);
 //! ```
 
+// A pure library: it prints nothing (results go back to the caller) and reads no files,
+// environment or clock (this crate's clippy.toml lists the disallowed functions).
+#![deny(clippy::print_stdout, clippy::print_stderr, clippy::dbg_macro)]
+
 pub mod belief;
 pub mod error;
 pub mod frame;

@@ -133,7 +133,7 @@ mod tests {
     #[test]
     fn a_single_kernel_matches_the_normal_integral_over_a_cell() {
         // A particle at a cell centre with bandwidth h = s/2 puts the mass of a unit normal on
-        // [-1, 1]^2 into its own cell: erf(1/sqrt 2)^2 = 0.466065 (REFERENCES.md section 2,
+        // [-1, 1]^2 into its own cell: erf(1/sqrt 2)^2 = 0.466065 (docs/references.md §2,
         // "computed"; SciPy's mvn.cdf agrees there). The kernel reaches the cells that meet
         // +-4h, here +-5h once whole cells are taken, and is renormalised over them.
         let g = grid();

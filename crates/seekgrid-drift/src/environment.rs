@@ -1,10 +1,10 @@
 //! Environment estimates: total water current and wind, constant, as a time series or gridded.
 //!
-//! Direction conventions (DESIGN.md, "Invariants"): a current is given by the true bearing it
-//! flows *toward* ([`Convention::Toward`]), a wind by the true bearing it blows *from*
-//! ([`Convention::From`]). Gridded fields carry velocity components `u_kn` (east) and `v_kn`
-//! (north) instead, which always say where the water or air moves toward, as in ocean and weather
-//! model output; the convention does not apply to them.
+//! Direction conventions (docs/architecture.md, "Cross-cutting invariants"): a current is given
+//! by the true bearing it flows *toward* ([`Convention::Toward`]), a wind by the true bearing it
+//! blows *from* ([`Convention::From`]). Gridded fields carry velocity components `u_kn` (east)
+//! and `v_kn` (north) instead, which always say where the water or air moves toward, as in ocean
+//! and weather model output; the convention does not apply to them.
 
 use crate::Time;
 use crate::error::DriftError;

@@ -9,9 +9,9 @@
 //! * [`DriftRun`]: the result, giving a [`ParticleSnapshot`] or a [`Spread`] (mean and
 //!   covariance, containment [`Ellipse`]s) at any time of the run.
 //!
-//! Directions follow DESIGN.md: the current is given by the direction it flows toward, the
-//! wind by the direction it blows from ([`Convention`]). All positions inside are working
-//! frame metres ([`seekgrid_core::Frame`]).
+//! Directions follow docs/architecture.md (cross-cutting invariants): the current is given by
+//! the direction it flows toward, the wind by the direction it blows from ([`Convention`]). All
+//! positions inside are working frame metres ([`seekgrid_core::Frame`]).
 //!
 //! This crate does no I/O: it takes parsed values, reads no clock, prints nothing, and reports
 //! progress only through the callback given to [`simulate()`].
@@ -51,6 +51,9 @@
 //! assert!((moved - 3704.0).abs() < 5.0);
 //! ```
 
+// A pure library: it prints nothing (results go back to the caller) and reads no files,
+// environment or clock (this crate's clippy.toml lists the disallowed functions).
+#![deny(clippy::print_stdout, clippy::print_stderr, clippy::dbg_macro)]
 #![deny(missing_docs)]
 
 pub mod environment;

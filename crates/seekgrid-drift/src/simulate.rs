@@ -42,9 +42,9 @@ pub const MAX_AUTO_HALVINGS: u32 = 9;
 /// The drift problem: where and when the object went adrift, what moved it, and how many
 /// particles to use.
 ///
-/// The two environments follow the conventions of DESIGN.md: `current` is the total water
-/// current given by the direction it flows **toward** ([`Convention::CURRENT`]), `wind` the
-/// 10 m wind given by the direction it blows **from** ([`Convention::WIND`]).
+/// The two environments follow the conventions of docs/architecture.md: `current` is the total
+/// water current given by the direction it flows **toward** ([`Convention::CURRENT`]), `wind`
+/// the 10 m wind given by the direction it blows **from** ([`Convention::WIND`]).
 #[derive(Debug, Clone, PartialEq)]
 pub struct DriftScenario {
     /// Last known position, WGS84 (longitude, latitude), degrees.

@@ -27,7 +27,7 @@ pub struct Ellipse {
 }
 
 /// The Mahalanobis radius k of the ellipse that holds a share `q` of a bivariate normal:
-/// k^2 = -2 ln(1 - q), the chi-square quantile with 2 degrees of freedom (REFERENCES.md §2,
+/// k^2 = -2 ln(1 - q), the chi-square quantile with 2 degrees of freedom (docs/references.md §2,
 /// computed; 50 % -> 1.177410, 90 % -> 2.145966).
 ///
 /// # Errors

@@ -519,7 +519,8 @@ pub fn prepare(incident: &Incident) -> Result<Prepared, PrepareError> {
 }
 
 impl PreparedSearch {
-    /// The box in the frame that this search touches, with a margin of one sweep width.
+    /// The box in the frame that this search touches (its area, or its track), grown by a
+    /// margin of two sweep widths on every side.
     #[must_use]
     pub fn extent(&self) -> Option<ProjectedBox> {
         let margin = self.sweep_width.metres() * 2.0;

@@ -19,42 +19,54 @@ const DRIFT_RECORD_EVERY_S: f64 = 6.0 * 3600.0;
 #[derive(Debug, Clone, Copy)]
 pub struct MapOptions {
     /// The time the map describes: searches ended by then are applied, drift is carried to
-    /// it. `None`: the end of the last logged search, or the reference time.
+    /// it. `None`: the end of the last logged search, or the reference time when that is later
+    /// or no search is logged.
     pub at: Option<Time>,
 }
 
 /// How one completed search changed the belief.
 #[derive(Debug, Clone)]
 pub struct SearchReport {
-    /// Search id.
+    /// Search id, as in the incident file.
     pub id: String,
-    /// Unit.
+    /// Id of the unit that searched.
     pub unit: String,
-    /// Start and end.
+    /// Start of the search.
     pub start: Time,
-    /// End.
+    /// End of the search; searches are applied in order of end time (then start, then id).
     pub end: Time,
-    /// The time the drifting part was placed at for this search.
+    /// The middle of the search, where the drifting particles were placed for its update. A
+    /// long search scored along its track meets them part by part instead, each part at its own
+    /// middle time (see [`crate::slices`]); this field is still the search's middle.
     pub evaluated_at: Time,
-    /// Effective sweep width, metres.
+    /// Sweep width of the unit, metres.
     pub sweep_width_m: f64,
-    /// Detection law name.
+    /// Detection law, as written in the incident file ([`law_name`]).
     pub detection: &'static str,
-    /// Track spacing of the pattern, metres.
+    /// Track spacing of a parallel sweep, creeping line or expanding square, metres; `None`
+    /// for a sector search and for a followed track.
     pub track_spacing_m: Option<f64>,
-    /// Track length, metres.
+    /// Length of the pattern's legs or of the followed track, metres in the working frame.
     pub track_length_m: f64,
-    /// Coverage W L / A of a pattern's area.
+    /// Coverage of a pattern ([`search::Pattern::coverage`]): `W/S` for a parallel sweep,
+    /// creeping line or expanding square, `W·L/A` for a sector search; `None` for a followed
+    /// track.
     pub coverage: Option<f64>,
-    /// POD a pattern's law gives at its coverage.
+    /// POD the search's law gives at that coverage ([`search::DetectionLaw::pod_from_coverage`]);
+    /// `None` for a followed track.
     pub pod_pattern: Option<f64>,
-    /// What the search crate measured.
+    /// The update's outcome. Its POS and masses removed are those of
+    /// [`search::update_after_miss`]; its searched-area figures (`poc_in_area_before`,
+    /// `poc_in_area_after`, `pod_mean_in_area`) are taken over the cells and particles given a
+    /// POD of at least [`SEARCHED_POD_THRESHOLD`], not over every place with a POD above 0.
     pub outcome: search::UpdateOutcome,
-    /// The POS of this search given everything before it (conditional).
+    /// The POS of this search given that every earlier search failed (conditional): `Σ p_i d_i`
+    /// over the belief just before it (the same as `outcome.pos`).
     pub pos: f64,
-    /// Whether its drifting part was placed at times of its own.
+    /// The pattern's search area in the working frame; `None` for a followed track.
     pub area_polygon: Option<geo::Polygon<f64>>,
-    /// The track followed or planned, in the frame.
+    /// The pattern's legs (commence search point first) or the followed track, in the working
+    /// frame.
     pub track: geo::LineString<f64>,
 }
 
@@ -78,7 +90,8 @@ pub struct IncidentMap {
     /// Of the belief's rest of world, the share that was declared by analysts (the rest fell
     /// outside the grid). Both are unsearched, so the share stays constant.
     pub declared_share_of_outside: f64,
-    /// Cumulative POD per cell, `None` before any search.
+    /// Cumulative POD per cell, `1 - Π(1 - d_k)` over the applied searches; `None` when no
+    /// search has been applied.
     pub pod_cumulative: Option<Array2<f64>>,
     /// One report per applied search, in the order applied.
     pub searches: Vec<SearchReport>,
@@ -86,7 +99,8 @@ pub struct IncidentMap {
     pub searches_pending: Vec<String>,
     /// Drift simulations, one per drift scenario.
     pub drift_runs: Vec<(String, drift::DriftRun)>,
-    /// Cumulative POS of the applied searches: 1 - prod(1 - POS_k).
+    /// Cumulative POS of the applied searches, `1 - Π(1 - POS_k)` with each search's
+    /// conditional POS (docs/references.md §3).
     pub pos_cumulative: f64,
     /// The probability of containment per cell at `at`: the grid part plus the particles
     /// spread by the kernel of [`seekgrid_core::particle_density`], computed once.

@@ -77,7 +77,7 @@ fn a_drifting_target_searched_twice_updates_as_computed_by_hand() {
     let m = map(&inc, &MapOptions { at: None }, &|_, _, _| {}).unwrap();
     // By hand: the drifting half of the pool sits inside both rectangles at the searches'
     // middle times. POD of parallel sweeps, inverse cube: erf(sqrt(pi)/2 C) with C = W/S,
-    // C = 1 -> 0.789909 and C = 0.5 -> 0.469116 (REFERENCES.md section 1, found: Eagle, NPS
+    // C = 1 -> 0.789909 and C = 0.5 -> 0.469116 (docs/references.md §1, found: Eagle, NPS
     // OA3602 notes, quoting Washburn 2002). The stationary half is never searched.
     let (d1, d2) = (0.789909, 0.469116);
     let drift = 0.5;

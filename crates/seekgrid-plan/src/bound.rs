@@ -88,9 +88,9 @@ impl Searchable {
 ///
 /// The allocation is [`seekgrid_search::optimal_allocation`] (coverage
 /// `z_i = max(0, ln(d_i / λ))`, Charnes & Cooper 1958; Stone, *Theory of Optimal Search*,
-/// 1975, ch. II — from memory, see REFERENCES §4; for a circular normal target it converges to
-/// `POS* = 1 - (1 + h) e^(-h)`, `h = √(E/(πσ²))`, checked in this crate's tests). The effort is
-/// `E = Σ W x L` with `L` net of `options.turn_allowance` ([`UnitSpec::effort_m2`]).
+/// 1975, ch. II — from memory, see docs/references.md §4; for a circular normal target it
+/// converges to `POS* = 1 - (1 + h) e^(-h)`, `h = √(E/(πσ²))`, checked in this crate's tests).
+/// The effort is `E = Σ W x L` with `L` net of `options.turn_allowance` ([`UnitSpec::effort_m2`]).
 ///
 /// The bound holds for exponential detection. Units with another law can do better than it
 /// (an inverse-cube sweep at coverage 1 gives POD 0.79, not 0.63); with particles, the bound is

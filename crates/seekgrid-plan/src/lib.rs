@@ -4,7 +4,8 @@
 //! * [`UnitSpec`] / [`UnitKind`]: a search unit's speed, hours on scene, sweep width, minimum
 //!   track spacing and detection law.
 //! * [`optimal_bound`] → [`OptimalBound`]: Stone's optimal allocation of the units' total
-//!   effort for exponential detection, the upper bound of every plan's POS.
+//!   effort for exponential detection, the upper bound of the POS of every plan whose units
+//!   have that law (units with another law can pass it: docs/references.md §4).
 //! * [`plan`] → [`Plan`]: one area per unit ([`UnitAssignment`]: pattern, track spacing,
 //!   commence search point, waypoints and [`Leg`]s in grid bearings, POD, POS), the joint POS
 //!   and its efficiency against the bound, with the heuristics used stated in `notes`.
@@ -43,6 +44,10 @@
 //! assert_eq!(a.waypoints[0], a.commence_search_point);
 //! assert!(a.hours_needed <= 2.0 + 1e-9);
 //! ```
+
+// A pure library: it prints nothing (results go back to the caller) and reads no files,
+// environment or clock (this crate's clippy.toml lists the disallowed functions).
+#![deny(clippy::print_stdout, clippy::print_stderr, clippy::dbg_macro)]
 
 mod bound;
 mod error;

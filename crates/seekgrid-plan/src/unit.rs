@@ -63,7 +63,7 @@ impl UnitSpec {
 
     /// Effort (area swept) the unit can give, square metres: `W x L`, for a ground team
     /// `searchers x W x L` (found: Cooper, "Selected Inland Search Theory Definitions": Z = W·L;
-    /// REFERENCES §1), with `L` from [`UnitSpec::track_length_m`].
+    /// docs/references.md §1), with `L` from [`UnitSpec::track_length_m`].
     #[must_use]
     pub fn effort_m2(&self, turn_allowance: f64) -> f64 {
         f64::from(self.searchers()) * self.sweep_width_m * self.track_length_m(turn_allowance)

@@ -2,6 +2,10 @@
 //!
 //! One test binary with a module per topic; the frozen reference values come from
 //! `fixtures/reference/make_plan_fixtures.py` (plan_reference.json).
+#![allow(
+    clippy::disallowed_methods,
+    reason = "reads the SciPy values frozen in fixtures/reference"
+)]
 
 use geo::{Area, BooleanOps, MultiPolygon};
 use ndarray::Array2;
@@ -128,7 +132,7 @@ mod bound {
 
     #[test]
     fn grid_optimum_for_a_circular_normal_converges_to_stones_pos() {
-        // derived (REFERENCES §4; Stone 1975, Koopman 1957): POS* = 1 - (1 + h) e^(-h),
+        // derived (docs/references.md §4; Stone 1975, Koopman 1957): POS* = 1 - (1 + h) e^(-h),
         // h = sqrt(E/(πσ²)); E/(πσ²) = 0.25, 1, 4, 9 -> 0.090204, 0.264241, 0.593994, 0.800852.
         // SciPy radial water-filling agrees (plan_reference.json, computed).
         let sigma = 1000.0;
@@ -151,7 +155,7 @@ mod bound {
             assert!((ob.effort_m2 - effort).abs() < 1e-6 * effort);
             let rel = (ob.pos - published).abs() / published;
             assert!(rel < 0.005, "e={e}: {} vs {published}", ob.pos);
-            // λ = f(0) e^(-h) (derived, REFERENCES §4).
+            // λ = f(0) e^(-h) (derived, docs/references.md §4).
             let lam = fx["stone_circular_normal"][i]["lambda_sigma2"]
                 .as_f64()
                 .unwrap()
@@ -166,8 +170,8 @@ mod bound {
 
     #[test]
     fn discrete_example_matches_scipy() {
-        // computed (REFERENCES §4 Ex 1; brentq in make_plan_fixtures.py): p = (0.6, 0.3, 0.1),
-        // A = 1 each, Z = 2 -> λ = 0.156078, POS = 0.587844.
+        // computed (docs/references.md §4 Ex 1; brentq in make_plan_fixtures.py):
+        // p = (0.6, 0.3, 0.1), A = 1 each, Z = 2 -> λ = 0.156078, POS = 0.587844.
         let fx = &reference()["discrete_ex1"];
         let grid = GridSpec::new(0.0, 1.0, 1.0, 1, 3, DEFAULT_MAX_CELLS).unwrap();
         let cells = Array2::from_shape_vec((1, 3), vec![0.6, 0.3, 0.1]).unwrap();
@@ -216,7 +220,7 @@ mod bound {
 
     #[test]
     fn effort_is_sweep_width_times_track_net_of_turns() {
-        // found: Cooper, C = Z/A with Z = W·L (REFERENCES §1).
+        // found: Cooper, C = Z/A with Z = W·L (docs/references.md §1).
         let mut u = unit("a", 5.0, 2.0, 300.0);
         assert!((u.track_length_m(0.1) - 5.0 * 2.0 * 3600.0 * 0.9).abs() < 1e-9);
         assert!((u.effort_m2(0.1) - 300.0 * 32_400.0).abs() < 1e-6);
@@ -230,7 +234,7 @@ mod practical {
 
     #[test]
     fn one_unit_never_beats_the_bound_and_its_square_is_near_the_best_uniform_disc() {
-        // computed (REFERENCES §4 comparison; plan_reference.json): best uniform disc
+        // computed (docs/references.md §4 comparison; plan_reference.json): best uniform disc
         // e = 1: 0.256979, e = 4: 0.572872; best uniform centred square 0.254169, 0.564872.
         let fx = reference();
         let sigma = 1000.0;
@@ -697,9 +701,9 @@ mod segments {
 
     #[test]
     fn land_coverage_and_pod_match_the_published_example() {
-        // found: Robe & Frost 2002 (REFERENCES §6): W = 30 m, 5 searchers x 4 km,
+        // found: Robe & Frost 2002 (docs/references.md §6): W = 30 m, 5 searchers x 4 km,
         // A = 0.5 km² -> C = 1.2; POD = 1 - e^(-C) = 0.698806 (exponential: found Washburn /
-        // Turner, REFERENCES §1; that Robe & Frost use it: from memory).
+        // Turner, docs/references.md §1; that Robe & Frost use it: from memory).
         let o = no_turns();
         let sp =
             assign_teams_to_segments(&[("A".into(), 0.5, 0.5e6)], &[team("t", 5, 4.0, 30.0)], &o)

@@ -61,6 +61,9 @@
 //! assert!(n_eff > 1.0 && n_eff < 1.0 / (4.0 / 9.0 + 1.0 / 9.0));
 //! ```
 
+// A pure library: it prints nothing (results go back to the caller) and reads no files,
+// environment or clock (this crate's clippy.toml lists the disallowed functions).
+#![deny(clippy::print_stdout, clippy::print_stderr, clippy::dbg_macro)]
 #![deny(missing_docs)]
 
 mod erfc;

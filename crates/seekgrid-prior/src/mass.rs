@@ -129,12 +129,12 @@ pub(crate) fn sparse_mass(shape: &Shape, grid: &GridSpec) -> SparseMass {
 fn finish(mut window: Option<Window>, rest_of_world: f64) -> SparseMass {
     let in_world = 1.0 - rest_of_world;
     let mut sum = window.as_ref().map_or(0.0, Window::sum);
-    if sum > in_world {
-        if let Some(w) = &mut window {
-            let f = in_world / sum;
-            w.cells.mapv_inplace(|v| v * f);
-            sum = w.sum();
-        }
+    if sum > in_world
+        && let Some(w) = &mut window
+    {
+        let f = in_world / sum;
+        w.cells.mapv_inplace(|v| v * f);
+        sum = w.sum();
     }
     SparseMass {
         window,

@@ -350,6 +350,10 @@ mod tests {
     }
 
     #[test]
+    #[allow(
+        clippy::disallowed_methods,
+        reason = "reads the SciPy values frozen in fixtures/reference"
+    )]
     fn pchip_matches_scipy_pchip_interpolator() {
         // computed: scipy.interpolate.PchipInterpolator, frozen by
         // fixtures/reference/make_prior_fixtures.py into prior_pchip.json.

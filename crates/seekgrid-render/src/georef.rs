@@ -33,7 +33,7 @@ impl PixelGeometry {
 }
 
 /// The GDAL PAM sidecar (`F.png.aux.xml`) naming the CRS, which GDAL 3.6 needs because it ignores
-/// a `.prj` beside a PNG (found: GIS.md, checked with gdalsrsinfo).
+/// a `.prj` beside a PNG (found with GDAL 3.6.2 and gdalsrsinfo; docs/references.md §8.4).
 #[must_use]
 pub fn aux_xml(epsg: u32) -> String {
     format!("<PAMDataset><SRS dataAxisToSRSAxisMapping=\"1,2\">EPSG:{epsg}</SRS></PAMDataset>\n")
@@ -66,7 +66,8 @@ mod tests {
     #[test]
     fn world_file_gives_the_centre_of_the_upper_left_pixel() {
         // World-file convention (C, F = centre of the upper-left pixel): found, ESRI world-file
-        // documentation; GIS.md. Corner (1000, 5000), 50 m pixels -> centre (1025, 4975).
+        // documentation; docs/references.md §8.3. Corner (1000, 5000), 50 m pixels -> centre
+        // (1025, 4975).
         let g = PixelGeometry {
             west_m: 1000.0,
             north_m: 5000.0,

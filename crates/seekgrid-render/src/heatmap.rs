@@ -573,11 +573,11 @@ fn legend_entries(overlays: &[Overlay]) -> Vec<&Overlay> {
     let mut seen: Vec<&str> = Vec::new();
     let mut out = Vec::new();
     for o in overlays {
-        if let Some(l) = &o.legend {
-            if !seen.contains(&l.as_str()) {
-                seen.push(l);
-                out.push(o);
-            }
+        if let Some(l) = &o.legend
+            && !seen.contains(&l.as_str())
+        {
+            seen.push(l);
+            out.push(o);
         }
     }
     out
@@ -652,10 +652,10 @@ fn draw_overlays(
                 }
             }
         }
-        if let (Some(l), Some(a)) = (&o.label, anchor) {
-            if inside(a) {
-                cv.text_halo(l, clamp_px(a.0) + 4, clamp_px(a.1) + 4, INK, WHITE);
-            }
+        if let (Some(l), Some(a)) = (&o.label, anchor)
+            && inside(a)
+        {
+            cv.text_halo(l, clamp_px(a.0) + 4, clamp_px(a.1) + 4, INK, WHITE);
         }
     }
 }

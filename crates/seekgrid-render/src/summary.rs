@@ -159,7 +159,8 @@ pub struct Summary {
     /// Plans only: joint POS of the practical plan.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub pos_plan: Option<f64>,
-    /// Plans only: POS of the optimal allocation of the same effort (an upper bound).
+    /// Plans only: POS of the optimal allocation of the same effort under exponential
+    /// detection (an upper bound for exponential-law units only; docs/references.md §4).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub pos_optimal_bound: Option<f64>,
     /// Plans only: the plan per unit.

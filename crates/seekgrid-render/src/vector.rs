@@ -63,10 +63,10 @@ fn ring_lon_lat(frame: &Frame, ring: &LineString<f64>) -> Vec<[f64; 2]> {
         .iter()
         .map(|c| unwrapped_lon_lat(frame, *c))
         .collect();
-    if out.first() != out.last() {
-        if let Some(first) = out.first().copied() {
-            out.push(first);
-        }
+    if out.first() != out.last()
+        && let Some(first) = out.first().copied()
+    {
+        out.push(first);
     }
     out
 }
@@ -279,10 +279,10 @@ fn check_bbox(b: &mut [f64], what: &str) -> Result<(), RenderError> {
 
 fn clean_feature(feature: &mut Feature, index: usize) -> Result<(), RenderError> {
     let what = || format!("feature {index}");
-    if let Some(f) = &feature.foreign_members {
-        if f.contains_key("crs") {
-            return Err(RenderError::ReservedMember { key: "crs".into() });
-        }
+    if let Some(f) = &feature.foreign_members
+        && f.contains_key("crs")
+    {
+        return Err(RenderError::ReservedMember { key: "crs".into() });
     }
     if let Some(b) = &mut feature.bbox {
         check_bbox(b, &what())?;
@@ -293,10 +293,10 @@ fn clean_feature(feature: &mut Feature, index: usize) -> Result<(), RenderError>
     }
     if let Some(g) = &mut feature.geometry {
         clean_geometry(&mut g.value, &what())?;
-        if let Some(f) = &g.foreign_members {
-            if f.contains_key("crs") {
-                return Err(RenderError::ReservedMember { key: "crs".into() });
-            }
+        if let Some(f) = &g.foreign_members
+            && f.contains_key("crs")
+        {
+            return Err(RenderError::ReservedMember { key: "crs".into() });
         }
     }
     Ok(())

@@ -1,6 +1,6 @@
-//! End-to-end checks of the files this crate writes, by the external reference tools GIS.md
-//! names (GDAL 3.6 ogrinfo/gdalinfo/gdalsrsinfo, PROJ 9.1 cs2cs/projinfo). GDAL's readers are
-//! lenient, so each check looks past the exit code (see GIS.md "Parsing is not validating").
+//! End-to-end checks of the files this crate writes, by the external reference tools of
+//! docs/references.md §8.7 (GDAL 3.6 ogrinfo/gdalinfo/gdalsrsinfo, PROJ 9.1 cs2cs/projinfo).
+//! GDAL's readers are lenient, so each check looks past the exit code (same section).
 
 mod support;
 

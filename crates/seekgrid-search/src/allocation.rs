@@ -4,7 +4,7 @@
 //! cell `i`, area `a_i`, effort `E` = sweep width x track length). The optimum is
 //! `z_i = max(0, ln(d_i / λ))` with density `d_i = p_i / a_i` and `λ` such that the effort adds
 //! up (Charnes & Cooper 1958, Mgmt Sci 5:44-50; Stone, *Theory of Optimal Search*, 1975, ch. II:
-//! from memory, see REFERENCES §4; the conditions are checked against SciPy in the tests).
+//! from memory, see docs/references.md §4; the conditions are checked against SciPy in the tests).
 //!
 //! # Root finding
 //! With `t = ln λ` the effort `G(t) = Σ a_i max(0, ln d_i - t)` is convex, decreasing and

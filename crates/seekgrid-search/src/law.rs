@@ -46,7 +46,7 @@ impl DetectionLaw {
     /// definite range `min(1, C)`; inverse cube `erf(√π/2 · C)`; exponential `1 - e^(-C)`.
     ///
     /// Sources: Koopman (1946); Washburn, *Search and Detection*, ch. 2 and §2.4 (see
-    /// REFERENCES §1). A negative or NaN coverage gives 0.
+    /// docs/references.md §1). A negative or NaN coverage gives 0.
     #[must_use]
     pub fn pod_from_coverage(self, coverage: f64) -> f64 {
         if coverage.is_nan() || coverage <= 0.0 {
@@ -64,7 +64,8 @@ impl DetectionLaw {
     /// width.
     ///
     /// * definite range: 1 for `|x| ≤ W/2`, else 0;
-    /// * inverse cube: `1 - exp(-k/x²)` with `W = 2√(πk)` (Koopman; REFERENCES §1 derivation);
+    /// * inverse cube: `1 - exp(-k/x²)` with `W = 2√(πk)` (Koopman; docs/references.md §1,
+    ///   derivation);
     /// * exponential: random search has no single-pass curve of its own (any curve gives
     ///   1 - e^(-C) under random tracks), so seekgrid uses the curve of a Gaussian exposure
     ///   profile of unit peak, `1 - exp(-e^(-x²/(2σ²)))`, with σ set so that the integral is
@@ -209,7 +210,7 @@ impl Kernel {
     pub(crate) fn new(law: DetectionLaw, sweep_width_m: f64) -> Self {
         match law {
             DetectionLaw::InverseCube => {
-                // W = 2 sqrt(pi k)  =>  k = W² / (4 pi)   (REFERENCES §1, computed).
+                // W = 2 sqrt(pi k)  =>  k = W² / (4 pi)   (docs/references.md §1, computed).
                 let k = sweep_width_m * sweep_width_m / (4.0 * std::f64::consts::PI);
                 Self::InverseCube {
                     half_k: 0.5 * k,

@@ -12,7 +12,7 @@
 //! * [`update_after_miss`]: `p_i' = p_i (1 - d_i) / (1 - POS)` over cells, particles and rest
 //!   of world, with an [`UpdateOutcome`].
 //! * [`optimal_allocation`]: Stone's optimal effort for exponential detection, the upper bound
-//!   for any plan.
+//!   for any plan of the same effort under that law.
 //!
 //! This crate knows nothing of files, TOML, GPX or GeoJSON: geometry comes in the working frame
 //! (metres, `geo` types), and it does no I/O.
@@ -44,6 +44,10 @@
 //! assert!((outcome.pos - 0.45 * 0.789909).abs() < 1e-6);
 //! assert!((belief.total_mass() - 1.0).abs() < 1e-12);
 //! ```
+
+// A pure library: it prints nothing (results go back to the caller) and reads no files,
+// environment or clock (this crate's clippy.toml lists the disallowed functions).
+#![deny(clippy::print_stdout, clippy::print_stderr, clippy::dbg_macro)]
 
 pub mod allocation;
 mod coverage;

@@ -146,7 +146,7 @@ impl PodLayer {
 
     /// Folds this search into a cumulative POD array of the grid's shape:
     /// `c = 1 - (1 - c)(1 - d)` (independent searches; cumulative POD = 1 - Π(1 - POD_k),
-    /// found: Patterson 1998, sarinfo.bc.ca MultiResCumPOD; REFERENCES §3).
+    /// found: Patterson 1998, sarinfo.bc.ca MultiResCumPOD; docs/references.md §3).
     ///
     /// # Errors
     /// [`SearchError::GridMismatch`] when the array does not have the grid's shape.

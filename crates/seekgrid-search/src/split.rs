@@ -416,11 +416,11 @@ fn fft_length(n: usize, even: bool) -> usize {
     loop {
         let mut r = m;
         for p in [2, 3, 5] {
-            while r % p == 0 {
+            while r.is_multiple_of(p) {
                 r /= p;
             }
         }
-        if r == 1 && (!even || m % 2 == 0) {
+        if r == 1 && (!even || m.is_multiple_of(2)) {
             return m;
         }
         m += 1;

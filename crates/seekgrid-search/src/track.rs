@@ -704,6 +704,10 @@ mod tests {
     }
 
     #[test]
+    #[allow(
+        clippy::print_stderr,
+        reason = "prints the worst errors per case, shown with --nocapture"
+    )]
     fn split_field_matches_the_exact_sum_over_every_segment() {
         // The slow reference: every segment's closed-form exposure at every cell centre, no
         // culling. Bound: |ΔPOD| ≤ 1e-4 per cell, and, wherever the POD is below 0.9, an

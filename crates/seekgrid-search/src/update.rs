@@ -2,7 +2,7 @@
 //!
 //! `p_i' = p_i (1 - d_i) / (1 - Σ_j p_j d_j)` over cells and particles, rest of world
 //! unsearched (`d = 0`): found: Clark 1995, sarinfo.bc.ca POAderiv.pln, citing *Managing the
-//! Search Operation* (1990); sarbc.org/math.html for POS = Σ POD·POA (REFERENCES §3).
+//! Search Operation* (1990); sarbc.org/math.html for POS = Σ POD·POA (docs/references.md §3).
 
 use crate::error::SearchError;
 use crate::pod_layer::PodLayer;

@@ -39,8 +39,9 @@ pub fn stdout(o: &Output) -> String {
     String::from_utf8_lossy(&o.stdout).into_owned()
 }
 
-/// GIS.md's GeoJSON check: parses with unclosed rings refused, no `ERROR` line, every polygon
-/// valid and counter-clockwise (RFC 7946 §3.1.6) by GDAL's SQLite dialect, no null geometry.
+/// The GeoJSON check of docs/references.md §8.7: parses with unclosed rings refused, no `ERROR`
+/// line, every polygon valid and counter-clockwise (RFC 7946 §3.1.6) by GDAL's SQLite dialect, no
+/// null geometry.
 /// Returns the extent GDAL reports as (west, south, east, north).
 pub fn check_geojson(path: &std::path::Path) -> Option<(f64, f64, f64, f64)> {
     if !have("ogrinfo") {

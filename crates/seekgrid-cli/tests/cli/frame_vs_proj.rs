@@ -53,7 +53,7 @@ fn check_zone(epsg: u32, lat_range: (f64, f64)) {
     let frame = Frame::new(zone);
     for (beyond, tol_m) in [(0.0, 0.001), (3.0, 0.01)] {
         let pts = grid_of_positions(&zone, beyond, lat_range);
-        // EPSG:4326 input is latitude then longitude (GIS.md, the axis-order trap).
+        // EPSG:4326 input is latitude then longitude (docs/references.md §8.6).
         let lines: Vec<String> = pts
             .iter()
             .map(|(lon, lat)| format!("{lat} {lon}"))

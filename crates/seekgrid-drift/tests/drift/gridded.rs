@@ -1,4 +1,8 @@
 //! Gridded fields: trilinear interpolation against SciPy, drift through a varying field.
+#![allow(
+    clippy::disallowed_methods,
+    reason = "reads the SciPy values frozen in fixtures/reference"
+)]
 
 use crate::common::*;
 use approx::assert_abs_diff_eq;

@@ -7,7 +7,7 @@ use seekgrid_drift::*;
 
 #[test]
 fn the_two_leeway_sides_separate_by_twice_the_crosswind_drift() {
-    // REFERENCES.md §5 (concept found: SLSNSW SOP, MSC/Circ.999; geometry computed): two
+    // docs/references.md §5 (concept found: SLSNSW SOP, MSC/Circ.999; geometry computed): two
     // datums at ±30° from downwind, 0.5 kn of leeway, 6 h -> separation 2 |L| t sin 30° =
     // 3.0 NM. Here downwind 0.5 cos 30° and crosswind 0.5 sin 30° = 0.25 kn, wind from 000°.
     let lw = Leeway {

@@ -19,7 +19,7 @@ proptest! {
         cross in 0.0..0.2f64,
         end_h in 0.5..24.0f64,
     ) {
-        // computed: REFERENCES.md §5 vector sum, with the crosswind on either side.
+        // computed: docs/references.md §5 vector sum, with the crosswind on either side.
         let lw = Leeway { downwind_slope: slope, downwind_offset_kn: offset, crosswind_offset_kn: cross, ..Leeway::NONE };
         let mut s = scenario(
             Environment::Constant(exact(cur_kn, cur_toward)),

@@ -7,7 +7,7 @@ use seekgrid_drift::*;
 
 #[test]
 fn containment_factors_are_the_chi_square_two_dof_radii() {
-    // REFERENCES.md §2, computed: radius holding q = sigma sqrt(-2 ln(1 - q)).
+    // docs/references.md §2, computed: radius holding q = sigma sqrt(-2 ln(1 - q)).
     assert_abs_diff_eq!(
         containment_radius_factor(0.5).unwrap(),
         1.177410,
@@ -29,7 +29,7 @@ fn containment_factors_are_the_chi_square_two_dof_radii() {
 
 #[test]
 fn an_isotropic_gaussian_cloud_has_a_50_percent_circle_of_1_177_sigma() {
-    // REFERENCES.md §2, computed: 50 % radius = 1.177410 sigma. Cloud: position error only,
+    // docs/references.md §2, computed: 50 % radius = 1.177410 sigma. Cloud: position error only,
     // sigma 1000 m (times the point scale in the working frame), N = 20 000: the estimated
     // sigma has a standard error of 0.5 %, so 2 % is four of them.
     let mut s = scenario(

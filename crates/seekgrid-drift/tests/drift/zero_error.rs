@@ -7,7 +7,7 @@ use seekgrid_drift::*;
 
 #[test]
 fn drift_with_no_error_is_the_vector_sum_of_current_and_leeway_times_time() {
-    // found: Surf Life Saving NSW SOP LS10.21; JP 3-50 §512-515 (REFERENCES.md §5):
+    // found: Surf Life Saving NSW SOP LS10.21; JP 3-50 §512-515 (docs/references.md §5):
     // TWC 0.8 kn toward 090°, LW 0.5 kn toward 045°, 6 h -> (E 6.9213, N 2.1213) NM,
     // 7.2391 NM toward 072.96°. Leeway: slope 0, offset 0.5 kn, wind from 225° so that
     // downwind is 045°.
@@ -39,7 +39,7 @@ fn drift_with_no_error_is_the_vector_sum_of_current_and_leeway_times_time() {
 
 #[test]
 fn zero_error_drift_matches_the_vector_sum_for_any_current_and_wind() {
-    // computed: the same vector sum as REFERENCES.md §5, for a spread of directions.
+    // computed: the same vector sum as docs/references.md §5, for a spread of directions.
     for (cur_dir, wind_from, cur_kn, wind_kn, slope) in [
         (0.0, 0.0, 0.3, 15.0, 0.04),
         (137.0, 300.0, 1.2, 25.0, 0.02),

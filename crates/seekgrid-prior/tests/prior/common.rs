@@ -1,4 +1,8 @@
 //! Shared helpers: grids, fixtures, and slow reference integrators.
+#![allow(
+    clippy::disallowed_methods,
+    reason = "reads the SciPy values frozen in fixtures/reference"
+)]
 
 use geo::{Coord, LineString, MultiPolygon, Polygon};
 use seekgrid_core::{DEFAULT_MAX_CELLS, GridSpec};

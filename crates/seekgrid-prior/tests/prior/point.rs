@@ -16,8 +16,8 @@ fn point(x: f64, y: f64, smaj: f64, smin: f64, bearing: f64) -> Shape {
 #[test]
 fn rectangle_masses_match_scipy_multivariate_normal_cdf() {
     // computed: scipy.stats.multivariate_normal.cdf with lower_limit (cross-checked by dblquad),
-    // frozen by fixtures/reference/make_prior_fixtures.py; the first four are the REFERENCES.md
-    // §2 rectangles (0.466065, 0.206396, 0.298117, 0.497972; computed).
+    // frozen by fixtures/reference/make_prior_fixtures.py; the first four are the rectangles of
+    // docs/references.md §2 (0.466065, 0.206396, 0.298117, 0.497972; computed).
     let fx = fixture("prior_mvn_rectangles.json");
     let cases = fx["cases"].as_array().unwrap();
     assert!(cases.len() >= 13);
@@ -56,7 +56,7 @@ fn rectangle_masses_match_scipy_multivariate_normal_cdf() {
 
 #[test]
 fn published_rectangle_values_are_reproduced_to_six_places() {
-    // computed (REFERENCES.md §2): σ=1 centred square [−1,1]² = 0.466065; offset square
+    // computed (docs/references.md §2): σ=1 centred square [−1,1]² = 0.466065; offset square
     // [0.5,2.5]×[−1,1] = 0.206396; σx=1, σy=2 rectangle [0,2]×[−1,3] = 0.298117;
     // ρ=0.5 square = 0.497972.
     let cases = [
@@ -97,9 +97,9 @@ fn published_rectangle_values_are_reproduced_to_six_places() {
 
 #[test]
 fn mass_within_the_k_sigma_ellipse_is_one_minus_exp_of_minus_half_k_squared() {
-    // common practice; computed (REFERENCES.md §2): 1 − e^(−k²/2) = 0.393469, 0.864665, 0.988891
-    // for k = 1, 2, 3, for any covariance. Fine cells whose centre lies inside the ellipse are
-    // summed; the boundary error is of the order of a cell strip.
+    // common practice; computed (docs/references.md §2): 1 − e^(−k²/2) = 0.393469, 0.864665,
+    // 0.988891 for k = 1, 2, 3, for any covariance. Fine cells whose centre lies inside the
+    // ellipse are summed; the boundary error is of the order of a cell strip.
     let (smaj, smin, bearing) = (1200.0, 400.0, 28.0);
     let center = c(10_000.0, 10_000.0);
     let cell = 10.0;

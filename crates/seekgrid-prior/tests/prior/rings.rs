@@ -13,7 +13,7 @@ fn rings(interpolation: RingInterpolation, quantiles: Vec<(f64, f64)>) -> Shape 
 
 #[test]
 fn uniform_rings_reproduce_the_published_ring_densities() {
-    // computed (REFERENCES.md §6, method found: Koester 2008): radii 1, 2, 3.5, 7 km with ring
+    // computed (docs/references.md §6, method found: Koester 2008): radii 1, 2, 3.5, 7 km with ring
     // POA 25, 25, 25, 20 % and ROW 5 % -> densities 0.079577, 0.026526, 0.009646, 0.001732
     // per km² (areas 3.1416, 9.4248, 25.9181, 115.4535 km²).
     let q = vec![

@@ -67,10 +67,10 @@ pub fn run(tool: &str, args: &[&str], stdin: Option<&str>) -> Run {
         .stderr(Stdio::piped())
         .spawn()
         .unwrap_or_else(|e| panic!("cannot start {tool}: {e}"));
-    if let Some(mut input) = child.stdin.take() {
-        if let Some(s) = stdin {
-            input.write_all(s.as_bytes()).expect("write stdin");
-        }
+    if let Some(mut input) = child.stdin.take()
+        && let Some(s) = stdin
+    {
+        input.write_all(s.as_bytes()).expect("write stdin");
     }
     let out = child.wait_with_output().expect("wait for tool");
     Run {
@@ -121,10 +121,10 @@ pub fn cs2cs_to_lon_lat(epsg: u32, points: &[(f64, f64)]) -> Vec<(f64, f64)> {
     out
 }
 
-/// The `ogrinfo` checks of GIS.md for a GeoJSON file: it parses with unclosed rings refused and
-/// prints no `ERROR`, has no `crs` member, and every polygon is valid and counter-clockwise
-/// (SQLite dialect, SpatiaLite's ST_IsValid / ST_IsPolygonCCW). Returns (layer name, feature
-/// count, extent [xmin, ymin, xmax, ymax]).
+/// The `ogrinfo` checks of docs/references.md §8.7 for a GeoJSON file: it parses with unclosed
+/// rings refused and prints no `ERROR`, has no `crs` member, and every polygon is valid and
+/// counter-clockwise (SQLite dialect, SpatiaLite's ST_IsValid / ST_IsPolygonCCW). Returns (layer
+/// name, feature count, extent [xmin, ymin, xmax, ymax]).
 pub fn ogr_check_geojson(path: &Path) -> (String, usize, [f64; 4]) {
     let p = path.to_str().expect("utf-8 path");
     let r = run(

@@ -1,4 +1,4 @@
-//! Optimal allocation against REFERENCES §4 and SciPy.
+//! Optimal allocation against docs/references.md §4 and SciPy.
 
 use crate::fixtures::{number, numbers, reference};
 use ndarray::{Array2, array};
@@ -6,7 +6,8 @@ use seekgrid_search::{SearchError, optimal_allocation, optimal_allocation_per_ce
 
 #[test]
 fn three_equal_cells_match_the_computed_example_one() {
-    // computed: REFERENCES §4 Ex 1 (brentq; SLSQP agrees), frozen by make_search_fixtures.py.
+    // computed: docs/references.md §4 Ex 1 (brentq; SLSQP agrees), frozen by
+    // make_search_fixtures.py.
     let r = reference();
     let ex = &r["allocation_ex1"];
     let out = optimal_allocation(&array![[0.6, 0.3, 0.1]], 1.0, 2.0).unwrap();
@@ -27,14 +28,15 @@ fn three_equal_cells_match_the_computed_example_one() {
     for (a, b) in post.iter().zip([0.378687, 0.378687, 0.242627]) {
         assert!((a - b).abs() < 5e-7);
     }
-    // Uniform coverage 2/3 gives only 0.486583 (computed, REFERENCES §4).
+    // Uniform coverage 2/3 gives only 0.486583 (computed, docs/references.md §4).
     let uniform: f64 = p.iter().map(|q| q * (1.0 - (-2.0_f64 / 3.0).exp())).sum();
     assert!((uniform - 0.486583).abs() < 5e-7 && uniform < out.pos);
 }
 
 #[test]
 fn unequal_cells_match_the_computed_example_two() {
-    // computed: REFERENCES §4 Ex 2 (SLSQP agrees to 1e-6); posterior exactly (2/7, 1/7, 4/7).
+    // computed: docs/references.md §4 Ex 2 (SLSQP agrees to 1e-6); posterior exactly
+    // (2/7, 1/7, 4/7).
     let r = reference();
     let ex = &r["allocation_ex2"];
     let out = optimal_allocation_per_cell(&[0.5, 0.3, 0.2], &[4.0, 2.0, 8.0], 12.0).unwrap();
@@ -54,7 +56,7 @@ fn unequal_cells_match_the_computed_example_two() {
 #[test]
 fn posterior_density_is_lambda_over_one_minus_pos_in_searched_cells() {
     // computed; from memory (Stone): after an optimal search the posterior density is
-    // λ/(1-POS) in every searched cell and no more than that elsewhere (REFERENCES §4).
+    // λ/(1-POS) in every searched cell and no more than that elsewhere (docs/references.md §4).
     let masses = [0.22, 0.05, 0.3, 0.01, 0.12, 0.2];
     let areas = [1.0, 3.0, 2.5, 0.5, 1.0, 4.0];
     let out = optimal_allocation_per_cell(&masses, &areas, 3.0).unwrap();

@@ -1,4 +1,8 @@
 //! Reference values frozen by fixtures/reference/make_search_fixtures.py (SciPy).
+#![allow(
+    clippy::disallowed_methods,
+    reason = "reads the SciPy values frozen in fixtures/reference"
+)]
 
 use serde_json::Value;
 

@@ -8,7 +8,7 @@ const COVERAGES: [f64; 6] = [0.25, 0.5, 1.0, 1.5, 2.0, 3.0];
 #[test]
 fn exponential_law_matches_published_table() {
     // found: Washburn, Search and Detection ch. 2 (p = 1 - e^-n), as restated in Turner,
-    // USNA SM230 notes (REFERENCES §1).
+    // USNA SM230 notes (docs/references.md §1).
     let published = [0.221199, 0.393469, 0.632121, 0.776870, 0.864665, 0.950213];
     for (c, p) in COVERAGES.iter().zip(published) {
         assert!((DetectionLaw::Exponential.pod_from_coverage(*c) - p).abs() < 5e-7);
@@ -18,7 +18,7 @@ fn exponential_law_matches_published_table() {
 #[test]
 fn inverse_cube_law_matches_published_table() {
     // found: Eagle, NPS OA3602 notes "Lateral Ranges and Sweepwidth", quoting Washburn 2002
-    // §2.4 (REFERENCES §1).
+    // §2.4 (docs/references.md §1).
     let published = [0.245969, 0.469116, 0.789909, 0.939888, 0.987811, 0.999830];
     for (c, p) in COVERAGES.iter().zip(published) {
         assert!((DetectionLaw::InverseCube.pod_from_coverage(*c) - p).abs() < 5e-7);
@@ -91,7 +91,8 @@ fn exponential_single_pass_curve_matches_scipy_quadrature() {
 
 #[test]
 fn inverse_cube_curve_is_one_minus_exp_of_k_over_x_squared() {
-    // found: Koopman's inverse cube law, l(x) = 1 - exp(-k/x²) with W = 2√(πk) (REFERENCES §1).
+    // Koopman's inverse cube law, l(x) = 1 - exp(-k/x²) (from memory); W = 2√(πk) is computed
+    // (docs/references.md §1, derivation).
     let w = 1000.0;
     let k = w * w / (4.0 * std::f64::consts::PI);
     for x in [10.0, 200.0, 500.0, 3000.0] {

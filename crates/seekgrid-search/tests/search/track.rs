@@ -1,5 +1,5 @@
-//! Track rasterisation against the parallel-track and random-search results of REFERENCES §1,
-//! and against slow references (dense sampling, exact buffer areas).
+//! Track rasterisation against the parallel-track and random-search results of
+//! docs/references.md §1, and against slow references (dense sampling, exact buffer areas).
 
 use crate::fixtures::{number, reference};
 use geo::Coord;
@@ -41,7 +41,7 @@ fn mean(a: &Array2<f64>) -> f64 {
 fn many_parallel_inverse_cube_tracks_reproduce_erf_of_coverage() {
     // found: Eagle, NPS OA3602 / Washburn §2.4: parallel sweeps at spacing S give
     // erf(√π/2 · W/S); computed: the SciPy mean over one spacing of the summed lateral range
-    // exposures (REFERENCES §1 derivation), frozen in the fixture.
+    // exposures (docs/references.md §1 derivation), frozen in the fixture.
     let r = reference();
     let grid = GridSpec::new(0.0, 1000.0, 10.0, 100, 100, DEFAULT_MAX_CELLS).unwrap();
     let spacing = 100.0;
@@ -115,9 +115,9 @@ fn random_lines(law: DetectionLaw, coverage: f64, seed: u64) -> (f64, f64) {
 
 #[test]
 fn random_straight_passes_give_the_random_search_formula_for_every_law() {
-    // found: Washburn ch. 2 / Turner SM230 and REFERENCES §4 (uniform target, random search):
-    // mean POD = 1 - exp(-W L / A) whatever the lateral range curve. Seeded; the spread over
-    // seeds is about 0.3 % (1 σ), the tolerance 1.5 %.
+    // found: Washburn ch. 2 / Turner SM230 and docs/references.md §4 (uniform target, random
+    // search): mean POD = 1 - exp(-W L / A) whatever the lateral range curve. Seeded; the
+    // spread over seeds is about 0.3 % (1 σ), the tolerance 1.5 %.
     for law in [
         DetectionLaw::Exponential,
         DetectionLaw::InverseCube,

@@ -1,4 +1,4 @@
-//! The Bayesian update against the worked examples of REFERENCES §3.
+//! The Bayesian update against the worked examples of docs/references.md §3.
 
 use ndarray::{Array2, array};
 use seekgrid_core::{Belief, DEFAULT_MAX_CELLS, GridSpec, Particles};
@@ -9,7 +9,7 @@ fn row_grid(n: usize) -> GridSpec {
 }
 
 fn three_segments() -> Belief {
-    // REFERENCES §3 example: p = (0.50, 0.30, 0.15, ROW 0.05).
+    // docs/references.md §3 example: p = (0.50, 0.30, 0.15, ROW 0.05).
     Belief::new(
         row_grid(3),
         array![[0.50, 0.30, 0.15]],
@@ -63,7 +63,7 @@ fn second_search_matches_the_computed_example() {
     let mut b = three_segments();
     update_after_miss(&mut b, &layer(array![[0.6, 0.3, 0.0]]), &[]).unwrap();
     let out2 = update_after_miss(&mut b, &layer(array![[0.5, 0.5, 0.5]]), &[]).unwrap();
-    // computed (REFERENCES §3): conditional POS2 0.459016; p'' = (0.303030, 0.318182,
+    // computed (docs/references.md §3): conditional POS2 0.459016; p'' = (0.303030, 0.318182,
     // 0.227273, ROW 0.151515).
     close(out2.pos, 0.459016, 5e-7);
     let c = b.cells();
@@ -77,7 +77,7 @@ fn second_search_matches_the_computed_example() {
 
 #[test]
 fn cumulative_pos_is_the_same_both_ways() {
-    // computed (REFERENCES §3): 1 - Π(1 - POS_k) with conditional POS values equals
+    // computed (docs/references.md §3): 1 - Π(1 - POS_k) with conditional POS values equals
     // Σ p_i [1 - Π_k (1 - d_ik)] with the original priors: 0.67.
     let p = [0.50, 0.30, 0.15, 0.05];
     let d1 = [0.6, 0.3, 0.0, 0.0];
