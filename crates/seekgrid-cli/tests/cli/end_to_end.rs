@@ -7,14 +7,16 @@ use serde_json::Value;
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-fn seekgrid(args: &[&str]) -> std::process::Output {
+/// Runs the `seekgrid` binary built for these tests.
+pub(crate) fn seekgrid(args: &[&str]) -> std::process::Output {
     Command::new(env!("CARGO_BIN_EXE_seekgrid"))
         .args(args)
         .output()
         .expect("the binary runs")
 }
 
-fn workspace() -> PathBuf {
+/// The workspace root.
+pub(crate) fn workspace() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("../..")
         .canonicalize()
