@@ -52,6 +52,14 @@ pub enum CoreError {
         /// North edge, metres.
         north_m: f64,
     },
+    /// Cell area not positive and finite.
+    #[error(
+        "cell area {cell_area_km2} km² is not usable; give the positive area of one cell in km² (cell_m² / 10⁶, e.g. 0.0625 for 250 m cells)"
+    )]
+    BadCellArea {
+        /// The area given, km².
+        cell_area_km2: f64,
+    },
     /// The grid would have more cells than allowed.
     #[error(
         "the grid would have {cells} cells ({rows} rows x {cols} columns), over the limit of {limit}; use cell_m = {suggested_cell_m} or more, give smaller bounds, or raise max_cells"

@@ -5,6 +5,8 @@
 //! * [`belief::Belief`]: the probability distribution of the object's position, as cell
 //!   masses, weighted particles and rest of world, always adding up to 1.
 //! * [`units`]: the conversion factors (nautical miles, knots).
+//! * [`rank::truth_rank`]: the mass and area of the cells denser than the place where the
+//!   object was found.
 //!
 //! This crate does no I/O, keeps no global state and knows nothing of file formats.
 //!
@@ -28,6 +30,7 @@ pub mod frame;
 pub mod grid;
 pub mod mass;
 pub mod particle_density;
+pub mod rank;
 pub mod units;
 
 pub use belief::{Belief, BeliefParts, Particles};
@@ -35,3 +38,4 @@ pub use error::CoreError;
 pub use frame::{Frame, Hemisphere, UtmZone};
 pub use grid::{DEFAULT_MAX_CELLS, GridSpec, ProjectedBox};
 pub use mass::neumaier_sum;
+pub use rank::{TruthRank, truth_rank};

@@ -223,4 +223,73 @@ pub enum PriorError {
         "the logarithmic pool is empty: no cell, outside-grid or rest-of-world bin has positive probability in every analyst's map; use the linear pool, or give each analyst some rest of world"
     )]
     EmptyLogPool,
+    /// A list that the credibility statistics need is empty.
+    #[error("{field} is empty; {fix}")]
+    EmptyCredibilityInput {
+        /// The list (`weights_used`, `bearings_deg`, `track_records`, `incidents`, ...).
+        field: &'static str,
+        /// How to fix it.
+        fix: &'static str,
+    },
+    /// Two lists that must run in step have different lengths.
+    #[error(
+        "{field} has {got} entries but {other_field} has {expected}; give one entry per analyst, in the same order"
+    )]
+    CredibilityLengthMismatch {
+        /// The list whose length is wrong.
+        field: &'static str,
+        /// Its length.
+        got: usize,
+        /// The list it must match.
+        other_field: &'static str,
+        /// That list's length.
+        expected: usize,
+    },
+    /// A number that the credibility statistics cannot use.
+    #[error("{field} entry {position} is {value}; give {expected}")]
+    BadCredibilityValue {
+        /// The list or field (`weights_used`, `density_at_truth`, `bearings_deg`, ...).
+        field: String,
+        /// Position in the list, counting from 1.
+        position: usize,
+        /// The value given.
+        value: f64,
+        /// What is accepted.
+        expected: &'static str,
+    },
+    /// Bayes' rule on analysts has nothing left: no analyst with a positive weight gave the
+    /// truth a positive density.
+    #[error(
+        "no analyst with a positive weight gave the truth a positive density, so Bayes' rule leaves no weight; check the truth position and that density_at_truth is per km², or give each analyst some rest of world"
+    )]
+    TruthOutsideEveryAnalyst,
+    /// Too few bearings for the Rayleigh test.
+    #[error(
+        "the Rayleigh test needs at least 2 bearings in bearings_deg, got {n}; give more bearings"
+    )]
+    TooFewBearings {
+        /// Bearings given.
+        n: usize,
+    },
+    /// The shrinkage constant is negative or not finite.
+    #[error(
+        "shrinkage_incidents is {value}; give a finite number of incidents, 0 or more, such as 3"
+    )]
+    BadShrinkage {
+        /// The value given.
+        value: f64,
+    },
+    /// Every analyst with a track record gave the truth zero density at least once.
+    #[error(
+        "every analyst in track_records with incidents has a log score of -inf (gave the truth zero density at least once), so their records cannot be weighed against each other; check those incidents' truth positions and density units, or give the analysts some rest of world in future"
+    )]
+    EveryRecordZero,
+    /// An incident without analysts' scores.
+    #[error(
+        "incident {incident} has no analyst log scores; give each incident at least one analyst's log score"
+    )]
+    IncidentWithoutAnalysts {
+        /// Position of the incident, counting from 1.
+        incident: usize,
+    },
 }

@@ -11,6 +11,8 @@
 //!   [`Prior`] with its [`Diagnostics`]: each analyst's Jensen-Shannon divergence from the
 //!   pool, leave-one-out shifts, and the effective number of independent opinions.
 //! * [`auto_extent`]: a box for the grid before it exists; [`segment_table`]: POA per segment.
+//! * [`credibility`]: scoring analysts against the outcome of an incident (log score, Bayes'
+//!   rule on analysts, Rayleigh test of bearings) and weights suggested by a track record.
 //!
 //! Everything is in the working frame: metres, grid bearings. The crate does no I/O and knows
 //! nothing of files or formats; mass is conserved:
@@ -66,6 +68,7 @@
 #![deny(clippy::print_stdout, clippy::print_stderr, clippy::dbg_macro)]
 #![deny(missing_docs)]
 
+pub mod credibility;
 mod erfc;
 mod error;
 mod mass;

@@ -2,6 +2,7 @@
 
 mod common;
 mod conservation;
+mod credibility;
 mod errors;
 mod point;
 mod polygons;
