@@ -5,7 +5,7 @@
 
 use crate::{Failure, map_incident, plan_incident};
 use seekgrid_render::OutputDir;
-use seekgrid_render::outputs::OutputSelection;
+use seekgrid_render::layers::OutputSelection;
 use std::path::Path;
 
 /// One bundled file: its path inside the demo's input folder and its contents.
@@ -98,7 +98,13 @@ pub(crate) fn run(out: &Path, force: bool) -> Result<(), Failure> {
         write_inputs(&input, files, force)?;
         let incident = seekgrid_incident::load(&input.join("incident.toml"))?;
         let map_dir = out.join(name).join("map");
-        let summary = map_incident(&incident, &map_dir, None, &OutputSelection::all(), force)?;
+        let summary = map_incident(
+            &incident,
+            &map_dir,
+            None,
+            &OutputSelection::map_default(),
+            force,
+        )?;
         eprintln!(
             "{name}: {} -> {} (POC in grid {:.4}, {} search(es), cumulative POS {:.4})",
             incident.title,
@@ -111,7 +117,13 @@ pub(crate) fn run(out: &Path, force: bool) -> Result<(), Failure> {
             .map(|d| d.with_timezone(&chrono::Utc))
             .map_err(|e| Failure::failed(e.to_string()))?;
         let plan_dir = out.join(name).join("plan");
-        let plan = plan_incident(&incident, &plan_dir, start, force)?;
+        let plan = plan_incident(
+            &incident,
+            &plan_dir,
+            start,
+            &OutputSelection::plan_default(),
+            force,
+        )?;
         eprintln!(
             "{name}: plan from {plan_start} -> {} (plan POS {:.4}, best possible {:.4})",
             plan_dir.display(),

@@ -14,6 +14,10 @@
 //!   arrow, title and caution line, with world file, `.aux.xml` and `.prj` so GIS viewers place it.
 //! * [`geojson_bytes`], [`polygon_to_geojson`], [`line_to_geojson`], [`point_to_geojson`]: the
 //!   shared GeoJSON writer and working-frame-to-lon/lat helpers for other layers.
+//! * [`layers`]: the registry of a run's output layers ([`layers::Layer`]: `--outputs` name,
+//!   files, description, one writer each), which writes a computed map or plan and lists every
+//!   file written in the summary ([`summary`]); the writers live in [`outputs`] (the map's
+//!   layers) and [`plan_outputs`] (the plan's).
 //!
 //! ```
 //! use ndarray::Array2;
@@ -47,6 +51,7 @@ pub mod error;
 pub mod georef;
 pub mod gpx;
 mod heatmap;
+pub mod layers;
 pub mod output;
 pub mod outputs;
 pub mod plan_outputs;
@@ -59,8 +64,8 @@ pub use error::RenderError;
 pub use georef::{PixelGeometry, aux_xml, utm_wkt1_esri};
 pub use heatmap::{
     ColourScale, GeoreferencedPng, MapStyle, Overlay, Rgb, heatmap_png, pixels_per_cell,
-    write_png_set,
+    png_set_names, write_png_set,
 };
 pub use output::OutputDir;
-pub use probability::{CellLayer, ProbabilityExport, probability_geojson};
+pub use probability::{CellLayer, CellLimit, ProbabilityExport, probability_geojson};
 pub use vector::{geojson_bytes, line_to_geojson, point_to_geojson, polygon_to_geojson};
