@@ -223,9 +223,9 @@ impl Validator<'_> {
                 None
             }
         });
-        let coastline = h.coastline.as_ref().and_then(|c| {
-            let file = self.resolve(c);
-            match geofiles::read_polygons(&file) {
+        let coastline_file = h.coastline.as_ref().map(|c| self.resolve(c));
+        let coastline = coastline_file.as_ref().and_then(|file| {
+            match geofiles::read_polygons(file) {
                 Ok(mp) => Some(mp),
                 Err(e) => {
                     self.file_err(e);
@@ -282,6 +282,7 @@ impl Validator<'_> {
             crs,
             notes: h.notes.clone(),
             coastline,
+            coastline_file,
             object_afloat,
             grid: GridSettings {
                 cell_m: g.cell_m,
