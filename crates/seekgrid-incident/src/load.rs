@@ -224,8 +224,9 @@ impl Validator<'_> {
             }
         });
         let coastline_file = h.coastline.as_ref().map(|c| self.resolve(c));
-        let coastline = coastline_file.as_ref().and_then(|file| {
-            match geofiles::read_polygons(file) {
+        let coastline = h.coastline.as_ref().and_then(|c| {
+            let file = self.resolve(c);
+            match geofiles::read_polygons(&file) {
                 Ok(mp) => Some(mp),
                 Err(e) => {
                     self.file_err(e);

@@ -69,7 +69,9 @@ impl Incident {
                         }
                     }
                 }
-                ScenarioKind::Point { .. } | ScenarioKind::Route { .. } | ScenarioKind::Rings { .. } => {}
+                ScenarioKind::Point { .. }
+                | ScenarioKind::Route { .. }
+                | ScenarioKind::Rings { .. } => {}
             }
         }
         for s in &self.searches {

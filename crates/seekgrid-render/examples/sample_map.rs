@@ -5,8 +5,8 @@ use geo::{Coord, LineString, Polygon};
 use ndarray::Array2;
 use seekgrid_core::{DEFAULT_MAX_CELLS, Frame, GridSpec, UtmZone};
 use seekgrid_render::{
-    CellLayer, ColourScale, MapStyle, OutputDir, OutputOptions, Overlay, containment_geojson, heatmap_png,
-    probability_geojson, write_png_set,
+    CellLayer, ColourScale, MapStyle, OutputDir, OutputOptions, Overlay, containment_geojson,
+    heatmap_png, probability_geojson, write_png_set,
 };
 
 fn main() -> Result<(), Box<dyn std::error::Error>> {

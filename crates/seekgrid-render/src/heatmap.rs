@@ -978,9 +978,15 @@ mod tests {
     #[test]
     fn the_run_id_is_read_back_from_a_text_chunk_and_the_picture_is_unchanged() {
         let frame = Frame::new(seekgrid_core::UtmZone::from_epsg(32620).unwrap());
-        let grid =
-            GridSpec::new(480_000.0, 4_900_000.0, 250.0, 4, 6, seekgrid_core::DEFAULT_MAX_CELLS)
-                .unwrap();
+        let grid = GridSpec::new(
+            480_000.0,
+            4_900_000.0,
+            250.0,
+            4,
+            6,
+            seekgrid_core::DEFAULT_MAX_CELLS,
+        )
+        .unwrap();
         let v = Array2::from_elem((4, 6), 0.5);
         let style = MapStyle {
             title: "t",

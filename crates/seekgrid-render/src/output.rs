@@ -335,7 +335,8 @@ impl Drop for OutputDir {
 #[derive(Debug)]
 struct Lock {
     path: PathBuf,
-    file: File,
+    /// Held open for the lock; closed on drop, which releases it.
+    _file: File,
 }
 
 impl Lock {
@@ -352,9 +353,9 @@ impl Lock {
                 .truncate(false)
                 .open(path)
                 .map_err(io("open the lock file", path))?;
-            match file.try_lock() {
-                Ok(()) => {}
-                Err(std::fs::TryLockError::WouldBlock) => {
+            match try_lock(&file) {
+                Ok(true) => {}
+                Ok(false) => {
                     let mut holder = String::new();
                     let _ = file.read_to_string(&mut holder);
                     let holder = holder.trim();
@@ -368,7 +369,7 @@ impl Lock {
                         },
                     });
                 }
-                Err(std::fs::TryLockError::Error(e)) => return Err(io("lock", path)(e)),
+                Err(e) => return Err(io("lock", path)(e)),
             }
             if !same_file(&file, path) {
                 continue;
@@ -378,7 +379,7 @@ impl Lock {
                 .map_err(io("write", path))?;
             return Ok(Self {
                 path: path.to_owned(),
-                file,
+                _file: file,
             });
         }
         Err(RenderError::OutputLocked {
@@ -392,9 +393,33 @@ impl Lock {
 impl Drop for Lock {
     fn drop(&mut self) {
         // Only where `same_file` can tell a removed lock file from the one in place.
+        // Closing the file (as `_file` drops, after this) releases the lock.
         #[cfg(unix)]
         let _ = std::fs::remove_file(&self.path);
-        let _ = self.file.unlock();
+    }
+}
+
+/// Takes an exclusive lock on `file` without waiting: `Ok(false)` when another process holds
+/// one. flock(2) through rustix: std's `File::try_lock` needs Rust 1.89, above the workspace's
+/// `rust-version`. The kernel releases the lock when its holder exits, killed or not.
+#[cfg(unix)]
+fn try_lock(file: &File) -> std::io::Result<bool> {
+    use rustix::fs::{FlockOperation, flock};
+    match flock(file, FlockOperation::NonBlockingLockExclusive) {
+        Ok(()) => Ok(true),
+        Err(e) if e == rustix::io::Errno::WOULDBLOCK => Ok(false),
+        Err(e) => Err(e.into()),
+    }
+}
+
+/// Takes an exclusive lock on `file` without waiting: `Ok(false)` when another process holds
+/// one. Where flock(2) is missing, std's `File::try_lock` (Rust 1.89 or newer there).
+#[cfg(not(unix))]
+fn try_lock(file: &File) -> std::io::Result<bool> {
+    match file.try_lock() {
+        Ok(()) => Ok(true),
+        Err(std::fs::TryLockError::WouldBlock) => Ok(false),
+        Err(std::fs::TryLockError::Error(e)) => Err(e),
     }
 }
 
@@ -569,7 +594,10 @@ mod tests {
         assert_eq!(dir.run_id(), "run-1");
         let p = dir.write("x.txt", b"hello").unwrap();
         assert_eq!(std::fs::read(&p).unwrap(), b"hello");
-        assert!(!out.exists(), "nothing at the destination before the commit");
+        assert!(
+            !out.exists(),
+            "nothing at the destination before the commit"
+        );
         assert_eq!(
             names(&tmp.path().join("a")),
             [".b.lock", ".b.staging-run-1"]
@@ -714,7 +742,7 @@ mod tests {
         }
         drop(first);
         let second = Lock::acquire(&lock_path, &folder, "b").unwrap();
-        assert!(same_file(&second.file, &lock_path));
+        assert!(same_file(&second._file, &lock_path));
         assert_eq!(std::fs::read_to_string(&lock_path).unwrap(), "b");
         drop(second);
         assert!(!lock_path.exists(), "the lock file is removed on release");
@@ -742,7 +770,10 @@ mod tests {
         assert_eq!(
             dir.removed_leftovers(),
             [
-                tmp.path().canonicalize().unwrap().join(".out.old-20260101T000000Z-17"),
+                tmp.path()
+                    .canonicalize()
+                    .unwrap()
+                    .join(".out.old-20260101T000000Z-17"),
                 tmp.path()
                     .canonicalize()
                     .unwrap()

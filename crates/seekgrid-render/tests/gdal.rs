@@ -7,8 +7,8 @@ mod support;
 use ndarray::Array2;
 use seekgrid_core::{DEFAULT_MAX_CELLS, Frame, GridSpec, UtmZone};
 use seekgrid_render::{
-    CellLayer, ColourScale, MapStyle, OutputDir, OutputOptions, Overlay, containment_geojson, heatmap_png,
-    probability_geojson, utm_wkt1_esri, write_png_set,
+    CellLayer, ColourScale, MapStyle, OutputDir, OutputOptions, Overlay, containment_geojson,
+    heatmap_png, probability_geojson, utm_wkt1_esri, write_png_set,
 };
 use support::{cs2cs_to_lon_lat, have_tools, ogr_check_geojson, run};
 

@@ -4,3 +4,4 @@
 mod end_to_end;
 mod external;
 mod frame_vs_proj;
+mod output_folder;
