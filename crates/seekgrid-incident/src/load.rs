@@ -143,6 +143,7 @@ struct Header {
     reference_time: Option<Time>,
     crs: Option<UtmZone>,
     coastline: Option<geo::MultiPolygon<f64>>,
+    coastline_file: Option<PathBuf>,
 }
 
 impl Validator<'_> {
@@ -299,6 +300,7 @@ impl Validator<'_> {
             crs: header.crs,
             notes: raw.incident.notes.clone(),
             coastline: header.coastline,
+            coastline_file: header.coastline_file,
             object_afloat: raw.incident.object_afloat,
             grid,
             pool,
@@ -326,6 +328,7 @@ impl Validator<'_> {
                 None
             }
         });
+        let coastline_file = h.coastline.as_ref().map(|c| self.resolve(c));
         let coastline = h.coastline.as_ref().and_then(|c| {
             let file = self.resolve(c);
             geofiles::read_polygons(&file)
@@ -340,6 +343,7 @@ impl Validator<'_> {
             reference_time,
             crs,
             coastline,
+            coastline_file,
         }
     }
 
