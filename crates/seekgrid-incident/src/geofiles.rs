@@ -43,18 +43,58 @@ fn check_lon_lat(file: &Path, what: &str, c: Coord<f64>) -> Result<(), IncidentE
     }
 }
 
-fn geometry_polygons(
+/// Every position of a geometry, nested collections included.
+fn positions(g: &geojson::GeometryValue) -> Box<dyn Iterator<Item = &geojson::Position> + '_> {
+    use geojson::GeometryValue as V;
+    match g {
+        V::Point { coordinates } => Box::new(std::iter::once(coordinates)),
+        V::MultiPoint { coordinates } | V::LineString { coordinates } => {
+            Box::new(coordinates.iter())
+        }
+        V::MultiLineString { coordinates } | V::Polygon { coordinates } => {
+            Box::new(coordinates.iter().flatten())
+        }
+        V::MultiPolygon { coordinates } => Box::new(coordinates.iter().flatten().flatten()),
+        V::GeometryCollection { geometries } => {
+            Box::new(geometries.iter().flat_map(|g| positions(&g.value)))
+        }
+    }
+}
+
+/// Converts a GeoJSON geometry to a `geo` geometry. Positions with fewer than two numbers
+/// are refused first: the conversion of the geojson crate indexes `[0]` and `[1]` without a
+/// check and would panic (its issue 224).
+fn to_geo(
     file: &Path,
     what: &str,
-    g: &geojson::Geometry,
-) -> Result<MultiPolygon<f64>, IncidentError> {
-    let geom: geo::Geometry<f64> = g.clone().try_into().map_err(|e| {
+    g: geojson::Geometry,
+) -> Result<geo::Geometry<f64>, IncidentError> {
+    if let Some(p) = positions(&g.value).find(|p| p.len() < 2) {
+        return Err(IncidentError::whole_file(
+            ErrorKind::Invalid,
+            file,
+            format!(
+                "{what} has a position of {} number(s), {:?}; a GeoJSON position is [lon, lat] (RFC 7946 section 3.1.1)",
+                p.len(),
+                p.as_slice()
+            ),
+        ));
+    }
+    g.try_into().map_err(|e| {
         IncidentError::whole_file(
             ErrorKind::Syntax,
             file,
             format!("{what}: unreadable geometry: {e}"),
         )
-    })?;
+    })
+}
+
+fn geometry_polygons(
+    file: &Path,
+    what: &str,
+    g: &geojson::Geometry,
+) -> Result<MultiPolygon<f64>, IncidentError> {
+    let geom = to_geo(file, what, g.clone())?;
     let mp = match geom {
         geo::Geometry::Polygon(p) => MultiPolygon(vec![p]),
         geo::Geometry::MultiPolygon(mp) => mp,
@@ -240,15 +280,12 @@ pub fn read_track(file: &Path) -> Result<(LineString<f64>, Vec<Option<Time>>), I
     } else {
         let text = read_text(file, InputKind::Track)?;
         let mut pts = Vec::new();
-        for f in features(file, parse_geojson(file, &text)?)? {
-            let geom: Option<geo::Geometry<f64>> =
-                f.geometry.map(|g| g.try_into()).transpose().map_err(|e| {
-                    IncidentError::whole_file(
-                        ErrorKind::Syntax,
-                        file,
-                        format!("unreadable geometry: {e}"),
-                    )
-                })?;
+        for (i, f) in features(file, parse_geojson(file, &text)?)?
+            .into_iter()
+            .enumerate()
+        {
+            let what = format!("feature {i}");
+            let geom = f.geometry.map(|g| to_geo(file, &what, g)).transpose()?;
             match geom {
                 Some(geo::Geometry::LineString(ls)) => pts.extend(ls.0),
                 Some(geo::Geometry::MultiLineString(mls)) => {
