@@ -1,6 +1,7 @@
 //! Reading the files an incident refers to: GeoJSON polygons and segments, GPX or GeoJSON
 //! tracks, and CSV series of current and wind. Each error names the file and, where the
-//! format allows, the line and column.
+//! format allows, the line and column. Every file is read through [`crate::input`] (regular
+//! files only, at most 256 MiB, UTF-8 with an optional byte-order mark).
 
 use crate::error::{ErrorKind, IncidentError};
 use crate::input::{InputKind, check_utf8, read_bytes, read_text};
