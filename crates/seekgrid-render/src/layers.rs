@@ -13,7 +13,7 @@
 //! Writers write only through the [`Recorder`], which records each file it writes (sidecars
 //! included) for `summary.json` and refuses a file name the layer does not declare.
 
-use crate::heatmap::{GeoreferencedPng, png_set_names};
+use crate::heatmap::{GeoreferencedPng, png_set_names, tagged_png};
 use crate::summary::{FileDetails, FileRecord, Summary};
 use crate::{OutputDir, RenderError, outputs, plan_outputs, summary};
 use seekgrid_engine::{IncidentMap, PlanRun};
@@ -359,8 +359,9 @@ impl<'d> Recorder<'d> {
         self.write_record(layer, name, bytes, details, None)
     }
 
-    /// Writes a georeferenced picture: the layer's main file (`stem.png`) and its three sidecars,
-    /// each recorded (the sidecars with the picture they belong to).
+    /// Writes a georeferenced picture: the layer's main file (`stem.png`, carrying the run id in
+    /// a `tEXt` chunk) and its three sidecars, each recorded (the sidecars with the picture they
+    /// belong to).
     ///
     /// # Errors
     /// As [`Recorder::write`].
@@ -377,7 +378,8 @@ impl<'d> Recorder<'d> {
         let details = FileDetails::Picture {
             pixels_per_cell: png.pixels_per_cell,
         };
-        self.write_record(layer, &png_name, &png.png, Some(details), None)?;
+        let tagged = tagged_png(png, self.dir.run_id())?;
+        self.write_record(layer, &png_name, &tagged, Some(details), None)?;
         for (name, text) in [
             (world, &png.world_file),
             (aux, &png.aux_xml),
@@ -405,6 +407,12 @@ impl<'d> Recorder<'d> {
         let bytes = content(self)?;
         self.dir.write(name, &bytes)?;
         Ok(())
+    }
+
+    /// The run id every file carries ([`OutputDir::run_id`]).
+    #[must_use]
+    pub fn run_id(&self) -> &str {
+        self.dir.run_id()
     }
 
     /// Records that a chosen layer wrote nothing, and why.
@@ -563,6 +571,25 @@ mod tests {
         (incident, run)
     }
 
+    /// Writes `chosen` layers of `c` into a new folder `out` under `tmp` and puts it in place;
+    /// returns the summary and the folder.
+    fn write_into(
+        tmp: &tempfile::TempDir,
+        c: &Computed,
+        chosen: &OutputSelection,
+    ) -> (Summary, std::path::PathBuf) {
+        let out = tmp.path().join("out");
+        let options = crate::OutputOptions {
+            run_id: "test-run",
+            force: false,
+            inputs: &[],
+        };
+        let dir = OutputDir::create(&out, &options).unwrap();
+        let summary = write(c, &dir, chosen).unwrap();
+        dir.commit().unwrap();
+        (summary, out)
+    }
+
     fn folder_listing(dir: &std::path::Path) -> BTreeSet<String> {
         std::fs::read_dir(dir)
             .unwrap()
@@ -574,10 +601,9 @@ mod tests {
     fn the_summary_lists_exactly_the_files_written_each_by_the_layer_that_declares_it() {
         let (incident, run) = tiny_plan();
         let tmp = tempfile::tempdir().unwrap();
-        let dir = OutputDir::create(tmp.path(), false).unwrap();
         let all = OutputSelection::of(Layer::ALL);
-        let summary = write(&Computed::plan(&incident, &run), &dir, &all).unwrap();
-        let on_disk = folder_listing(tmp.path());
+        let (summary, out) = write_into(&tmp, &Computed::plan(&incident, &run), &all);
+        let on_disk = folder_listing(&out);
         let listed: BTreeSet<String> = summary.outputs.keys().cloned().collect();
         assert_eq!(listed, on_disk);
         // Every layer had something to write, so every declared file is there.
@@ -597,10 +623,12 @@ mod tests {
             );
         }
         // The file on disk says the same as the summary returned.
-        let text = std::fs::read_to_string(tmp.path().join("summary.json")).unwrap();
+        let text = std::fs::read_to_string(out.join("summary.json")).unwrap();
         let v: serde_json::Value = serde_json::from_str(&text).unwrap();
         let in_file: BTreeSet<String> = v["outputs"].as_object().unwrap().keys().cloned().collect();
         assert_eq!(in_file, on_disk);
+        assert_eq!(v["run_id"], "test-run");
+        assert_eq!(summary.run_id.as_deref(), Some("test-run"));
         assert_eq!(v["outputs"]["plan.gpx"]["layer"], "routes");
         assert_eq!(v["outputs"]["pod.prj"]["sidecar_of"], "pod.png");
     }
@@ -609,10 +637,9 @@ mod tests {
     fn the_briefing_states_the_summary_numbers_and_what_each_covers() {
         let (incident, run) = tiny_plan();
         let tmp = tempfile::tempdir().unwrap();
-        let dir = OutputDir::create(tmp.path(), false).unwrap();
         let chosen = OutputSelection::of(&[Layer::Summary, Layer::Briefing]);
-        let summary = write(&Computed::plan(&incident, &run), &dir, &chosen).unwrap();
-        let md = std::fs::read_to_string(tmp.path().join("plan.md")).unwrap();
+        let (summary, out) = write_into(&tmp, &Computed::plan(&incident, &run), &chosen);
+        let md = std::fs::read_to_string(out.join("plan.md")).unwrap();
         let (pos, bound) = (
             summary.pos_plan.unwrap(),
             summary.pos_optimal_bound.unwrap(),
@@ -656,11 +683,10 @@ mod tests {
     fn a_map_run_lists_what_it_wrote_and_why_the_plan_layers_are_missing() {
         let (incident, run) = tiny_plan();
         let tmp = tempfile::tempdir().unwrap();
-        let dir = OutputDir::create(tmp.path(), false).unwrap();
         let chosen = OutputSelection::of(&[Layer::Summary, Layer::Segments, Layer::Briefing]);
-        let summary = write(&Computed::map(&incident, &run.map), &dir, &chosen).unwrap();
+        let (summary, out) = write_into(&tmp, &Computed::map(&incident, &run.map), &chosen);
         let listed: BTreeSet<String> = summary.outputs.keys().cloned().collect();
-        assert_eq!(listed, folder_listing(tmp.path()));
+        assert_eq!(listed, folder_listing(&out));
         assert_eq!(
             listed,
             ["segments.csv", "segments.geojson", "summary.json"]

@@ -24,8 +24,9 @@ pub const TOP_SHARE: f64 = 0.999;
 /// The levels of `containment.geojson`.
 const CONTAINMENT_LEVELS: [f64; 3] = [0.5, 0.9, 0.95];
 
-fn foreign(incident: &Incident, m: &IncidentMap) -> JsonObject {
+fn foreign(incident: &Incident, m: &IncidentMap, run_id: &str) -> JsonObject {
     let mut f = JsonObject::new();
+    f.insert("run_id".into(), run_id.into());
     f.insert("title".into(), incident.title.clone().into());
     f.insert("time".into(), m.at.to_rfc3339().into());
     f.insert("caution".into(), CAUTION.into());
@@ -92,7 +93,7 @@ pub(crate) fn probability(c: &Computed, out: &mut Recorder) -> Result<(), Render
         poc: &m.poc,
         pod_cumulative: m.pod_cumulative.as_ref(),
     };
-    let mut members = foreign(c.incident, m);
+    let mut members = foreign(c.incident, m, out.run_id());
     members.insert(
         "full_grid".into(),
         "every cell of the grid is drawn in the heatmap layer (heatmap.png); no file holds every cell's value yet".into(),
@@ -126,7 +127,7 @@ pub(crate) fn containment(c: &Computed, out: &mut Recorder) -> Result<(), Render
         &m.poc,
         &CONTAINMENT_LEVELS,
         "containment",
-        foreign(c.incident, m),
+        foreign(c.incident, m, out.run_id()),
     )?;
     let details = FileDetails::Containment {
         levels: CONTAINMENT_LEVELS.to_vec(),
@@ -195,13 +196,9 @@ pub(crate) fn segments(c: &Computed, out: &mut Recorder) -> Result<(), RenderErr
             segments: segments.len(),
         })
     };
+    let geojson = segments_geojson(m, segments, &rows, out.run_id())?;
     out.write(l, l.files()[0], &segments_csv(&rows)?, details())?;
-    out.write(
-        l,
-        l.files()[1],
-        &segments_geojson(m, segments, &rows)?,
-        details(),
-    )
+    out.write(l, l.files()[1], &geojson, details())
 }
 
 /// The searches layer's writer: `searches.geojson`, when searches were applied.
@@ -218,7 +215,7 @@ pub(crate) fn searches(c: &Computed, out: &mut Recorder) -> Result<(), RenderErr
     out.write(
         l,
         l.files()[0],
-        &searches_geojson(c.incident, m)?,
+        &searches_geojson(c.incident, m, out.run_id())?,
         Some(details),
     )
 }
@@ -235,7 +232,12 @@ pub(crate) fn particles(c: &Computed, out: &mut Recorder) -> Result<(), RenderEr
         weight: "mass of the particles each point stands for",
     };
     let l = Layer::Particles;
-    out.write(l, l.files()[0], &particles_geojson(m)?, Some(details))
+    out.write(
+        l,
+        l.files()[0],
+        &particles_geojson(m, out.run_id())?,
+        Some(details),
+    )
 }
 
 /// The drift layer's writer: `drift.geojson`, when a scenario drifts.
@@ -251,7 +253,12 @@ pub(crate) fn drift(c: &Computed, out: &mut Recorder) -> Result<(), RenderError>
         weights: "the belief's weights at the map time",
     };
     let l = Layer::Drift;
-    out.write(l, l.files()[0], &drift_geojson(m)?, Some(details))
+    out.write(
+        l,
+        l.files()[0],
+        &drift_geojson(m, out.run_id())?,
+        Some(details),
+    )
 }
 
 /// One segment's row: POA now, area, density, and after searches cumulative POD and POS.
@@ -331,6 +338,7 @@ fn segments_geojson(
     m: &IncidentMap,
     segments: &[seekgrid_prior::Segment],
     rows: &[SegmentRow],
+    run_id: &str,
 ) -> Result<Vec<u8>, RenderError> {
     let mut features = Vec::new();
     for (row, segment) in rows.iter().zip(segments) {
@@ -351,7 +359,7 @@ fn segments_geojson(
             });
         }
     }
-    collection_bytes(features, named("segments"))
+    collection_bytes(features, named("segments", run_id))
 }
 
 /// A feature collection with its foreign members, as RFC 7946 bytes.
@@ -366,14 +374,19 @@ pub(crate) fn collection_bytes(
     })
 }
 
-fn named(name: &str) -> JsonObject {
+fn named(name: &str, run_id: &str) -> JsonObject {
     let mut f = JsonObject::new();
+    f.insert("run_id".into(), run_id.into());
     f.insert("name".into(), name.into());
     f.insert("caution".into(), CAUTION.into());
     f
 }
 
-fn searches_geojson(incident: &Incident, m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
+fn searches_geojson(
+    incident: &Incident,
+    m: &IncidentMap,
+    run_id: &str,
+) -> Result<Vec<u8>, RenderError> {
     let frame = &m.prepared.frame;
     let mut features = Vec::new();
     for s in &m.searches {
@@ -412,7 +425,7 @@ fn searches_geojson(incident: &Incident, m: &IncidentMap) -> Result<Vec<u8>, Ren
             ..Default::default()
         });
     }
-    let mut f = named("searches");
+    let mut f = named("searches", run_id);
     f.insert("title".into(), JsonValue::from(incident.title.clone()));
     collection_bytes(features, f)
 }
@@ -420,7 +433,7 @@ fn searches_geojson(incident: &Incident, m: &IncidentMap) -> Result<Vec<u8>, Ren
 /// A thinned sample of each drift scenario's particles at the map time: every k-th particle,
 /// carrying the mass of the k particles it stands for, so the sample's weights add up to the
 /// drifting mass.
-fn particles_geojson(m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
+fn particles_geojson(m: &IncidentMap, run_id: &str) -> Result<Vec<u8>, RenderError> {
     let frame = &m.prepared.frame;
     let p = m.belief.particles();
     let mut features = Vec::new();
@@ -443,14 +456,14 @@ fn particles_geojson(m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
             i = block.end;
         }
     }
-    let mut f = named("particles");
+    let mut f = named("particles", run_id);
     f.insert("time".into(), m.at.to_rfc3339().into());
     collection_bytes(features, f)
 }
 
 /// Hourly weighted mean position of each drift scenario's cloud (a track and points) and its
 /// 50 % and 90 % spread ellipses, from the hour after the earliest adrift time to the map time.
-fn drift_geojson(m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
+fn drift_geojson(m: &IncidentMap, run_id: &str) -> Result<Vec<u8>, RenderError> {
     use chrono::{DurationRound, TimeDelta};
     let frame = &m.prepared.frame;
     let weights = m.belief.particles().weights();
@@ -517,7 +530,7 @@ fn drift_geojson(m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
             ..Default::default()
         });
     }
-    collection_bytes(features, named("drift"))
+    collection_bytes(features, named("drift", run_id))
 }
 
 #[cfg(test)]

@@ -333,6 +333,7 @@ pub(crate) fn geojson(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result
     let totals = plan_totals(run);
     let mut members = JsonObject::new();
     members.insert("name".into(), "plan".into());
+    members.insert("run_id".into(), out.run_id().into());
     members.insert("caution".into(), CAUTION.into());
     members.insert("start".into(), run.start.to_rfc3339().into());
     members.insert("pos_plan".into(), totals.pos_plan.into());
@@ -395,7 +396,11 @@ pub(crate) fn gpx(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(),
         out.skip(l, "no unit has an area or a segment to follow");
         return Ok(());
     }
-    let description = format!("seekgrid plan from {}. {CAUTION}", run.start.to_rfc3339());
+    let description = format!(
+        "seekgrid plan from {}, run {}. {CAUTION}",
+        run.start.to_rfc3339(),
+        out.run_id()
+    );
     let bytes = routes_gpx(&c.incident.title, &description, &routes)?;
     out.write(l, l.files()[0], &bytes, None)
 }
@@ -404,7 +409,7 @@ pub(crate) fn gpx(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(),
 pub(crate) fn briefing(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(), RenderError> {
     let frame = &c.map.prepared.frame;
     let mut md = String::new();
-    briefing_header(&mut md, c, run);
+    briefing_header(&mut md, c, run, out.run_id());
     briefing_headline(&mut md, run);
     if let Some(p) = &run.areas {
         briefing_areas(&mut md, frame, p);
@@ -418,8 +423,8 @@ pub(crate) fn briefing(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Resul
     out.write(l, l.files()[0], md.as_bytes(), None)
 }
 
-/// Title, period, belief and caution.
-fn briefing_header(md: &mut String, c: &Computed, run: &PlanRun) {
+/// Title, period, belief, run id and caution.
+fn briefing_header(md: &mut String, c: &Computed, run: &PlanRun, run_id: &str) {
     let _ = writeln!(md, "# Search plan: {}\n", c.incident.title);
     let _ = writeln!(
         md,
@@ -428,6 +433,7 @@ fn briefing_header(md: &mut String, c: &Computed, run: &PlanRun) {
         c.map.searches.len(),
         c.map.prepared.frame.epsg()
     );
+    let _ = writeln!(md, "Run id: `{}`.\n", run_id);
     let _ = writeln!(md, "> **Caution.** {CAUTION}\n");
 }
 

@@ -206,6 +206,9 @@ pub enum FileDetails {
 pub struct Summary {
     /// The caution.
     pub caution: &'static str,
+    /// The run that wrote this summary and the layers beside it (filled in by the writer).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub run_id: Option<String>,
     /// Title.
     pub title: String,
     /// Notes from the incident.
@@ -263,23 +266,12 @@ pub struct Summary {
     pub plan: Option<PlanSummary>,
 }
 
-fn kind_name(k: &seekgrid_incident::model::ScenarioKind) -> &'static str {
-    use seekgrid_incident::model::ScenarioKind as K;
-    match k {
-        K::Point { .. } => "point",
-        K::Route { .. } => "route",
-        K::Area { .. } => "area",
-        K::Segments { .. } => "segments",
-        K::Rings { .. } => "rings",
-        K::Drift(_) => "drift",
-    }
-}
-
 /// The summary of a computed result: the map, the plan when there is one, and the files
 /// `out` has written.
 #[must_use]
 pub fn summarise(c: &Computed, out: &Recorder) -> Summary {
     let mut s = summarise_map(c.incident, c.map);
+    s.run_id = Some(out.run_id().to_owned());
     s.outputs = out.files().clone();
     s.outputs_not_written = out.not_written().clone();
     if let Some(run) = c.plan {
@@ -340,7 +332,7 @@ fn summarise_map(incident: &Incident, m: &IncidentMap) -> Summary {
         .map(|(s, (_, _, w))| ScenarioSummary {
             id: s.id.clone(),
             analyst: s.analyst.clone(),
-            kind: kind_name(&s.kind),
+            kind: s.kind.name(),
             weight: *w,
         })
         .collect();
@@ -385,6 +377,7 @@ fn summarise_map(incident: &Incident, m: &IncidentMap) -> Summary {
         .collect();
     Summary {
         caution: CAUTION,
+        run_id: None,
         title: incident.title.clone(),
         notes: incident.notes.clone(),
         reference_time: incident.reference_time.to_rfc3339(),
