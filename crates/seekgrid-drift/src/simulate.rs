@@ -114,6 +114,16 @@ impl ParticleSnapshot {
     }
 }
 
+/// Whether a particle's run adds the scenario's random walk (diffusion) to its motion.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum RandomWalk {
+    /// The scenario's diffusion, when it has one (the simulation).
+    Included,
+    /// No diffusion (the pilot run that sizes the time step); the walk's random stream is
+    /// not drawn from.
+    Omitted,
+}
+
 #[derive(Debug, Clone, Copy, Default)]
 struct ParticleMeta {
     adrift_s: f64,
@@ -499,7 +509,7 @@ impl<'a> Model<'a> {
         lattice: &Lattice,
         out: &mut [f64],
         land: Option<&LandMask>,
-        diffusion: bool,
+        random_walk: RandomWalk,
     ) -> ParticleMeta {
         let (mut rng, mut walk) = self.rngs(i);
         let init = self.draw_init(&mut rng);
@@ -515,7 +525,7 @@ impl<'a> Model<'a> {
             // Drawn ashore: it never moves.
             strand_s = 0.0;
         }
-        let diffusion = diffusion && self.diffusion_grid > 0.0;
+        let diffusion = random_walk == RandomWalk::Included && self.diffusion_grid > 0.0;
         out[0] = pos.x;
         out[1] = pos.y;
         let adrift_s = init.adrift_s;
@@ -605,7 +615,7 @@ impl<'a> Model<'a> {
         let r = lattice.record_s.len();
         let mut out = vec![0.0; n * r * 2];
         out.par_chunks_mut(r * 2).enumerate().for_each(|(i, o)| {
-            self.run_particle(i, lattice, o, None, false);
+            self.run_particle(i, lattice, o, None, RandomWalk::Omitted);
         });
         let w = vec![1.0; n];
         (0..r)
@@ -849,7 +859,13 @@ pub fn simulate(
                 .zip(meta_chunk.iter_mut())
                 .enumerate()
             {
-                *m = model.run_particle(c * CHUNK_PARTICLES + j, &lattice, out, land, true);
+                *m = model.run_particle(
+                    c * CHUNK_PARTICLES + j,
+                    &lattice,
+                    out,
+                    land,
+                    RandomWalk::Included,
+                );
             }
             let count = meta_chunk.len() as u64;
             let now = done.fetch_add(count, Ordering::Relaxed) + count;
@@ -943,8 +959,8 @@ mod tests {
         let r = plain.record_s.len();
         for i in 0..scenario.particles {
             let (mut a, mut b) = (vec![0.0; 2 * r], vec![0.0; 2 * r]);
-            let ma = model.run_particle(i, &plain, &mut a, None, true);
-            let mb = model.run_particle(i, &table, &mut b, None, true);
+            let ma = model.run_particle(i, &plain, &mut a, None, RandomWalk::Included);
+            let mb = model.run_particle(i, &table, &mut b, None, RandomWalk::Included);
             assert_eq!(a, b, "particle {i}");
             assert_eq!(ma.strand_s, mb.strand_s);
         }

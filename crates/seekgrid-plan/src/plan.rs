@@ -4,7 +4,7 @@ use crate::bound::{OptimalBound, Searchable, bound_of};
 use crate::error::PlanError;
 use crate::geometry::{Convex, RowPrefix, axes, rectangle};
 use crate::options::{PlanOptions, RectanglePattern};
-use crate::scan::{RectSize, ScanSettings, scan};
+use crate::scan::{RectSize, ScanRange, ScanSettings, scan};
 use crate::shape::{Evaluator, Shape, Steps, UnitCtx, layer_score, refine, sector_track_m};
 use crate::unit::{UnitKind, UnitSpec, validate_units};
 use geo::Coord;
@@ -484,12 +484,12 @@ impl Planner<'_> {
             max_cells_per_axis: self.o.max_scan_cells_per_axis,
             placed: &others,
             overlap_tolerance_m: self.overlap_tolerance_m,
-            full_range: false,
+            range: ScanRange::NearMass,
         };
         let mut hits = scan(&self.grid, &residual, &sizes, &settings);
         if hits.is_empty() && !others.is_empty() {
             let wide = ScanSettings {
-                full_range: true,
+                range: ScanRange::Everywhere,
                 ..settings
             };
             hits = scan(&self.grid, &residual, &sizes, &wide);
@@ -859,22 +859,54 @@ fn joint_pos(s: &Searchable, placed: &[Placed]) -> f64 {
     cells + neumaier_sum(s.weights.iter().zip(&psurv).map(|(w, sv)| w * (1.0 - sv)))
 }
 
+/// One half of a rectangle: cut across its long side (rear or front along `u`) or along it
+/// (left or right of it, along `v`), with `(u, v)` the rectangle's [`axes`].
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Half {
+    /// The `-u` half of the long side.
+    Rear,
+    /// The `+u` half of the long side.
+    Front,
+    /// The `-v` half, left of the long side's direction.
+    Left,
+    /// The `+v` half, right of it.
+    Right,
+}
+
+impl Half {
+    /// Whether the cut runs across the long side (the half lies along it).
+    fn is_along(self) -> bool {
+        matches!(self, Self::Rear | Self::Front)
+    }
+
+    /// -1 for the rear and left halves, +1 for the front and right halves.
+    fn sign(self) -> f64 {
+        match self {
+            Self::Rear | Self::Left => -1.0,
+            Self::Front | Self::Right => 1.0,
+        }
+    }
+}
+
+/// Probability at plan start under one half of the rectangle centred at `c` with its long
+/// side `long` along `theta` and its short side `short`, metres.
 fn half_mass(
     prefix: &RowPrefix,
     c: Coord<f64>,
     theta: f64,
     long: f64,
     short: f64,
-    side: f64,
-    along: bool,
+    half: Half,
 ) -> f64 {
     let (u, v) = axes(theta);
+    let along = half.is_along();
     let (dir, l, s) = if along {
         (u, 0.5 * long, short)
     } else {
         (v, long, 0.5 * short)
     };
     let off = if along { 0.25 * long } else { 0.25 * short };
+    let side = half.sign();
     let cc = Coord {
         x: c.x + side * off * dir.x,
         y: c.y + side * off * dir.y,
@@ -910,8 +942,8 @@ fn flown_pattern(
                 } else {
                     (theta_deg, long, short)
                 };
-                let rear = half_mass(prefix, center, th, ln, sh, -1.0, true);
-                let front = half_mass(prefix, center, th, ln, sh, 1.0, true);
+                let rear = half_mass(prefix, center, th, ln, sh, Half::Rear);
+                let front = half_mass(prefix, center, th, ln, sh, Half::Front);
                 let bearing = if rear >= front { th } else { th + 180.0 };
                 return Pattern::CreepingLine {
                     center,
@@ -946,8 +978,8 @@ fn flown_pattern(
                 (theta_deg, long, short)
             };
             // First leg on the left of the major bearing (-v half).
-            let left = half_mass(prefix, center, theta, long, short, -1.0, false);
-            let right = half_mass(prefix, center, theta, long, short, 1.0, false);
+            let left = half_mass(prefix, center, theta, long, short, Half::Left);
+            let right = half_mass(prefix, center, theta, long, short, Half::Right);
             let bearing = if left >= right { theta } else { theta + 180.0 };
             Pattern::ParallelSweep {
                 center,
