@@ -696,7 +696,7 @@ fn keep_where_the_object_can_be(
     }
     // The prior crate's exact polygon-cell overlap: a uniform Area scenario over the land puts
     // overlap_area / land_area into each cell.
-    let shape = prior::Shape::Area {
+    let shape = prior::ScenarioShape::Area {
         polygons: land.clone(),
     };
     let on_land = prior::scenario_mass(&shape, grid).map_err(|e| MapError::Prior(Box::new(e)))?;

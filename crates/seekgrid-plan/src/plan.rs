@@ -3,9 +3,9 @@
 use crate::bound::{OptimalBound, Searchable, bound_of};
 use crate::error::PlanError;
 use crate::geometry::{Convex, RowPrefix, axes, rectangle};
-use crate::options::{PlanOptions, RectanglePattern};
+use crate::options::{PatternOverRectangle, PlanOptions};
 use crate::scan::{RectSize, ScanRange, ScanSettings, scan};
-use crate::shape::{Evaluator, Shape, Steps, UnitCtx, layer_score, refine, sector_track_m};
+use crate::shape::{CandidateArea, Evaluator, Steps, UnitCtx, layer_score, refine, sector_track_m};
 use crate::unit::{UnitKind, UnitSpec, validate_units};
 use geo::Coord;
 use ndarray::Array2;
@@ -89,7 +89,7 @@ pub struct Plan {
 
 #[derive(Clone)]
 struct Placed {
-    shape: Shape,
+    shape: CandidateArea,
     poly: Convex,
     layer: PodLayer,
     particle_pod: Vec<f64>,
@@ -346,7 +346,7 @@ impl Planner<'_> {
         &self,
         k: usize,
         placed: &[Option<Placed>],
-        start: Shape,
+        start: CandidateArea,
         keep_clear: Option<&Convex>,
     ) -> Result<Option<Placed>, PlanError> {
         let u = &self.ctxs[k];
@@ -375,7 +375,7 @@ impl Planner<'_> {
             },
             rel: 0.1,
         };
-        let exact = |sh: &Shape| {
+        let exact = |sh: &CandidateArea| {
             sh.pod_layer(u, &self.grid)
                 .map(|l| layer_score(&residual, &l))
                 .unwrap_or(f64::NEG_INFINITY)
@@ -449,7 +449,7 @@ impl Planner<'_> {
     fn finish(
         &self,
         u: &UnitCtx,
-        shape: Shape,
+        shape: CandidateArea,
         reason: Option<String>,
     ) -> Result<Placed, PlanError> {
         let layer = shape.pod_layer(u, &self.grid)?;
@@ -501,12 +501,12 @@ impl Planner<'_> {
         hits = keep.into_iter().map(|i| hits[i]).collect();
         let cell = self.grid.cell_m();
         let step_deg = 0.5 * self.o.orientation_step_deg;
-        let mut starts: Vec<(Shape, Steps)> = hits
+        let mut starts: Vec<(CandidateArea, Steps)> = hits
             .iter()
             .map(|h| {
                 let z = &sizes[h.size];
                 (
-                    Shape::Rect {
+                    CandidateArea::Rect {
                         center: h.center,
                         theta_deg: h.theta_deg,
                         spacing_m: z.spacing_m,
@@ -536,7 +536,7 @@ impl Planner<'_> {
                 },
             ));
         }
-        let exact = |sh: &Shape| {
+        let exact = |sh: &CandidateArea| {
             sh.pod_layer(u, &self.grid)
                 .map(|l| layer_score(&residual, &l))
                 .unwrap_or(f64::NEG_INFINITY)
@@ -560,7 +560,7 @@ impl Planner<'_> {
                 let c0 = rect.center();
                 let th0 = rect_theta(&rect);
                 let step = (swept.sqrt() / 8.0).max(cell);
-                let mut es_starts = vec![Shape::Square {
+                let mut es_starts = vec![CandidateArea::Square {
                     center: c0,
                     theta_deg: th0,
                     spacing_m: rect_spacing(&rect),
@@ -572,7 +572,7 @@ impl Planner<'_> {
                     let r0 = (1.5 * (a90 / std::f64::consts::PI).sqrt())
                         .max(u.w_eff)
                         .min(r_max);
-                    ss_starts.push(Shape::Sector {
+                    ss_starts.push(CandidateArea::Sector {
                         center: c0,
                         theta_deg: th0,
                         radius_m: r0,
@@ -580,13 +580,13 @@ impl Planner<'_> {
                 }
                 if let Some(inc) = &incumbent {
                     match inc.shape {
-                        Shape::Square { .. } => es_starts.push(inc.shape.clone()),
-                        Shape::Sector { .. } => ss_starts.push(inc.shape.clone()),
-                        Shape::Rect { .. } => {}
+                        CandidateArea::Square { .. } => es_starts.push(inc.shape.clone()),
+                        CandidateArea::Sector { .. } => ss_starts.push(inc.shape.clone()),
+                        CandidateArea::Rect { .. } => {}
                     }
                 }
-                let run = |v: &[Shape]| -> Option<(Shape, f64)> {
-                    let st: Vec<(Shape, Steps)> = v
+                let run = |v: &[CandidateArea]| -> Option<(CandidateArea, f64)> {
+                    let st: Vec<(CandidateArea, Steps)> = v
                         .iter()
                         .map(|sh| {
                             (
@@ -653,23 +653,25 @@ impl Planner<'_> {
     }
 }
 
-fn rect_spacing(s: &Shape) -> f64 {
+fn rect_spacing(s: &CandidateArea) -> f64 {
     match *s {
-        Shape::Rect { spacing_m, .. } | Shape::Square { spacing_m, .. } => spacing_m,
-        Shape::Sector { radius_m, .. } => radius_m,
+        CandidateArea::Rect { spacing_m, .. } | CandidateArea::Square { spacing_m, .. } => {
+            spacing_m
+        }
+        CandidateArea::Sector { radius_m, .. } => radius_m,
     }
 }
 
-fn rect_theta(s: &Shape) -> f64 {
+fn rect_theta(s: &CandidateArea) -> f64 {
     match *s {
-        Shape::Rect { theta_deg, .. }
-        | Shape::Square { theta_deg, .. }
-        | Shape::Sector { theta_deg, .. } => theta_deg,
+        CandidateArea::Rect { theta_deg, .. }
+        | CandidateArea::Square { theta_deg, .. }
+        | CandidateArea::Sector { theta_deg, .. } => theta_deg,
     }
 }
 
 /// The best scored shape; ties go to the lowest index. `None` when none has a finite score.
-fn argmax(v: &[(Shape, f64)]) -> Option<(Shape, f64)> {
+fn argmax(v: &[(CandidateArea, f64)]) -> Option<(CandidateArea, f64)> {
     let mut best: Option<usize> = None;
     for (i, (_, s)) in v.iter().enumerate() {
         if s.is_finite() && best.is_none_or(|b| *s > v[b].1) {
@@ -917,7 +919,7 @@ fn half_mass(
 /// The flown pattern of a placed area (direction chosen so that the search starts on the
 /// side holding more probability at plan start).
 fn flown_pattern(
-    sh: &Shape,
+    sh: &CandidateArea,
     u: &UnitCtx,
     prefix: &RowPrefix,
     o: &PlanOptions,
@@ -925,7 +927,7 @@ fn flown_pattern(
     notes: &mut Vec<String>,
 ) -> Pattern {
     match *sh {
-        Shape::Rect {
+        CandidateArea::Rect {
             center,
             theta_deg,
             spacing_m,
@@ -933,7 +935,7 @@ fn flown_pattern(
         } => {
             let long = u.track_m / legs as f64;
             let short = legs as f64 * spacing_m;
-            let creeping = o.rectangle_pattern == RectanglePattern::CreepingLine;
+            let creeping = o.rectangle_pattern == PatternOverRectangle::CreepingLine;
             if creeping && legs >= 2 {
                 // Progress along the long side from its rear end (-u half) with more mass;
                 // legs run across it.
@@ -1057,7 +1059,7 @@ fn assemble(
         }
         let area_m2 = p.poly.area();
         let track_spacing_m = match p.shape {
-            Shape::Sector { .. } => u.w_eff / coverage,
+            CandidateArea::Sector { .. } => u.w_eff / coverage,
             _ => rect_spacing(&p.shape) / u.searchers,
         };
         if u.team {

@@ -548,7 +548,7 @@ mod practical {
     fn creeping_line_option_gives_legs_across_the_long_side() {
         let b = normal_belief(2000.0, 100.0, 60);
         let o = PlanOptions {
-            rectangle_pattern: RectanglePattern::CreepingLine,
+            rectangle_pattern: PatternOverRectangle::CreepingLine,
             aspect_ratios: vec![3.0],
             ..PlanOptions::default()
         };

@@ -1,10 +1,10 @@
 //! Rings scenarios: published ring densities, SciPy's PCHIP, and a slow dense integration.
 
 use super::common::{c, fixture, grid};
-use seekgrid_prior::{RingInterpolation, Shape, scenario_mass};
+use seekgrid_prior::{RingInterpolation, ScenarioShape, scenario_mass};
 
-fn rings(interpolation: RingInterpolation, quantiles: Vec<(f64, f64)>) -> Shape {
-    Shape::Rings {
+fn rings(interpolation: RingInterpolation, quantiles: Vec<(f64, f64)>) -> ScenarioShape {
+    ScenarioShape::Rings {
         center: c(0.0, 0.0),
         quantiles,
         interpolation,
