@@ -33,8 +33,8 @@ pub const MAX_STEPS: f64 = 5.0e7;
 /// Particles used to choose the automatic time step (the first ones of the run).
 pub const PILOT_PARTICLES: usize = 512;
 
-/// Longest automatic time step, seconds.
-pub const MAX_AUTO_STEP_S: f64 = 3600.0;
+/// Longest automatic time step, seconds (one hour).
+pub const MAX_AUTO_STEP_S: f64 = SECONDS_PER_HOUR;
 
 /// Halvings the automatic step may take from its first try.
 pub const MAX_AUTO_HALVINGS: u32 = 9;
@@ -371,7 +371,7 @@ struct Model<'a> {
     leeway: Leeway,
     frame: &'a Frame,
     lkp: Coord<f64>,
-    /// True (east, north) knots to grid metres per second: scale * 1852/3600 * rotation.
+    /// True (east, north) knots to grid metres per second: scale * [`MPS_PER_KNOT`] * rotation.
     to_grid: [[f64; 2]; 2],
     position_sigma_grid_m: f64,
     window_s: f64,
@@ -885,6 +885,7 @@ pub fn simulate(
 mod tests {
     use super::*;
     use approx::assert_abs_diff_eq;
+    use seekgrid_core::units::hours_to_s;
 
     #[test]
     fn the_working_frame_map_turns_true_north_onto_the_projected_meridian() {
@@ -952,7 +953,7 @@ mod tests {
         let model = Model::new(&scenario, &frame);
         let mut breaks = model.current.breaks();
         breaks.extend(model.wind.breaks());
-        let record_s = Lattice::record_times(6.0 * 3600.0, 3600.0, &[]);
+        let record_s = Lattice::record_times(hours_to_s(6.0), SECONDS_PER_HOUR, &[]);
         let plain = Lattice::with_step(record_s, 1200.0, &breaks);
         let table = plain.clone().tabulate(&model.current, &model.wind);
         assert!(plain.nominal.is_none() && table.nominal.is_some());
@@ -968,6 +969,8 @@ mod tests {
 
     #[test]
     fn record_times_end_at_the_end_and_steps_end_at_kinks() {
+        // Plain times in seconds (no unit conversion): the literals are the checked record
+        // and step times, worked out by hand (computed).
         assert_eq!(
             Lattice::record_times(7200.0, 3600.0, &[]),
             vec![0.0, 3600.0, 7200.0]

@@ -5,6 +5,7 @@ use crate::prepare::{PrepareError, Prepared, PreparedSearch, prepare};
 use crate::slices;
 use geo::Coord;
 use ndarray::Array2;
+use seekgrid_core::units::SECONDS_PER_HOUR;
 use seekgrid_core::{Belief, CoreError, Frame, GridSpec, Particles, ProjectedBox};
 use seekgrid_drift as drift;
 use seekgrid_incident::model::{Incident, Time};
@@ -13,7 +14,7 @@ use seekgrid_search as search;
 
 /// Regular interval of the stored drift positions, seconds, besides the times the map uses
 /// (see [`map`]).
-const DRIFT_RECORD_EVERY_S: f64 = 6.0 * 3600.0;
+const DRIFT_RECORD_EVERY_S: f64 = 6.0 * SECONDS_PER_HOUR;
 
 /// Options of one map computation.
 #[derive(Debug, Clone, Copy)]

@@ -9,6 +9,7 @@ use crate::shape::{CandidateArea, Evaluator, Steps, UnitCtx, layer_score, refine
 use crate::unit::{UnitKind, UnitSpec, validate_units};
 use geo::Coord;
 use ndarray::Array2;
+use seekgrid_core::units::SECONDS_PER_HOUR;
 use seekgrid_core::{Belief, GridSpec, neumaier_sum};
 use seekgrid_search::{DetectionLaw, Pattern, PodLayer, SweepWidth};
 
@@ -1050,7 +1051,8 @@ fn assemble(
             })
             .collect();
         let track_length_m = pattern.track_length_m();
-        let hours_needed = track_length_m / (spec.speed_mps * 3600.0 * (1.0 - o.turn_allowance));
+        let hours_needed =
+            track_length_m / (spec.speed_mps * SECONDS_PER_HOUR * (1.0 - o.turn_allowance));
         if hours_needed > spec.hours_on_scene * (1.0 + 1e-9) {
             notes.push(format!(
                 "unit {}: the pattern's whole legs need {:.3} h, more than the {:.3} h on scene",
