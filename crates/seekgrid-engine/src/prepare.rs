@@ -345,7 +345,7 @@ fn stationary(
         id: s.id.clone(),
         source: Box::new(source),
     })?;
-    if let (None, prior::Shape::Segments { segments, .. }) = (&out.segments, &shape) {
+    if let (None, prior::ScenarioShape::Segments { segments, .. }) = (&out.segments, &shape) {
         out.segments = Some(segments.clone());
     }
     match out
