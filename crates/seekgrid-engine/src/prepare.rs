@@ -519,6 +519,20 @@ pub fn prepare(incident: &Incident) -> Result<Prepared, PrepareError> {
 }
 
 impl PreparedSearch {
+    /// Whether the search's area or track comes within one sweep width of the box `b` (e.g. a
+    /// grid's extent): false when it lies wholly outside, where it can find nothing.
+    #[must_use]
+    pub fn reaches(&self, b: &ProjectedBox) -> bool {
+        use geo::Intersects;
+        let grown = b.expanded(self.sweep_width.metres()).to_polygon();
+        match (&self.pattern, &self.track) {
+            (Some(p), _) => p.area_polygon().intersects(&grown),
+            (None, Some(t)) if t.len() == 1 => grown.intersects(&geo::Point(t[0])),
+            (None, Some(t)) => LineString(t.clone()).intersects(&grown),
+            (None, None) => false,
+        }
+    }
+
     /// The box in the frame that this search touches (its area, or its track), grown by a
     /// margin of two sweep widths on every side.
     #[must_use]

@@ -76,9 +76,15 @@ pub enum NewGeometry {
 #[derive(Debug, Error)]
 #[non_exhaustive]
 pub enum EditError {
-    /// The file as it is, or as it would be after the edit, is not a valid incident file.
+    /// The file as it is is not a valid incident file.
     #[error("{0}")]
     Invalid(IncidentErrors),
+    /// The file with the new search would not be a valid incident file; positions refer to
+    /// the text as it would be.
+    #[error(
+        "the search to log is not valid, nothing was written (lines refer to the file with the search added at its end or after the last [[search]]):\n{0}"
+    )]
+    WouldBeInvalid(IncidentErrors),
     /// The edit is refused for a reason stated in full (e.g. by the caller's check).
     #[error("{path}: {message}")]
     Refused {
@@ -124,7 +130,10 @@ impl EditError {
     pub fn is_bad_input(&self) -> bool {
         matches!(
             self,
-            Self::Invalid(_) | Self::Refused { .. } | Self::Changed { .. }
+            Self::Invalid(_)
+                | Self::WouldBeInvalid(_)
+                | Self::Refused { .. }
+                | Self::Changed { .. }
         )
     }
 }
@@ -229,8 +238,9 @@ impl IncidentFile {
     /// documentation for the steps).
     ///
     /// # Errors
-    /// [`EditError::ReadOnly`] for a read-only file or folder; [`EditError::Invalid`] when the
-    /// new text is not a valid incident file; [`EditError::Refused`] when `options.check`
+    /// [`EditError::ReadOnly`] for a read-only file or folder; [`EditError::WouldBeInvalid`]
+    /// when the new text is not a valid incident file; [`EditError::Invalid`] when the track to
+    /// copy cannot be read; [`EditError::Refused`] when `options.check`
     /// refuses or the file's `search` key cannot take another table; [`EditError::Changed`]
     /// when the file changed on disk since [`IncidentFile::open`]; [`EditError::Io`] when a file
     /// cannot be written or renamed. In every case the file is untouched and nothing is left.
@@ -260,7 +270,7 @@ impl IncidentFile {
         };
         let new_text = with_search(&self.text, search, track_rel.as_deref())
             .map_err(|message| self.refused(message))?;
-        let incident = parse(&self.path, new_text.clone())?;
+        let incident = parse(&self.path, new_text.clone()).map_err(EditError::WouldBeInvalid)?;
         (options.check)(&incident).map_err(|message| self.refused(message))?;
 
         let io = |action: &'static str, path: &Path| {
@@ -899,7 +909,10 @@ sweep_width_m = 800            # invented
         let mut s = pattern_search();
         s.sweep_width_m = -5.0;
         let e = append(&file, &s, &no_check, &mut || {}).unwrap_err();
-        assert!(matches!(e, EditError::Invalid(_)) && e.is_bad_input(), "{e}");
+        assert!(
+            matches!(e, EditError::WouldBeInvalid(_)) && e.is_bad_input(),
+            "{e}"
+        );
         assert!(e.to_string().contains("sweep_width_m must be a positive number"), "{e}");
         untouched(dir.path(), &path, FILE);
         // A duplicate id too, and a copied track is taken back with its new folder.

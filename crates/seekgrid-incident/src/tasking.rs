@@ -128,8 +128,8 @@ impl Tasking {
     pub fn to_toml(&self) -> Result<String, String> {
         let body = toml::to_string(self).map_err(|e| e.to_string())?;
         Ok(format!(
-            "# The tasking of seekgrid plan run {}: what each unit was asked to do, at full\n\
-             # precision. Read by `seekgrid log INCIDENT --plan FOLDER --unit ID`; do not edit.\n\n{body}",
+            "# Tasking of seekgrid plan run {}: what each unit was asked to do, at full precision.\n\
+             # Read by `seekgrid log INCIDENT --plan FOLDER --unit ID`; do not edit.\n\n{body}",
             self.run_id
         ))
     }
@@ -252,7 +252,7 @@ mod tests {
             a.major_bearing_deg.unwrap().to_bits(),
             b.major_bearing_deg.unwrap().to_bits()
         );
-        assert!(text.starts_with("# The tasking of seekgrid plan run plan-test"));
+        assert!(text.starts_with("# Tasking of seekgrid plan run plan-test:"));
         assert!(text.contains("start = \"2026-03-10T11:00:00Z\""), "{text}");
     }
 
