@@ -10,39 +10,16 @@ use seekgrid_incident::tasking::{TASKING_FILE, TASKING_FORMAT, TaskedPattern, Ta
 use seekgrid_plan::UnitKind;
 use seekgrid_search::Pattern;
 
-/// Writes `tasking.toml` into the plan folder.
+/// Writes `tasking.toml` into the plan folder, under the folder's run id.
 ///
 /// # Errors
 /// [`RenderError`] when the file cannot be written, or (a bug) a value cannot be written as TOML.
 pub fn write(incident: &Incident, run: &PlanRun, dir: &OutputDir) -> Result<(), RenderError> {
-    let text = tasking(incident, run, &run_id(run))
+    let text = tasking(incident, run, dir.run_id())
         .to_toml()
         .map_err(RenderError::Internal)?;
     dir.write(TASKING_FILE, text.as_bytes())?;
     Ok(())
-}
-
-/// The plan's run id. Until the output folder gives each run its own id, it is made from the
-/// period's start and the units' ids (letters, digits, `-` and `_` kept), at most 64 characters:
-/// two plans for the same start and units share it.
-#[must_use]
-pub fn run_id(run: &PlanRun) -> String {
-    let units: Vec<&str> = run.units.iter().map(|u| u.id.as_str()).collect();
-    let raw = format!(
-        "plan-{}-{}",
-        run.start.format("%Y%m%dT%H%M%SZ"),
-        units.join("-")
-    );
-    raw.chars()
-        .map(|c| {
-            if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
-                c
-            } else {
-                '_'
-            }
-        })
-        .take(64)
-        .collect()
 }
 
 /// The tasking of a plan: per unit its period, law, sweep width and pattern (in lon/lat and
