@@ -181,6 +181,16 @@ pub fn run(args: &LogArgs, now: DateTime<Utc>) -> Result<String, Failure> {
         .as_deref()
         .map(|dir| tasking::read(dir).map_err(|e| bad(e.to_string())))
         .transpose()?;
+    if let Some(t) = &plan
+        && t.incident_title != incident.title
+    {
+        return Err(bad(format!(
+            "the plan in {} was made for the incident \"{}\", not \"{}\"; give the plan folder of this incident",
+            args.plan.as_deref().unwrap_or(Path::new("")).display(),
+            t.incident_title,
+            incident.title
+        )));
+    }
     let task = match &plan {
         Some(t) => Some(t.unit(&args.unit).ok_or_else(|| not_in_plan(t, &args.unit))?),
         None => None,
