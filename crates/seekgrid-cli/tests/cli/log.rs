@@ -308,6 +308,49 @@ fn a_track_is_copied_beside_the_incident_and_its_times_are_used() {
 }
 
 #[test]
+fn a_team_sent_to_a_segment_logs_its_track_with_the_plans_sweep_width_and_run_id() {
+    let dir = tempfile::tempdir().unwrap();
+    let incident = incident_copy(dir.path(), "tiny", "fixtures/golden/tiny");
+    let plan = plan(&incident, dir.path());
+    let source = dir.path().join("team.gpx");
+    std::fs::write(&source, TRACK_IN_GRID).unwrap();
+    ok(&[
+        "log",
+        s(&incident),
+        "--plan",
+        s(&plan),
+        "--unit",
+        "shore-team",
+        "--track",
+        s(&source),
+    ]);
+    let tasking = seekgrid_incident::tasking::read(&plan).unwrap();
+    let text = std::fs::read_to_string(&incident).unwrap();
+    // The line of 5 searchers at 30 m each (the tiny incident's invented values).
+    for line in [
+        "sweep_width_m = 150.0\n".to_owned(),
+        "detection = \"exponential\"\n".to_owned(),
+        format!("tasked_in = \"{}\"\n", tasking.run_id),
+    ] {
+        assert!(text.contains(&line), "{line} missing from\n{text}");
+    }
+    ok(&["check", s(&incident)]);
+}
+
+#[test]
+fn a_plan_made_for_another_incident_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let incident = incident_copy(dir.path(), "tiny", "fixtures/golden/tiny");
+    let plan = plan(&incident, dir.path());
+    let other = incident_copy(dir.path(), "marine", "scenarios/marine");
+    refused(
+        &["log", s(&other), "--plan", s(&plan), "--unit", "boat-1"],
+        other.parent().unwrap(),
+        "was made for the incident \"Golden test",
+    );
+}
+
+#[test]
 fn a_unit_not_in_the_plan_is_refused_with_the_plans_units() {
     let dir = tempfile::tempdir().unwrap();
     let incident = incident_copy(dir.path(), "tiny", "fixtures/golden/tiny");
