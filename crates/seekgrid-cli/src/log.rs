@@ -133,7 +133,10 @@ pub fn run(args: &LogArgs, now: DateTime<Utc>) -> Result<String, Failure> {
         ("--track-spacing-m", args.track_spacing_m.is_some()),
         ("--legs", args.legs.is_some()),
         ("--radius-m", args.radius_m.is_some()),
-        ("--first-leg-bearing-deg", args.first_leg_bearing_deg.is_some()),
+        (
+            "--first-leg-bearing-deg",
+            args.first_leg_bearing_deg.is_some(),
+        ),
         ("--sectors", args.sectors.is_some()),
     ];
     if !matches!(source, Source::Pattern)
@@ -192,7 +195,10 @@ pub fn run(args: &LogArgs, now: DateTime<Utc>) -> Result<String, Failure> {
         )));
     }
     let task = match &plan {
-        Some(t) => Some(t.unit(&args.unit).ok_or_else(|| not_in_plan(t, &args.unit))?),
+        Some(t) => Some(
+            t.unit(&args.unit)
+                .ok_or_else(|| not_in_plan(t, &args.unit))?,
+        ),
         None => None,
     };
 
@@ -217,8 +223,8 @@ pub fn run(args: &LogArgs, now: DateTime<Utc>) -> Result<String, Failure> {
         }
         Source::Track => {
             let path = args.track.clone().expect("a track source has a track");
-            let (_, times) = seekgrid_incident::geofiles::read_track(&path)
-                .map_err(|e| bad(e.to_string()))?;
+            let (_, times) =
+                seekgrid_incident::geofiles::read_track(&path).map_err(|e| bad(e.to_string()))?;
             let all: Option<Vec<DateTime<Utc>>> = times.iter().copied().collect();
             let span = all.and_then(|t| Some((*t.first()?, *t.last()?)));
             (NewGeometry::CopyTrack(path), span)
@@ -267,10 +273,7 @@ pub fn run(args: &LogArgs, now: DateTime<Utc>) -> Result<String, Failure> {
             ));
         }
     };
-    let detection = args
-        .detection
-        .clone()
-        .or(task.map(|t| t.detection.clone()));
+    let detection = args.detection.clone().or(task.map(|t| t.detection.clone()));
     let id = args
         .id
         .clone()
@@ -381,9 +384,8 @@ fn pattern_from_options(a: &LogArgs) -> Result<TaskedPattern, Failure> {
         .as_deref()
         .ok_or_else(|| bad(format!("--pattern {kind} needs --center LON,LAT")))?;
     let center = parse_center(center)?;
-    let need = |v: Option<f64>, name: &str| {
-        v.ok_or_else(|| bad(format!("--pattern {kind} needs {name}")))
-    };
+    let need =
+        |v: Option<f64>, name: &str| v.ok_or_else(|| bad(format!("--pattern {kind} needs {name}")));
     let mut p = TaskedPattern {
         kind: kind.clone(),
         center,

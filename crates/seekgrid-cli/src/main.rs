@@ -88,7 +88,7 @@ enum Command {
     /// (--track) or as flown (--pattern). The file keeps its comments, the new text is
     /// validated before it replaces the old, and the old is kept as FILE.bak-TIME
     #[command(after_help = AFTER_HELP, allow_negative_numbers = true)]
-    Log(log::LogArgs),
+    Log(Box<log::LogArgs>),
     /// Write the bundled invented demo incidents into a folder, map them and plan for them
     #[command(after_help = AFTER_HELP)]
     Demo {

@@ -562,7 +562,10 @@ fn search_table(s: &NewSearch, track: Option<&str>) -> Result<Table, String> {
         }
     }
     if let Some(f) = s.done_fraction {
-        t.insert("done_fraction", toml_edit::value(finite(f, "done_fraction")?));
+        t.insert(
+            "done_fraction",
+            toml_edit::value(finite(f, "done_fraction")?),
+        );
     }
     if let Some(r) = &s.tasked_in {
         t.insert("tasked_in", toml_edit::value(r.as_str()));
@@ -769,7 +772,10 @@ sweep_width_m = 800            # invented
             after.starts_with("# A comment after the last search's keys.\n\n# Units"),
             "{after}"
         );
-        assert!(block.contains("\n[[search]]\nid = \"boat-1-second\"\n"), "{block}");
+        assert!(
+            block.contains("\n[[search]]\nid = \"boat-1-second\"\n"),
+            "{block}"
+        );
     }
 
     #[test]
@@ -780,7 +786,10 @@ sweep_width_m = 800            # invented
         let trimmed = without.trim_end_matches('\n');
         let new = with_search(trimmed, &pattern_search(), None).unwrap();
         assert!(new.starts_with(trimmed), "{new}");
-        assert!(new[trimmed.len()..].starts_with("\n\n# logged by a test\n[[search]]\n"), "{new}");
+        assert!(
+            new[trimmed.len()..].starts_with("\n\n# logged by a test\n[[search]]\n"),
+            "{new}"
+        );
         assert!(new.ends_with('\n'));
         parse(Path::new("incident.toml"), new).unwrap();
     }
@@ -868,9 +877,11 @@ sweep_width_m = 800            # invented
             std::fs::read_to_string(dir.path().join("tracks/boat_2_track.gpx")).unwrap(),
             "older"
         );
-        assert!(std::fs::read_to_string(&path)
-            .unwrap()
-            .contains("track = \"tracks/boat_2_track-2.gpx\"\n"));
+        assert!(
+            std::fs::read_to_string(&path)
+                .unwrap()
+                .contains("track = \"tracks/boat_2_track-2.gpx\"\n")
+        );
         // The search reads the copy: changing the original changes nothing.
         std::fs::write(&source, "not a track any more").unwrap();
         let again = crate::load(&path).unwrap();
@@ -913,7 +924,11 @@ sweep_width_m = 800            # invented
             matches!(e, EditError::WouldBeInvalid(_)) && e.is_bad_input(),
             "{e}"
         );
-        assert!(e.to_string().contains("sweep_width_m must be a positive number"), "{e}");
+        assert!(
+            e.to_string()
+                .contains("sweep_width_m must be a positive number"),
+            "{e}"
+        );
         untouched(dir.path(), &path, FILE);
         // A duplicate id too, and a copied track is taken back with its new folder.
         let source_dir = tempfile::tempdir().unwrap();
@@ -943,7 +958,11 @@ sweep_width_m = 800            # invented
         };
         let e = append(&file, &track_search(&source), &check, &mut || {}).unwrap_err();
         assert!(matches!(e, EditError::Refused { .. }) && e.is_bad_input());
-        assert!(e.to_string().ends_with("the track is wholly outside the grid"), "{e}");
+        assert!(
+            e.to_string()
+                .ends_with("the track is wholly outside the grid"),
+            "{e}"
+        );
         untouched(dir.path(), &path, FILE);
     }
 
@@ -964,7 +983,10 @@ sweep_width_m = 800            # invented
         std::fs::set_permissions(dir.path(), std::fs::Permissions::from_mode(0o555)).unwrap();
         let e = append(&file, &pattern_search(), &no_check, &mut || {}).unwrap_err();
         std::fs::set_permissions(dir.path(), std::fs::Permissions::from_mode(0o755)).unwrap();
-        assert!(matches!(e, EditError::ReadOnly { what: "folder", .. }), "{e}");
+        assert!(
+            matches!(e, EditError::ReadOnly { what: "folder", .. }),
+            "{e}"
+        );
         untouched(dir.path(), &path, FILE);
     }
 

@@ -258,7 +258,10 @@ mod tests {
 
     #[test]
     fn another_format_version_is_refused_with_the_fix() {
-        let text = sample().to_toml().unwrap().replace("format = 1", "format = 2");
+        let text = sample()
+            .to_toml()
+            .unwrap()
+            .replace("format = 1", "format = 2");
         let e = Tasking::parse(Path::new("tasking.toml"), &text).unwrap_err();
         assert!(e.message.contains("plan again"), "{e}");
     }

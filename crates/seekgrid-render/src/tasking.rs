@@ -6,7 +6,9 @@ use seekgrid_core::Frame;
 use seekgrid_core::units::normalise_deg;
 use seekgrid_engine::PlanRun;
 use seekgrid_incident::model::{Incident, Time};
-use seekgrid_incident::tasking::{TASKING_FILE, TASKING_FORMAT, TaskedPattern, TaskedUnit, Tasking};
+use seekgrid_incident::tasking::{
+    TASKING_FILE, TASKING_FORMAT, TaskedPattern, TaskedUnit, Tasking,
+};
 use seekgrid_plan::UnitKind;
 use seekgrid_search::Pattern;
 
@@ -192,13 +194,13 @@ mod tests {
         assert_eq!(t.track_spacing_m, Some(1_192.999_999_999_999_8));
         let back = frame.to_xy(t.center[0], t.center[1]);
         assert!((back.x - center.x).abs() < 1e-6 && (back.y - center.y).abs() < 1e-6);
-        let grid = frame.true_to_grid_bearing_deg(
-            t.major_bearing_deg.unwrap(),
-            t.center[0],
-            t.center[1],
-        );
+        let grid =
+            frame.true_to_grid_bearing_deg(t.major_bearing_deg.unwrap(), t.center[0], t.center[1]);
         assert!((grid - 256.5).abs() < 1e-9, "{grid}");
         let c = frame.convergence_deg(t.center[0], t.center[1]);
-        assert!(c.abs() > 0.5, "the test needs a visible convergence, got {c}");
+        assert!(
+            c.abs() > 0.5,
+            "the test needs a visible convergence, got {c}"
+        );
     }
 }

@@ -76,14 +76,7 @@ fn snapshot(dir: &Path) -> BTreeMap<PathBuf, Vec<u8>> {
 /// Plans the tiny incident at [`PLAN_START`] into `dir/plan` and returns the folder.
 fn plan(incident: &Path, dir: &Path) -> PathBuf {
     let out = dir.join("plan");
-    ok(&[
-        "plan",
-        s(incident),
-        "--start",
-        PLAN_START,
-        "--out",
-        s(&out),
-    ]);
+    ok(&["plan", s(incident), "--start", PLAN_START, "--out", s(&out)]);
     out
 }
 
@@ -151,8 +144,18 @@ fn a_search_logged_as_planned_scores_exactly_as_the_same_pattern_written_by_hand
     std::fs::write(&by_hand, text).unwrap();
 
     let at = "2026-03-10T14:00:00Z";
-    let (a, a_total) = search_report(&logged, &dir.path().join("map-logged"), at, "boat-1-20260310T1100Z");
-    let (b, b_total) = search_report(&by_hand, &dir.path().join("map-by-hand"), at, "boat-1-20260310T1100Z");
+    let (a, a_total) = search_report(
+        &logged,
+        &dir.path().join("map-logged"),
+        at,
+        "boat-1-20260310T1100Z",
+    );
+    let (b, b_total) = search_report(
+        &by_hand,
+        &dir.path().join("map-by-hand"),
+        at,
+        "boat-1-20260310T1100Z",
+    );
     // Every number of the report, to the last bit (serde_json writes f64 round-trip).
     assert_eq!(a, b);
     assert_eq!(a_total, b_total);
@@ -294,7 +297,10 @@ fn a_track_is_copied_beside_the_incident_and_its_times_are_used() {
     ] {
         assert!(text.contains(line), "{line} missing from\n{text}");
     }
-    let copy = incident.parent().unwrap().join("tracks/boat-3-20260310T1110Z.gpx");
+    let copy = incident
+        .parent()
+        .unwrap()
+        .join("tracks/boat-3-20260310T1110Z.gpx");
     assert_eq!(std::fs::read_to_string(&copy).unwrap(), TRACK_IN_GRID);
     // Editing the original later changes nothing in the incident.
     std::fs::write(&source, "gone").unwrap();
@@ -363,7 +369,14 @@ fn a_unit_not_in_the_plan_is_refused_with_the_plans_units() {
     );
     // A team sent to a segment has no pattern to log as planned.
     refused(
-        &["log", s(&incident), "--plan", s(&plan), "--unit", "shore-team"],
+        &[
+            "log",
+            s(&incident),
+            "--plan",
+            s(&plan),
+            "--unit",
+            "shore-team",
+        ],
         folder,
         "log the team's recorded track with --track FILE",
     );
