@@ -2,6 +2,7 @@
 //! message per error, and exits 0 (ok), 1 (failure) or 2 (bad input).
 
 mod demo;
+mod log;
 
 use clap::{Parser, Subcommand};
 use seekgrid_engine::timeline::{MapError, MapOptions};
@@ -84,6 +85,11 @@ enum Command {
         #[arg(long)]
         force: bool,
     },
+    /// Record a completed search in the incident file: as planned (--plan), as followed
+    /// (--track) or as flown (--pattern). The file keeps its comments, the new text is
+    /// validated before it replaces the old, and the old is kept as FILE.bak-TIME
+    #[command(after_help = AFTER_HELP, allow_negative_numbers = true)]
+    Log(Box<log::LogArgs>),
     /// Write the bundled invented demo incidents into a folder, map them and plan for them
     #[command(after_help = AFTER_HELP)]
     Demo {
@@ -211,6 +217,11 @@ fn run(cli: Cli) -> Result<(), Failure> {
             }
             Ok(())
         }
+        Command::Log(args) => {
+            let message = log::run(&args, chrono::Utc::now())?;
+            eprintln!("{message}\n{CAUTION}");
+            Ok(())
+        }
         Command::Demo { out, force } => demo::run(&out, force, &run_id),
     }
 }
@@ -231,11 +242,16 @@ fn one_line(s: &seekgrid_render::summary::Summary, out: &Path, run_id: &str) -> 
 }
 
 fn parse_time(t: &str) -> Result<chrono::DateTime<chrono::Utc>, Failure> {
+    parse_time_named("--at", t)
+}
+
+/// The time given to the option `name`, or a message naming the option.
+fn parse_time_named(name: &str, t: &str) -> Result<chrono::DateTime<chrono::Utc>, Failure> {
     chrono::DateTime::parse_from_rfc3339(t.trim())
         .map(|d| d.with_timezone(&chrono::Utc))
         .map_err(|_| {
             Failure::bad_input(format!(
-                "--at \"{t}\" is not an RFC 3339 time; write it as 2026-06-14T21:00:00Z"
+                "{name} \"{t}\" is not an RFC 3339 time; write it as 2026-06-14T21:00:00Z"
             ))
         })
 }

@@ -480,6 +480,23 @@ impl PreparedSearch {
         }
     }
 
+    /// Whether the search's area or track comes within one sweep width of the box `b` (e.g. a
+    /// grid's extent): false when it lies wholly outside, where it can find nothing.
+    #[must_use]
+    pub fn reaches(&self, b: &ProjectedBox) -> bool {
+        use geo::Intersects;
+        let grown = b.expanded(self.sweep_width.metres()).to_polygon();
+        match &self.geometry {
+            PreparedGeometry::Pattern(p) => p.area_polygon().intersects(&grown),
+            PreparedGeometry::Track { points: t, .. } if t.len() == 1 => {
+                grown.intersects(&geo::Point(t[0]))
+            }
+            PreparedGeometry::Track { points: t, .. } => {
+                geo::LineString(t.clone()).intersects(&grown)
+            }
+        }
+    }
+
     /// The box in the frame that this search touches (its area, or its track), grown by a
     /// margin of two sweep widths on every side.
     #[must_use]
