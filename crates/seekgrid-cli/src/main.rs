@@ -165,7 +165,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
                 Some(list) => OutputSelection::parse(&list).map_err(Failure::bad_input)?,
                 None => OutputSelection::all(),
             };
-            let at = at.map(|t| parse_time(&t)).transpose()?;
+            let at = at.map(|t| parse_time(&t, "--at")).transpose()?;
             let incident = seekgrid_incident::load(&file)?;
             let dir = open_output(&out, force, &run_id, &incident.input_files())?;
             let summary = map_incident(&incident, &dir, at, &selection)?;
@@ -188,7 +188,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
             json,
             force,
         } => {
-            let start = parse_time(&start)?;
+            let start = parse_time(&start, "--start")?;
             let incident = seekgrid_incident::load(&file)?;
             let dir = open_output(&out, force, &run_id, &incident.input_files())?;
             let summary = plan_incident(&incident, &dir, start)?;
@@ -229,12 +229,13 @@ fn one_line(s: &seekgrid_render::summary::Summary, out: &Path, run_id: &str) -> 
     )
 }
 
-fn parse_time(t: &str) -> Result<chrono::DateTime<chrono::Utc>, Failure> {
+/// Parses the time given to the command-line option `option` (named in the message).
+fn parse_time(t: &str, option: &str) -> Result<chrono::DateTime<chrono::Utc>, Failure> {
     chrono::DateTime::parse_from_rfc3339(t.trim())
         .map(|d| d.with_timezone(&chrono::Utc))
         .map_err(|_| {
             Failure::bad_input(format!(
-                "--at \"{t}\" is not an RFC 3339 time; write it as 2026-06-14T21:00:00Z"
+                "{option} \"{t}\" is not an RFC 3339 time; write it as 2026-06-14T21:00:00Z"
             ))
         })
 }
