@@ -143,13 +143,15 @@ fn run(cli: Cli) -> Result<(), Failure> {
             // Preparing projects every position and validates every shape and search.
             seekgrid_engine::prepare::prepare(&incident)
                 .map_err(|e| located(&incident, &e.to_string()))?;
+            let size = sized(&incident)?;
             println!(
-                "{}: ok ({} analyst(s), {} scenario(s), {} search(es), {} unit(s))",
+                "{}: ok ({} analyst(s), {} scenario(s), {} search(es), {} unit(s)); {}",
                 file.display(),
                 incident.analysts.len(),
                 incident.scenarios.len(),
                 incident.searches.len(),
-                incident.units.len()
+                incident.units.len(),
+                describe_size(&size)
             );
             Ok(())
         }
@@ -167,6 +169,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
             };
             let at = at.map(|t| parse_time(&t, "--at")).transpose()?;
             let incident = seekgrid_incident::load(&file)?;
+            sized(&incident)?;
             let dir = open_output(&out, force, &run_id, &incident.input_files())?;
             let summary = map_incident(&incident, &dir, at, &selection)?;
             commit(dir)?;
@@ -190,6 +193,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
         } => {
             let start = parse_time(&start, "--start")?;
             let incident = seekgrid_incident::load(&file)?;
+            sized(&incident)?;
             let dir = open_output(&out, force, &run_id, &incident.input_files())?;
             let summary = plan_incident(&incident, &dir, start)?;
             commit(dir)?;
@@ -238,6 +242,43 @@ fn parse_time(t: &str, option: &str) -> Result<chrono::DateTime<chrono::Utc>, Fa
                 "{option} \"{t}\" is not an RFC 3339 time; write it as 2026-06-14T21:00:00Z"
             ))
         })
+}
+
+/// The memory a run may plan to use, bytes: refused above this before anything is allocated.
+const MEMORY_LIMIT_BYTES: u64 = 8 << 30;
+
+/// Sizes the incident's computation and refuses, at the line and column of the input that
+/// drives the size, one that would exceed `[grid] max_cells` or [`MEMORY_LIMIT_BYTES`].
+fn sized(incident: &Incident) -> Result<seekgrid_engine::sizing::SizeEstimate, Failure> {
+    seekgrid_engine::sizing::estimate(incident, MEMORY_LIMIT_BYTES).map_err(|e| {
+        let place = seekgrid_incident::locate::span_of(&incident.text, e.field()).map(|span| {
+            let (line, col) = seekgrid_incident::locate::line_col(&incident.text, span.start);
+            format!(":{line}:{col}")
+        });
+        Failure::bad_input(format!(
+            "{}{}: {e}",
+            incident.path.display(),
+            place.unwrap_or_default()
+        ))
+    })
+}
+
+/// One line saying how large the computation will be.
+fn describe_size(s: &seekgrid_engine::sizing::SizeEstimate) -> String {
+    let mut line = format!(
+        "grid {} x {} cells of {} m, about {} MB",
+        s.rows,
+        s.cols,
+        s.cell_m,
+        s.bytes.div_ceil(1_000_000)
+    );
+    if s.particles > 0 {
+        line.push_str(&format!(
+            "; drift {} particles x {} records",
+            s.particles, s.records
+        ));
+    }
+    line
 }
 
 fn located(incident: &Incident, message: &str) -> Failure {

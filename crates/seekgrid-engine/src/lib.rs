@@ -12,6 +12,7 @@
 
 pub mod planning;
 pub mod prepare;
+pub mod sizing;
 pub mod slices;
 pub mod timeline;
 
