@@ -15,7 +15,7 @@
 
 use crate::heatmap::{GeoreferencedPng, png_set_names, tagged_png};
 use crate::summary::{FileDetails, FileRecord, Summary};
-use crate::{OutputDir, RenderError, outputs, plan_outputs, summary};
+use crate::{OutputDir, RenderError, outputs, plan_outputs, summary, tasking};
 use seekgrid_engine::{IncidentMap, PlanRun};
 use seekgrid_incident::model::Incident;
 use serde::Serialize;
@@ -182,6 +182,13 @@ layers! {
         sidecars: ["plan.pgw", "plan.png.aux.xml", "plan.prj"],
         plan_only: true,
         description: "the plan's areas, tracks and segments over the probability map, georeferenced",
+    }
+    Tasking {
+        name: "tasking",
+        files: ["tasking.toml"],
+        sidecars: [],
+        plan_only: true,
+        description: "the run id, the period and each unit's pattern, sweep width and law (or segments) at full precision, for `seekgrid log --plan`",
     }
     Effort {
         name: "effort",
@@ -480,6 +487,7 @@ fn write_layer(layer: Layer, c: &Computed, out: &mut Recorder) -> Result<(), Ren
         L::Plan => with_plan(layer, c, out, plan_outputs::geojson),
         L::Routes => with_plan(layer, c, out, plan_outputs::gpx),
         L::Briefing => with_plan(layer, c, out, plan_outputs::briefing),
+        L::Tasking => with_plan(layer, c, out, tasking::write),
         L::PlanMap => with_plan(layer, c, out, plan_outputs::picture),
         L::Effort => with_plan(layer, c, out, plan_outputs::effort),
     }
@@ -542,6 +550,14 @@ mod tests {
         assert!(
             err.contains("heatmaps") && err.contains("probability"),
             "{err}"
+        );
+    }
+
+    #[test]
+    fn the_tasking_layer_writes_the_file_seekgrid_log_reads() {
+        assert_eq!(
+            Layer::Tasking.files(),
+            [seekgrid_incident::tasking::TASKING_FILE]
         );
     }
 

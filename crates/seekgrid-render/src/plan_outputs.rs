@@ -1,6 +1,6 @@
 //! The writers of a plan's layers, one per [`Layer`]: GIS layers (`plan.geojson`), GPX routes
 //! (`plan.gpx`), the briefing (`plan.md`) and the pictures (`plan.png`, `effort.png`), and the
-//! plan's part of `summary.json`.
+//! plan's part of `summary.json` (`tasking.toml` is written by [`crate::tasking`]).
 //!
 //! Every headline number is computed once, by [`plan_totals`], so the briefing, the GIS layer,
 //! the picture and the summary say the same thing.
