@@ -1,7 +1,7 @@
 //! The timeline of an incident: the prior at the reference time, drift carried forward, and
 //! every completed search applied in time order as a Bayesian update.
 
-use crate::prepare::{PrepareError, Prepared, PreparedSearch, prepare};
+use crate::prepare::{PrepareError, Prepared, PreparedGeometry, PreparedSearch, prepare};
 use crate::slices;
 use geo::Coord;
 use ndarray::Array2;
@@ -42,7 +42,7 @@ pub struct SearchReport {
     pub evaluated_at: Time,
     /// Sweep width of the unit, metres.
     pub sweep_width_m: f64,
-    /// Detection law, as written in the incident file ([`law_name`]).
+    /// Detection law, as written in the incident file ([`search::DetectionLaw::name`]).
     pub detection: &'static str,
     /// Track spacing of a parallel sweep, creeping line or expanding square, metres; `None`
     /// for a sector search and for a followed track.
@@ -612,8 +612,8 @@ impl SearchPod {
             let p = belief.particles();
             (0..p.len()).map(|i| p.position(i)).collect()
         };
-        match (&s.pattern, &s.track) {
-            (Some(p), _) => Ok(Self {
+        match &s.geometry {
+            PreparedGeometry::Pattern(p) => Ok(Self {
                 layer: search::pattern_pod(grid, p, s.law, sw)?,
                 particle_pod: match sliced {
                     Some(pod) => pod,
@@ -622,7 +622,7 @@ impl SearchPod {
                 track: p.tracks(),
                 area: Some(p.area_polygon()),
             }),
-            (None, Some(tr)) => Ok(Self {
+            PreparedGeometry::Track { points: tr, .. } => Ok(Self {
                 layer: search::track_pod(grid, tr, s.law, sw)?,
                 particle_pod: match sliced {
                     Some(pod) => pod,
@@ -631,7 +631,6 @@ impl SearchPod {
                 track: geo::LineString(tr.clone()),
                 area: None,
             }),
-            (None, None) => unreachable!("a prepared search has a pattern or a track"),
         }
     }
 }
@@ -645,13 +644,13 @@ impl SearchReport {
         pod: SearchPod,
     ) -> Self {
         let sw = &s.sweep_width;
-        let (coverage, pod_pattern, track_spacing_m) = match &s.pattern {
+        let (coverage, pod_pattern, track_spacing_m) = match s.pattern() {
             Some(p) => {
                 let c = p.coverage(sw);
                 (
                     Some(c),
                     Some(s.law.pod_from_coverage(c)),
-                    pattern_spacing(p),
+                    p.track_spacing_m(),
                 )
             }
             None => (None, None, None),
@@ -663,7 +662,7 @@ impl SearchReport {
             end: s.def.end,
             evaluated_at,
             sweep_width_m: sw.metres(),
-            detection: law_name(s.law),
+            detection: s.law.name(),
             track_spacing_m,
             track_length_m: euclid_length(&pod.track),
             coverage,
@@ -769,21 +768,6 @@ impl Searched<'_> {
     }
 }
 
-fn pattern_spacing(p: &search::Pattern) -> Option<f64> {
-    match p {
-        search::Pattern::ParallelSweep {
-            track_spacing_m, ..
-        }
-        | search::Pattern::CreepingLine {
-            track_spacing_m, ..
-        }
-        | search::Pattern::ExpandingSquare {
-            track_spacing_m, ..
-        } => Some(*track_spacing_m),
-        search::Pattern::SectorSearch { .. } => None,
-    }
-}
-
 fn euclid_length(l: &geo::LineString<f64>) -> f64 {
     l.0.windows(2)
         .map(|w| (w[1].x - w[0].x).hypot(w[1].y - w[0].y))
@@ -854,16 +838,6 @@ fn particle_clouds(drift_runs: &[(String, drift::DriftRun)]) -> Vec<std::ops::Ra
             r
         })
         .collect()
-}
-
-/// The name of a detection law as written in the incident file.
-#[must_use]
-pub fn law_name(law: search::DetectionLaw) -> &'static str {
-    match law {
-        search::DetectionLaw::InverseCube => "inverse-cube",
-        search::DetectionLaw::Exponential => "exponential",
-        search::DetectionLaw::DefiniteRange => "definite-range",
-    }
 }
 
 impl IncidentMap {

@@ -11,7 +11,7 @@ use geo::Coord;
 use ndarray::Array2;
 use seekgrid_core::units::SECONDS_PER_HOUR;
 use seekgrid_core::{Belief, GridSpec, neumaier_sum};
-use seekgrid_search::{DetectionLaw, Pattern, PodLayer, SweepWidth};
+use seekgrid_search::{DetectionLaw, Pattern, PodLayer, Rectangle, SweepWidth};
 
 /// One straight leg of a pattern.
 #[derive(Clone, Debug, PartialEq)]
@@ -948,13 +948,13 @@ fn flown_pattern(
                 let rear = half_mass(prefix, center, th, ln, sh, Half::Rear);
                 let front = half_mass(prefix, center, th, ln, sh, Half::Front);
                 let bearing = if rear >= front { th } else { th + 180.0 };
-                return Pattern::CreepingLine {
+                return Pattern::CreepingLine(Rectangle {
                     center,
                     length_m: ln,
                     width_m: sh,
                     major_grid_bearing_deg: bearing.rem_euclid(360.0),
                     track_spacing_m: spacing_m,
-                };
+                });
             }
             if creeping {
                 notes.push(format!(
@@ -964,13 +964,13 @@ fn flown_pattern(
             // Legs along the long side (fewest turns) when the whole legs of that fit the
             // track; the area and its POD are the same either way.
             let (theta, long, short) = if short > long {
-                let turned = Pattern::ParallelSweep {
+                let turned = Pattern::ParallelSweep(Rectangle {
                     center,
                     length_m: short,
                     width_m: long,
                     major_grid_bearing_deg: theta_deg + 90.0,
                     track_spacing_m: spacing_m,
-                };
+                });
                 if turned.validate().is_ok() && turned.track_length_m() <= u.track_m * (1.0 + 1e-9)
                 {
                     (theta_deg + 90.0, short, long)
@@ -984,13 +984,13 @@ fn flown_pattern(
             let left = half_mass(prefix, center, theta, long, short, Half::Left);
             let right = half_mass(prefix, center, theta, long, short, Half::Right);
             let bearing = if left >= right { theta } else { theta + 180.0 };
-            Pattern::ParallelSweep {
+            Pattern::ParallelSweep(Rectangle {
                 center,
                 length_m: long,
                 width_m: short,
                 major_grid_bearing_deg: bearing.rem_euclid(360.0),
                 track_spacing_m: spacing_m,
-            }
+            })
         }
         _ => sh.pattern(u),
     }

@@ -115,6 +115,9 @@ pub struct DriftSummary {
 pub struct Summary {
     /// The caution.
     pub caution: &'static str,
+    /// The run that wrote this summary and the layers beside it (filled in by the writer).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub run_id: Option<String>,
     /// Title.
     pub title: String,
     /// Notes from the incident.
@@ -168,18 +171,6 @@ pub struct Summary {
     pub plan: Option<serde_json::Value>,
 }
 
-fn kind_name(k: &seekgrid_incident::model::ScenarioKind) -> &'static str {
-    use seekgrid_incident::model::ScenarioKind as K;
-    match k {
-        K::Point { .. } => "point",
-        K::Route { .. } => "route",
-        K::Area { .. } => "area",
-        K::Segments { .. } => "segments",
-        K::Rings { .. } => "rings",
-        K::Drift(_) => "drift",
-    }
-}
-
 /// The summary of a computed map.
 #[must_use]
 pub fn summarise(incident: &Incident, m: &IncidentMap) -> Summary {
@@ -215,7 +206,7 @@ pub fn summarise(incident: &Incident, m: &IncidentMap) -> Summary {
         .map(|(s, (_, _, w))| ScenarioSummary {
             id: s.id.clone(),
             analyst: s.analyst.clone(),
-            kind: kind_name(&s.kind),
+            kind: s.kind.name(),
             weight: *w,
         })
         .collect();
@@ -260,6 +251,7 @@ pub fn summarise(incident: &Incident, m: &IncidentMap) -> Summary {
         .collect();
     Summary {
         caution: CAUTION,
+        run_id: None,
         title: incident.title.clone(),
         notes: incident.notes.clone(),
         reference_time: incident.reference_time.to_rfc3339(),
