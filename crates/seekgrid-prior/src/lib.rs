@@ -89,8 +89,4 @@ pub use model::{
     Segment, auto_extent,
 };
 pub use pool::{AnalystDiagnostics, Diagnostics, Prior, combine};
-
-/// The former name of [`ScenarioShape`], kept so that callers not yet renamed keep compiling;
-/// new code uses [`ScenarioShape`]. To be removed once no caller uses it.
-pub type Shape = ScenarioShape;
 pub use table::{SegmentRow, segment_table};
