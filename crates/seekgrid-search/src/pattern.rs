@@ -9,7 +9,7 @@ use crate::error::SearchError;
 use crate::law::{DetectionLaw, SweepWidth};
 use crate::pod_layer::PodLayer;
 use crate::track::{track_pod, track_pod_at};
-use geo::{Area, Coord, LineString, MultiPolygon, Polygon};
+use geo::{Area, Coord, Euclidean, Length, LineString, MultiPolygon, Polygon};
 use seekgrid_core::GridSpec;
 
 /// Most legs a pattern may have (protects against a track spacing typed in the wrong unit):
@@ -307,27 +307,16 @@ impl Pattern {
     pub fn tracks(&self) -> LineString<f64> {
         let mut pts = Vec::new();
         match *self {
-            Self::ParallelSweep(Rectangle {
-                center,
-                length_m,
-                width_m,
-                major_grid_bearing_deg,
-                track_spacing_m,
-            }) => {
-                let (major, minor) = rectangle_sides(major_grid_bearing_deg, length_m, width_m);
-                // Legs along the major axis, stepping across it.
-                back_and_forth(&mut pts, center, major, minor, track_spacing_m);
-            }
-            Self::CreepingLine(Rectangle {
-                center,
-                length_m,
-                width_m,
-                major_grid_bearing_deg,
-                track_spacing_m,
-            }) => {
-                let (major, minor) = rectangle_sides(major_grid_bearing_deg, length_m, width_m);
-                // Legs across the major axis, creeping along it.
-                back_and_forth(&mut pts, center, minor, major, track_spacing_m);
+            Self::ParallelSweep(r) | Self::CreepingLine(r) => {
+                let (major, minor) = r.sides();
+                // A parallel sweep's legs run along the major axis, stepping across it; a
+                // creeping line's run across it, creeping along it.
+                let (leg, step) = if matches!(self, Self::ParallelSweep(_)) {
+                    (major, minor)
+                } else {
+                    (minor, major)
+                };
+                back_and_forth(&mut pts, r.center, leg, step, r.track_spacing_m);
             }
             Self::ExpandingSquare {
                 center,
@@ -370,7 +359,7 @@ impl Pattern {
     /// Length of [`Pattern::tracks`], metres.
     #[must_use]
     pub fn track_length_m(&self) -> f64 {
-        self.tracks().lines().map(|l| l.dx().hypot(l.dy())).sum()
+        Euclidean.length(&self.tracks())
     }
 
     /// Coverage of the pattern with sweep width `w`: `W / S` for the parallel sweep, creeping
@@ -496,23 +485,21 @@ fn back_and_forth(
     }
 }
 
-/// The major side (along the major grid bearing, `length_m`) and the minor side (90° clockwise
-/// from it, `width_m`) of a rectangle.
-fn rectangle_sides(
-    major_grid_bearing_deg: f64,
-    length_m: f64,
-    width_m: f64,
-) -> (RectangleSide, RectangleSide) {
-    (
-        RectangleSide {
-            direction: unit(major_grid_bearing_deg),
-            extent_m: length_m,
-        },
-        RectangleSide {
-            direction: unit(major_grid_bearing_deg + 90.0),
-            extent_m: width_m,
-        },
-    )
+impl Rectangle {
+    /// The major side (along the major grid bearing, `length_m`) and the minor side (90°
+    /// clockwise from it, `width_m`).
+    fn sides(&self) -> (RectangleSide, RectangleSide) {
+        (
+            RectangleSide {
+                direction: unit(self.major_grid_bearing_deg),
+                extent_m: self.length_m,
+            },
+            RectangleSide {
+                direction: unit(self.major_grid_bearing_deg + 90.0),
+                extent_m: self.width_m,
+            },
+        )
+    }
 }
 
 fn legs_across(extent_m: f64, spacing_m: f64) -> usize {
