@@ -4,7 +4,7 @@
 //! Adding a layer takes four steps, and the compiler or a test stops you at each one you forget:
 //! 1. a row in the `layers!` table below (variant, name, files, sidecars, description);
 //! 2. its writer: one function taking the computed result ([`Computed`]) and a [`Recorder`],
-//!    named in the `match` of [`write_layer`] (the match is exhaustive, so a layer without a
+//!    named in the `match` of `write_layer` (the match is exhaustive, so a layer without a
 //!    writer does not compile);
 //! 3. its row in README.md's "What a run writes" table (a test of the CLI compares every row
 //!    with this table, and checks that `seekgrid map --help` / `seekgrid plan --help` list it);
