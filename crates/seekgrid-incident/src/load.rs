@@ -502,6 +502,18 @@ impl Validator<'_> {
                 });
             }
         }
+        self.analysts_have_scenarios(raw, analysts, &with_scenarios);
+        out
+    }
+
+    /// Every analyst has a scenario, and their scenarios' weights are within
+    /// [`MAX_WEIGHT_RATIO`] of one another.
+    fn analysts_have_scenarios(
+        &mut self,
+        raw: &RawFile,
+        analysts: &[AnalystDef],
+        with_scenarios: &HashSet<String>,
+    ) {
         for (i, a) in analysts.iter().enumerate() {
             if !with_scenarios.contains(&a.id) && !raw.scenarios.is_empty() {
                 self.err(
@@ -529,7 +541,6 @@ impl Validator<'_> {
                 &format!("weights of analyst \"{}\"'s scenarios", a.id),
             );
         }
-        out
     }
 
     /// The scenario's kind, read by the step of its kind, then checked by the prior crate.

@@ -5,4 +5,5 @@ mod end_to_end;
 mod external;
 mod frame_vs_proj;
 mod golden;
+mod located;
 mod output_folder;

@@ -137,25 +137,49 @@ pub(super) fn shape(
                 "the POA values add up to {sum:.4}, more than 1; give fractions whose sum is at most 1 (the rest is rest of world)"
             ),
         ),
-        (ShapeError::NoQuantiles, _) => (
-            field("distance_quantiles_km"),
+        (
+            ShapeError::NoQuantiles
+            | ShapeError::BadFraction { .. }
+            | ShapeError::BadRadius { .. }
+            | ShapeError::QuantilesNotIncreasing { .. },
+            ScenarioKind::Rings { quantiles, .. },
+        ) => ring(at, raw, quantiles, e),
+        (_, ScenarioKind::Area { file, .. }) => (
+            Place::File(file.clone()),
+            area_message(e, files.feature_of_polygon.get(file)),
+        ),
+        (_, ScenarioKind::Segments { file, .. }) => (Place::File(file.clone()), e.to_string()),
+        (other, _) => (Place::Field(at.clone()), other.to_string()),
+    }
+}
+
+/// A rings scenario's quantile problem, at the key of the ring it names.
+fn ring(
+    at: &FieldPath,
+    raw: &RawScenario,
+    quantiles: &[(f64, f64)],
+    e: &ShapeError,
+) -> (Place, String) {
+    match e {
+        ShapeError::NoQuantiles => (
+            Place::Field(at.key("distance_quantiles_km")),
             "no distance quantiles given".into(),
         ),
-        (ShapeError::BadFraction { index, .. }, _) => {
+        ShapeError::BadFraction { index, .. } => {
             let key = ring_key(raw, *index);
             (
                 Place::Field(at.key("distance_quantiles_km").key(&key)),
                 format!("percentage {key} is outside 0..100"),
             )
         }
-        (ShapeError::BadRadius { index, radius_m }, _) => (
+        ShapeError::BadRadius { index, radius_m } => (
             Place::Field(at.key("distance_quantiles_km").key(&ring_key(raw, *index))),
             format!(
                 "a ring distance must be a positive number, got {}",
                 radius_m / 1000.0
             ),
         ),
-        (ShapeError::QuantilesNotIncreasing { index }, ScenarioKind::Rings { quantiles, .. }) => {
+        ShapeError::QuantilesNotIncreasing { index } => {
             let key = ring_key(raw, *index);
             let twice = *index > 0 && quantiles[*index].0 == quantiles[*index - 1].0;
             let message = if twice {
@@ -171,12 +195,7 @@ pub(super) fn shape(
                 message,
             )
         }
-        (_, ScenarioKind::Area { file, .. }) => (
-            Place::File(file.clone()),
-            area_message(e, files.feature_of_polygon.get(file)),
-        ),
-        (_, ScenarioKind::Segments { file, .. }) => (Place::File(file.clone()), e.to_string()),
-        (other, _) => (Place::Field(at.clone()), other.to_string()),
+        other => (Place::Field(at.clone()), other.to_string()),
     }
 }
 
