@@ -10,6 +10,7 @@
 pub mod error;
 pub mod file;
 pub mod geofiles;
+pub mod input;
 pub mod load;
 pub mod locate;
 pub mod model;

@@ -3,11 +3,12 @@
 //! a centre in metres, a fraction instead of a percentage).
 
 use super::SegmentFiles;
-use crate::file::{RawScenario, RawShape};
+use crate::file::{RawScenario, RawShape, RawUnit};
 use crate::locate::FieldPath;
 use crate::model::{DriftDef, ScenarioKind, VectorDef};
 use geo::Coord;
 use seekgrid_drift::DriftError;
+use seekgrid_plan::PlanError;
 use seekgrid_prior::ShapeError;
 use seekgrid_search::SearchError;
 use std::convert::Infallible;
@@ -312,5 +313,36 @@ pub(super) fn drift(at: &FieldPath, def: &DriftDef, e: &DriftError) -> (Place, S
             (Place::Field(at.key(field)), e.to_string())
         }
         other => (Place::Field(at.clone()), other.to_string()),
+    }
+}
+
+/// A unit the plan crate refuses, named by the field as written (`speed_kn` or `speed_kmh`
+/// for the speed it checks in m/s, so that a speed too small to survive the conversion is
+/// refused too).
+pub(super) fn unit(at: &FieldPath, u: &RawUnit, e: &PlanError) -> (FieldPath, String) {
+    match e {
+        PlanError::BadUnit { field, value, .. } => match *field {
+            "id" => (at.key("id"), "the unit id is empty; give it a name".into()),
+            "searchers" => (
+                at.key("searchers"),
+                "a ground team needs at least one searcher".into(),
+            ),
+            "speed_mps" => {
+                let (name, written) = match (u.speed_kn, u.speed_kmh) {
+                    (Some(kn), _) => ("speed_kn", kn),
+                    (_, Some(kmh)) => ("speed_kmh", kmh),
+                    _ => ("speed_kn", *value),
+                };
+                (
+                    at.key(name),
+                    format!("{name} must be a positive number, got {written}"),
+                )
+            }
+            name => (
+                at.key(name),
+                format!("{name} must be a positive number, got {value}"),
+            ),
+        },
+        other => (at.clone(), other.to_string()),
     }
 }
