@@ -1665,9 +1665,9 @@ const PATTERN_RULES: &[Row] = &[
         &["at most 10 000 km"],
     ),
     (
-        // 16 legs of up to 8 spacings of 1000 km.
+        // 16 legs, the last of 8 spacings of 2000 km.
         Key("search[2].pattern.legs"),
-        Replace("track_spacing_m = 700", "track_spacing_m = 1000000"),
+        Replace("track_spacing_m = 700", "track_spacing_m = 2000000"),
         &["last leg would be longer than 10 000 km"],
     ),
     (
@@ -2102,7 +2102,7 @@ const CSV_RULES: &[Row] = &[
     (
         InFile("current-field.csv", Some(1)),
         WriteBytes("current-field.csv", b"lon,lat,time,u_kn,\xff\xfe\n"),
-        &["unreadable header"],
+        &["not UTF-8", "save the file as UTF-8"],
     ),
     (
         InFile("wind.csv", Some(4)),

@@ -335,7 +335,8 @@ pub(super) fn unit(at: &FieldPath, u: &RawUnit, e: &PlanError) -> (FieldPath, St
                 };
                 (
                     at.key(name),
-                    format!("{name} must be a positive number, got {written}"),
+                    // Debug keeps an extreme value short (5e-324).
+                    format!("{name} must be a positive number, got {written:?}"),
                 )
             }
             name => (
