@@ -345,7 +345,7 @@ fn stationary(
         id: s.id.clone(),
         source: Box::new(source),
     })?;
-    if let (None, prior::Shape::Segments { segments, .. }) = (&out.segments, &shape) {
+    if let (None, prior::ScenarioShape::Segments { segments, .. }) = (&out.segments, &shape) {
         out.segments = Some(segments.clone());
     }
     match out
@@ -477,6 +477,23 @@ impl PreparedSearch {
         match &self.geometry {
             PreparedGeometry::Pattern(p) => Some(p),
             PreparedGeometry::Track { .. } => None,
+        }
+    }
+
+    /// Whether the search's area or track comes within one sweep width of the box `b` (e.g. a
+    /// grid's extent): false when it lies wholly outside, where it can find nothing.
+    #[must_use]
+    pub fn reaches(&self, b: &ProjectedBox) -> bool {
+        use geo::Intersects;
+        let grown = b.expanded(self.sweep_width.metres()).to_polygon();
+        match &self.geometry {
+            PreparedGeometry::Pattern(p) => p.area_polygon().intersects(&grown),
+            PreparedGeometry::Track { points: t, .. } if t.len() == 1 => {
+                grown.intersects(&geo::Point(t[0]))
+            }
+            PreparedGeometry::Track { points: t, .. } => {
+                geo::LineString(t.clone()).intersects(&grown)
+            }
         }
     }
 

@@ -1088,7 +1088,7 @@ impl Validator<'_> {
         let detection = self.detection(&at.key("detection"), u.detection.as_deref());
         let speed_mps = match (u.speed_kn, u.speed_kmh) {
             (Some(kn), None) => seekgrid_core::units::knots_to_mps(kn),
-            (None, Some(kmh)) => kmh * seekgrid_core::units::MPS_PER_KMH,
+            (None, Some(kmh)) => seekgrid_core::units::kmh_to_mps(kmh),
             _ => {
                 self.err(&at, "give exactly one of speed_kn or speed_kmh");
                 return None;

@@ -52,6 +52,7 @@ pub mod outputs;
 pub mod plan_outputs;
 mod probability;
 pub mod summary;
+pub mod tasking;
 pub mod vector;
 
 pub use containment::containment_geojson;
