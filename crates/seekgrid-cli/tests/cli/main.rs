@@ -7,5 +7,6 @@ mod external;
 mod frame_vs_proj;
 mod golden;
 mod layers;
+mod located;
 mod log;
 mod output_folder;
