@@ -6,6 +6,7 @@ mod log;
 
 use clap::{Parser, Subcommand};
 use seekgrid_engine::timeline::{MapError, MapOptions};
+use seekgrid_incident::model::Item;
 use seekgrid_incident::{Incident, IncidentErrors};
 use seekgrid_render::outputs::OutputSelection;
 use seekgrid_render::summary::CAUTION;
@@ -148,7 +149,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
             let incident = seekgrid_incident::load(&file)?;
             // Preparing projects every position and validates every shape and search.
             seekgrid_engine::prepare::prepare(&incident)
-                .map_err(|e| located(&incident, &e.to_string()))?;
+                .map_err(|e| located(&incident, Some(e.item()), &e.to_string()))?;
             println!(
                 "{}: ok ({} analyst(s), {} scenario(s), {} search(es), {} unit(s))",
                 file.display(),
@@ -255,8 +256,13 @@ fn parse_time_named(name: &str, t: &str) -> Result<chrono::DateTime<chrono::Utc>
         })
 }
 
-fn located(incident: &Incident, message: &str) -> Failure {
-    Failure::bad_input(format!("{}: {message}", incident.path.display()))
+/// A bad-input failure at the place in the incident file of the item it concerns
+/// (`FILE:LINE:COL: message`), or at the file when no item is named.
+fn located(incident: &Incident, item: Option<Item>, message: &str) -> Failure {
+    match item {
+        Some(item) => Failure::bad_input(incident.error_at(&item, message).to_string()),
+        None => Failure::bad_input(format!("{}: {message}", incident.path.display())),
+    }
 }
 
 /// Maps an incident into `dir`; shared by `map` and `demo`.
@@ -271,7 +277,7 @@ fn map_incident(
     });
     let m = result.map_err(|e| match e {
         MapError::Belief(_) => Failure::failed(format!("{}: {e}", incident.path.display())),
-        other => located(incident, &other.to_string()),
+        other => located(incident, other.item(), &other.to_string()),
     })?;
     seekgrid_render::outputs::write(incident, &m, dir, selection)
         .map_err(|e| Failure::failed(e.to_string()))
@@ -285,7 +291,7 @@ fn plan_incident(
 ) -> Result<seekgrid_render::summary::Summary, Failure> {
     let result =
         with_progress(|progress| seekgrid_engine::planning::plan_at(incident, start, progress));
-    let run = result.map_err(|e| located(incident, &e.to_string()))?;
+    let run = result.map_err(|e| located(incident, e.item(), &e.to_string()))?;
     seekgrid_render::plan_outputs::write(incident, &run, dir)
         .map_err(|e| Failure::failed(e.to_string()))
 }

@@ -69,6 +69,8 @@ pub type Time = chrono::DateTime<chrono::Utc>;
 pub use environment::{Convention, Environment, GridSample, GriddedField, VectorEstimate};
 pub use error::DriftError;
 pub use land::LandMask;
-pub use leeway::Leeway;
-pub use simulate::{DriftRun, DriftScenario, ParticleSnapshot, SimulationOptions, simulate};
+pub use leeway::{Leeway, MAX_JIBE_PER_H};
+pub use simulate::{
+    DriftRun, DriftScenario, MAX_PARTICLES, ParticleSnapshot, SimulationOptions, simulate,
+};
 pub use spread::{Ellipse, Spread, containment_radius_factor};

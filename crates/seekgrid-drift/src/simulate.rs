@@ -672,6 +672,9 @@ fn point_scale(frame: &Frame, lon_deg: f64, lat_deg: f64) -> f64 {
     grid / (m * (2.0 * d).to_radians())
 }
 
+/// Most particles a drift scenario may ask for (20 000 000: 16 bytes each per record time).
+pub const MAX_PARTICLES: usize = 20_000_000;
+
 fn check_finite_non_negative(field: &str, value: f64) -> Result<(), DriftError> {
     if !value.is_finite() {
         return Err(DriftError::NotFinite {
@@ -726,6 +729,11 @@ impl DriftScenario {
         check_finite_non_negative("diffusivity_m2_s", self.diffusivity_m2_s)?;
         if self.particles == 0 {
             return Err(DriftError::NoParticles);
+        }
+        if self.particles > MAX_PARTICLES {
+            return Err(DriftError::TooManyParticles {
+                particles: self.particles,
+            });
         }
         Ok(())
     }

@@ -6,10 +6,14 @@
 //!   applied in time order as a Bayesian update, returned as an [`IncidentMap`].
 //! * [`planning::plan_at`] plans the next period against the belief at its start.
 //!
+//! Every error of the engine can name the part of the incident file it concerns
+//! ([`MapError::item`], [`PlanRunError::item`], [`prepare::PrepareError::item`]).
+//!
 //! The engine knows the incident model (`seekgrid-incident`) and the search theory crates; it
 //! knows no output format (no GeoJSON, no JSON, no pictures) and does no I/O: every file a user
 //! receives is written by `seekgrid-render` from the values returned here.
 
+mod located;
 pub mod planning;
 pub mod prepare;
 pub mod slices;

@@ -1,7 +1,7 @@
 //! The timeline of an incident: the prior at the reference time, drift carried forward, and
 //! every completed search applied in time order as a Bayesian update.
 
-use crate::prepare::{PrepareError, Prepared, PreparedSearch, prepare};
+use crate::prepare::{PrepareError, Prepared, PreparedGeometry, PreparedSearch, prepare};
 use crate::slices;
 use geo::Coord;
 use ndarray::Array2;
@@ -41,7 +41,7 @@ pub struct SearchReport {
     pub evaluated_at: Time,
     /// Sweep width of the unit, metres.
     pub sweep_width_m: f64,
-    /// Detection law, as written in the incident file ([`law_name`]).
+    /// Detection law, as written in the incident file ([`search::DetectionLaw::name`]).
     pub detection: &'static str,
     /// Track spacing of a parallel sweep, creeping line or expanding square, metres; `None`
     /// for a sector search and for a followed track.
@@ -353,8 +353,8 @@ pub fn map(
             Some(parts) => Some(sliced_particle_pod(parts, &place, s.law, sw).map_err(err)?),
             None => None,
         };
-        let (layer, particle_pod, track_line, area) = match (&s.pattern, &s.track) {
-            (Some(p), _) => (
+        let (layer, particle_pod, track_line, area) = match &s.geometry {
+            PreparedGeometry::Pattern(p) => (
                 search::pattern_pod(&grid, p, s.law, sw).map_err(err)?,
                 match sliced {
                     Some(pod) => pod,
@@ -363,7 +363,7 @@ pub fn map(
                 p.tracks(),
                 Some(p.area_polygon()),
             ),
-            (None, Some(tr)) => (
+            PreparedGeometry::Track { points: tr, .. } => (
                 search::track_pod(&grid, tr, s.law, sw).map_err(err)?,
                 match sliced {
                     Some(pod) => pod,
@@ -372,7 +372,6 @@ pub fn map(
                 geo::LineString(tr.clone()),
                 None,
             ),
-            (None, None) => unreachable!("a prepared search has a pattern or a track"),
         };
         let before_cells = belief.cells().clone();
         let before_weights = belief.particles().weights().to_vec();
@@ -392,13 +391,13 @@ pub fn map(
         layer.combine_into(cumulative).map_err(err)?;
         miss_all *= 1.0 - outcome.pos;
         let track_length_m = euclid_length(&track_line);
-        let (coverage, pod_pattern, track_spacing_m) = match &s.pattern {
+        let (coverage, pod_pattern, track_spacing_m) = match s.pattern() {
             Some(p) => {
                 let c = p.coverage(sw);
                 (
                     Some(c),
                     Some(s.law.pod_from_coverage(c)),
-                    pattern_spacing(p),
+                    p.track_spacing_m(),
                 )
             }
             None => (None, None, None),
@@ -410,7 +409,7 @@ pub fn map(
             end: s.def.end,
             evaluated_at: t,
             sweep_width_m: sw.metres(),
-            detection: law_name(s.law),
+            detection: s.law.name(),
             track_spacing_m,
             track_length_m,
             coverage,
@@ -530,21 +529,6 @@ impl Searched<'_> {
     }
 }
 
-fn pattern_spacing(p: &search::Pattern) -> Option<f64> {
-    match p {
-        search::Pattern::ParallelSweep {
-            track_spacing_m, ..
-        }
-        | search::Pattern::CreepingLine {
-            track_spacing_m, ..
-        }
-        | search::Pattern::ExpandingSquare {
-            track_spacing_m, ..
-        } => Some(*track_spacing_m),
-        search::Pattern::SectorSearch { .. } => None,
-    }
-}
-
 fn euclid_length(l: &geo::LineString<f64>) -> f64 {
     l.0.windows(2)
         .map(|w| (w[1].x - w[0].x).hypot(w[1].y - w[0].y))
@@ -610,16 +594,6 @@ fn particle_clouds(drift_runs: &[(String, drift::DriftRun)]) -> Vec<std::ops::Ra
             r
         })
         .collect()
-}
-
-/// The name of a detection law as written in the incident file.
-#[must_use]
-pub fn law_name(law: search::DetectionLaw) -> &'static str {
-    match law {
-        search::DetectionLaw::InverseCube => "inverse-cube",
-        search::DetectionLaw::Exponential => "exponential",
-        search::DetectionLaw::DefiniteRange => "definite-range",
-    }
 }
 
 impl IncidentMap {

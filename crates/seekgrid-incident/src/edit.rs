@@ -926,7 +926,7 @@ sweep_width_m = 800            # invented
         );
         assert!(
             e.to_string()
-                .contains("sweep_width_m must be a positive number"),
+                .contains("search[1].sweep_width_m: sweep width -5 m is not usable"),
             "{e}"
         );
         untouched(dir.path(), &path, FILE);

@@ -133,6 +133,17 @@ fn features(file: &Path, gj: geojson::GeoJson) -> Result<Vec<geojson::Feature>, 
 /// # Errors
 /// Unreadable file, invalid GeoJSON, a geometry that is not a polygon, positions out of range.
 pub fn read_polygons(file: &Path) -> Result<MultiPolygon<f64>, IncidentError> {
+    Ok(MultiPolygon(
+        read_polygon_features(file)?.into_iter().flatten().collect(),
+    ))
+}
+
+/// Reads the polygons of each feature of a GeoJSON file (lon/lat), in file order, so that a
+/// later problem can name its feature.
+///
+/// # Errors
+/// As [`read_polygons`].
+pub fn read_polygon_features(file: &Path) -> Result<Vec<MultiPolygon<f64>>, IncidentError> {
     let text = read_text(file, "polygon file")?;
     let mut out = Vec::new();
     for (i, f) in features(file, parse_geojson(file, &text)?)?
@@ -143,9 +154,9 @@ pub fn read_polygons(file: &Path) -> Result<MultiPolygon<f64>, IncidentError> {
         let g = f.geometry.as_ref().ok_or_else(|| {
             IncidentError::whole_file(ErrorKind::Invalid, file, format!("{what} has no geometry"))
         })?;
-        out.extend(geometry_polygons(file, &what, g)?);
+        out.push(geometry_polygons(file, &what, g)?);
     }
-    Ok(MultiPolygon(out))
+    Ok(out)
 }
 
 /// Reads map segments: polygon features each with an `id` property (text or number).
@@ -319,10 +330,17 @@ fn csv_rows(
     what: &str,
 ) -> Result<(csv::StringRecord, Vec<csv::StringRecord>), IncidentError> {
     let mut rdr = csv_reader(file, what)?;
-    let headers = rdr
+    let mut headers = rdr
         .headers()
-        .map_err(|e| csv_error(file, 1, format!("unreadable header: {e}")))?
+        .map_err(|e| {
+            let line = e.position().map_or(1, csv::Position::line);
+            csv_error(file, line, format!("unreadable header: {e}"))
+        })?
         .clone();
+    // The reader stands at the line after the header (comment lines before it included).
+    let mut at = csv::Position::new();
+    at.set_line(rdr.position().line().saturating_sub(1).max(1));
+    headers.set_position(Some(at));
     let records = rdr
         .records()
         .map(|rec| {
@@ -358,7 +376,7 @@ fn field<'r>(
     let i = headers.iter().position(|h| h == name).ok_or_else(|| {
         csv_error(
             file,
-            1,
+            headers.position().map_or(1, csv::Position::line),
             format!(
                 "no column \"{name}\"; the header must name {}",
                 headers.iter().collect::<Vec<_>>().join(", ")
@@ -476,11 +494,13 @@ pub fn read_field(file: &Path) -> Result<Vec<FieldSample>, IncidentError> {
         let line = rec.position().map_or(0, csv::Position::line);
         let lon = number(file, &rec, &headers, "lon")?;
         let lat = number(file, &rec, &headers, "lat")?;
-        if !(-180.0..=180.0).contains(&lon) || !(-90.0..=90.0).contains(&lat) {
+        if !(-180.0..=180.0).contains(&lon) || !(-80.0..=84.0).contains(&lat) {
             return Err(csv_error(
                 file,
                 line,
-                format!("[{lon}, {lat}] is not a lon, lat position"),
+                format!(
+                    "[{lon}, {lat}] is not a lon, lat position within the UTM range (latitude -80..84)"
+                ),
             ));
         }
         out.push(FieldSample {

@@ -10,7 +10,7 @@ use crate::unit::{UnitKind, UnitSpec, validate_units};
 use geo::Coord;
 use ndarray::Array2;
 use seekgrid_core::{Belief, GridSpec, neumaier_sum};
-use seekgrid_search::{DetectionLaw, Pattern, PodLayer, SweepWidth};
+use seekgrid_search::{DetectionLaw, Pattern, PodLayer, Rectangle, SweepWidth};
 
 /// One straight leg of a pattern.
 #[derive(Clone, Debug, PartialEq)]
@@ -913,13 +913,13 @@ fn flown_pattern(
                 let rear = half_mass(prefix, center, th, ln, sh, -1.0, true);
                 let front = half_mass(prefix, center, th, ln, sh, 1.0, true);
                 let bearing = if rear >= front { th } else { th + 180.0 };
-                return Pattern::CreepingLine {
+                return Pattern::CreepingLine(Rectangle {
                     center,
                     length_m: ln,
                     width_m: sh,
                     major_grid_bearing_deg: bearing.rem_euclid(360.0),
                     track_spacing_m: spacing_m,
-                };
+                });
             }
             if creeping {
                 notes.push(format!(
@@ -929,13 +929,13 @@ fn flown_pattern(
             // Legs along the long side (fewest turns) when the whole legs of that fit the
             // track; the area and its POD are the same either way.
             let (theta, long, short) = if short > long {
-                let turned = Pattern::ParallelSweep {
+                let turned = Pattern::ParallelSweep(Rectangle {
                     center,
                     length_m: short,
                     width_m: long,
                     major_grid_bearing_deg: theta_deg + 90.0,
                     track_spacing_m: spacing_m,
-                };
+                });
                 if turned.validate().is_ok() && turned.track_length_m() <= u.track_m * (1.0 + 1e-9)
                 {
                     (theta_deg + 90.0, short, long)
@@ -949,13 +949,13 @@ fn flown_pattern(
             let left = half_mass(prefix, center, theta, long, short, -1.0, false);
             let right = half_mass(prefix, center, theta, long, short, 1.0, false);
             let bearing = if left >= right { theta } else { theta + 180.0 };
-            Pattern::ParallelSweep {
+            Pattern::ParallelSweep(Rectangle {
                 center,
                 length_m: long,
                 width_m: short,
                 major_grid_bearing_deg: bearing.rem_euclid(360.0),
                 track_spacing_m: spacing_m,
-            }
+            })
         }
         _ => sh.pattern(u),
     }

@@ -6,7 +6,8 @@ use geo::Coord;
 use ndarray::Array2;
 use seekgrid_core::GridSpec;
 use seekgrid_search::{
-    DetectionLaw, Pattern, PodLayer, SearchError, SweepWidth, pattern_pod, pattern_pod_at,
+    DetectionLaw, Pattern, PodLayer, Rectangle, SearchError, SweepWidth, pattern_pod,
+    pattern_pod_at,
 };
 
 /// What the planner knows of one unit, in the terms of its search lanes: a ground team of n
@@ -156,13 +157,13 @@ impl Shape {
                 theta_deg,
                 spacing_m,
                 legs,
-            } => Pattern::ParallelSweep {
+            } => Pattern::ParallelSweep(Rectangle {
                 center,
                 length_m: u.track_m / legs as f64,
                 width_m: legs as f64 * spacing_m,
                 major_grid_bearing_deg: theta_deg,
                 track_spacing_m: spacing_m,
-            },
+            }),
             Self::Square {
                 center,
                 theta_deg,
@@ -266,13 +267,13 @@ impl Shape {
                     x: 0.25 * (p[0].x + p[1].x + p[2].x + p[3].x),
                     y: 0.25 * (p[0].y + p[1].y + p[2].y + p[3].y),
                 };
-                Some(Pattern::ParallelSweep {
+                Some(Pattern::ParallelSweep(Rectangle {
                     center,
                     length_m: len,
                     width_m: wid,
                     major_grid_bearing_deg: (b.x - a.x).atan2(b.y - a.y).to_degrees(),
                     track_spacing_m: spacing,
-                })
+                }))
             }
             Self::Sector { .. } => None,
         }

@@ -11,7 +11,7 @@ use geo::{Area, BooleanOps, MultiPolygon};
 use ndarray::Array2;
 use seekgrid_core::{Belief, DEFAULT_MAX_CELLS, GridSpec, Particles};
 use seekgrid_plan::*;
-use seekgrid_search::{DetectionLaw, Pattern, SweepWidth, pattern_pod, pattern_pod_at};
+use seekgrid_search::{DetectionLaw, Pattern, Rectangle, SweepWidth, pattern_pod, pattern_pod_at};
 use serde_json::Value;
 use std::f64::consts::PI;
 
@@ -84,7 +84,7 @@ fn joint_pos_from_patterns(belief: &Belief, plan: &Plan, units: &[UnitSpec]) -> 
     for (a, u) in plan.assignments.iter().zip(units) {
         let w = SweepWidth::new(f64::from(u.searchers()) * u.sweep_width_m, &[]).unwrap();
         let (dense, d) = match a.pattern {
-            Pattern::ParallelSweep { .. } | Pattern::CreepingLine { .. } => {
+            Pattern::ParallelSweep(Rectangle { .. }) | Pattern::CreepingLine(Rectangle { .. }) => {
                 let dense = match pattern_pod(grid, &a.pattern, u.law, &w) {
                     Ok(layer) => layer.to_dense(grid).unwrap(),
                     Err(seekgrid_search::SearchError::PatternOutsideGrid { .. }) => {
@@ -531,9 +531,9 @@ mod practical {
         };
         let p = plan(&b, std::slice::from_ref(&team), &PlanOptions::default()).unwrap();
         let a = &p.assignments[0];
-        let Pattern::ParallelSweep {
+        let Pattern::ParallelSweep(Rectangle {
             track_spacing_m, ..
-        } = a.pattern
+        }) = a.pattern
         else {
             panic!("a team flies a parallel sweep, got {:?}", a.pattern)
         };
@@ -553,9 +553,9 @@ mod practical {
             ..PlanOptions::default()
         };
         let p = plan(&b, &[unit("a", 8.0, 2.0, 400.0)], &o).unwrap();
-        let Pattern::CreepingLine {
+        let Pattern::CreepingLine(Rectangle {
             length_m, width_m, ..
-        } = p.assignments[0].pattern
+        }) = p.assignments[0].pattern
         else {
             panic!("expected a creeping line")
         };

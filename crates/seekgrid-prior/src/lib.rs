@@ -85,7 +85,8 @@ mod window;
 pub use error::{PriorError, ShapeError};
 pub use mass::{ScenarioMass, scenario_mass};
 pub use model::{
-    Analyst, EXTENT_SIGMAS, Pool, RingInterpolation, Scenario, Segment, Shape, auto_extent,
+    Analyst, EXTENT_SIGMAS, POA_SUM_TOLERANCE, Pool, RingInterpolation, Scenario, Segment, Shape,
+    auto_extent,
 };
 pub use pool::{AnalystDiagnostics, Diagnostics, Prior, combine};
 pub use table::{SegmentRow, segment_table};

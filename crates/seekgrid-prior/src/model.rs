@@ -9,6 +9,10 @@ use seekgrid_core::ProjectedBox;
 /// > 99.99 % (mass within the Mahalanobis-k ellipse is 1 - exp(-k²/2); common practice).
 pub const EXTENT_SIGMAS: f64 = 4.5;
 
+/// How far above 1 a segments scenario's POA values may add up (rounding of values written
+/// as decimals, e.g. 0.1 + 0.2 + 0.7).
+pub const POA_SUM_TOLERANCE: f64 = 1e-12;
+
 /// One analyst and the credibility given to their judgement.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Analyst {
@@ -65,6 +69,46 @@ pub enum Pool {
     /// the pool, however sure the others are; normal scenarios are cut off a few sigmas out, so
     /// cells beyond every analyst's cut-off become exactly 0.
     Logarithmic,
+}
+
+impl RingInterpolation {
+    /// Every interpolation, in the order the incident format lists them.
+    pub const ALL: [Self; 2] = [Self::UniformPerRing, Self::MonotoneCubic];
+
+    /// Reads the name used in the incident file: `"uniform-per-ring"` or `"monotone-cubic"`.
+    #[must_use]
+    pub fn parse(s: &str) -> Option<Self> {
+        Self::ALL.into_iter().find(|m| m.name() == s.trim())
+    }
+
+    /// The name [`RingInterpolation::parse`] reads.
+    #[must_use]
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::UniformPerRing => "uniform-per-ring",
+            Self::MonotoneCubic => "monotone-cubic",
+        }
+    }
+}
+
+impl Pool {
+    /// Every pool, in the order the incident format lists them.
+    pub const ALL: [Self; 2] = [Self::Linear, Self::Logarithmic];
+
+    /// Reads the name used in the incident file: `"linear"` or `"logarithmic"`.
+    #[must_use]
+    pub fn parse(s: &str) -> Option<Self> {
+        Self::ALL.into_iter().find(|p| p.name() == s.trim())
+    }
+
+    /// The name [`Pool::parse`] reads.
+    #[must_use]
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::Linear => "linear",
+            Self::Logarithmic => "logarithmic",
+        }
+    }
 }
 
 /// Where a scenario puts the object, in the working frame (metres, grid bearings).
@@ -274,7 +318,7 @@ impl Shape {
                     check_polygons(&format!("segment \"{}\"", s.id), &s.polygons)?;
                 }
                 let sum = seekgrid_core::neumaier_sum(poa.iter().copied());
-                if sum > 1.0 + 1e-12 {
+                if sum > 1.0 + POA_SUM_TOLERANCE {
                     return Err(ShapeError::PoaSumAboveOne { sum });
                 }
                 for i in 0..segments.len() {
@@ -385,4 +429,27 @@ pub fn auto_extent(scenarios: &[Scenario]) -> Option<ProjectedBox> {
         .iter()
         .filter_map(|s| s.shape.extent())
         .reduce(|a, b| a.union(&b))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn pool_and_ring_names_parse_and_round_trip() {
+        for pool in Pool::ALL {
+            assert_eq!(Pool::parse(pool.name()), Some(pool));
+        }
+        for mode in RingInterpolation::ALL {
+            assert_eq!(RingInterpolation::parse(mode.name()), Some(mode));
+        }
+        // The names of docs/incident-format.md.
+        assert_eq!(Pool::parse("logarithmic"), Some(Pool::Logarithmic));
+        assert_eq!(
+            RingInterpolation::parse("uniform-per-ring"),
+            Some(RingInterpolation::UniformPerRing)
+        );
+        assert_eq!(Pool::parse("geometric"), None);
+        assert_eq!(RingInterpolation::parse("linear"), None);
+    }
 }

@@ -59,7 +59,7 @@ pub fn tasking(incident: &Incident, run: &PlanRun, run_id: &str) -> Tasking {
                 id: u.id.clone(),
                 start: run.start,
                 end,
-                detection: seekgrid_engine::timeline::law_name(u.law).to_owned(),
+                detection: u.law.name().to_owned(),
                 // The plan scores a team as one line of n searchers sweeping n x W over lanes
                 // of n x S (the pattern's spacing).
                 sweep_width_m: f64::from(u.searchers()) * u.sweep_width_m,
@@ -117,30 +117,17 @@ fn tasked_pattern(frame: &Frame, p: &Pattern) -> TaskedPattern {
         sectors: None,
     };
     match *p {
-        Pattern::ParallelSweep {
-            center,
-            length_m,
-            width_m,
-            major_grid_bearing_deg,
-            track_spacing_m,
-        }
-        | Pattern::CreepingLine {
-            center,
-            length_m,
-            width_m,
-            major_grid_bearing_deg,
-            track_spacing_m,
-        } => {
+        Pattern::ParallelSweep(r) | Pattern::CreepingLine(r) => {
             t.kind = if matches!(p, Pattern::ParallelSweep { .. }) {
                 "parallel-sweep".into()
             } else {
                 "creeping-line".into()
             };
-            t.center = at(center);
-            t.length_m = Some(length_m);
-            t.width_m = Some(width_m);
-            t.major_bearing_deg = Some(true_bearing(major_grid_bearing_deg, t.center));
-            t.track_spacing_m = Some(track_spacing_m);
+            t.center = at(r.center);
+            t.length_m = Some(r.length_m);
+            t.width_m = Some(r.width_m);
+            t.major_bearing_deg = Some(true_bearing(r.major_grid_bearing_deg, t.center));
+            t.track_spacing_m = Some(r.track_spacing_m);
         }
         Pattern::ExpandingSquare {
             center,
@@ -180,13 +167,13 @@ mod tests {
         // Off-centre in its zone so that the convergence is several degrees (computed).
         let frame = Frame::new(UtmZone::from_epsg(32625).unwrap());
         let center = frame.to_xy(-35.012_345, 28.0);
-        let p = Pattern::ParallelSweep {
+        let p = Pattern::ParallelSweep(seekgrid_search::pattern::Rectangle {
             center,
             length_m: 11_309.876_543_210_987,
             width_m: 5_271.000_000_000_001,
             major_grid_bearing_deg: 256.5,
             track_spacing_m: 1_192.999_999_999_999_8,
-        };
+        });
         let t = tasked_pattern(&frame, &p);
         assert_eq!(t.kind, "parallel-sweep");
         // Lengths and spacings are carried bit for bit.

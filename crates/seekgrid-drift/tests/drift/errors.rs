@@ -118,6 +118,17 @@ fn zero_particles_and_bad_options_are_refused() {
         try_run(&s, &options(1.0)).unwrap_err(),
         DriftError::NoParticles
     );
+    // The upper limit is checked before anything is allocated.
+    let mut s = ok_scenario();
+    s.particles = seekgrid_drift::MAX_PARTICLES + 1;
+    assert_eq!(
+        s.validate(),
+        Err(DriftError::TooManyParticles {
+            particles: seekgrid_drift::MAX_PARTICLES + 1
+        })
+    );
+    s.particles = seekgrid_drift::MAX_PARTICLES;
+    assert_eq!(s.validate(), Ok(()));
 
     let s = ok_scenario();
     assert!(matches!(
