@@ -1,6 +1,6 @@
 //! `seekgrid log`: record a completed search in the incident file without hand-editing it.
 
-use crate::{Failure, parse_time_named};
+use crate::{Failure, parse_time};
 use chrono::{DateTime, Utc};
 use seekgrid_incident::Incident;
 use seekgrid_incident::edit::{EditError, EditOptions, IncidentFile, NewGeometry, NewSearch};
@@ -149,12 +149,12 @@ pub fn run(args: &LogArgs, now: DateTime<Utc>) -> Result<String, Failure> {
     let start_opt = args
         .start
         .as_deref()
-        .map(|t| parse_time_named("--start", t))
+        .map(|t| parse_time(t, "--start"))
         .transpose()?;
     let end_opt = args
         .end
         .as_deref()
-        .map(|t| parse_time_named("--end", t))
+        .map(|t| parse_time(t, "--end"))
         .transpose()?;
     if let Some(f) = args.done_fraction {
         if matches!(source, Source::Track) {
@@ -302,6 +302,7 @@ pub fn run(args: &LogArgs, now: DateTime<Utc>) -> Result<String, Failure> {
             .iter()
             .find(|s| s.def.id == id)
             .ok_or_else(|| format!("internal: the new search \"{id}\" is missing"))?;
+        // Named after what the planner gave: a pattern cut short is scored as a track.
         let (what, fix) = if is_track {
             ("track", "track file")
         } else {

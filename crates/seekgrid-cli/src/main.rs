@@ -150,13 +150,15 @@ fn run(cli: Cli) -> Result<(), Failure> {
             // Preparing projects every position and validates every shape and search.
             seekgrid_engine::prepare::prepare(&incident)
                 .map_err(|e| located(&incident, Some(e.item()), &e.to_string()))?;
+            let size = sized(&incident)?;
             println!(
-                "{}: ok ({} analyst(s), {} scenario(s), {} search(es), {} unit(s))",
+                "{}: ok ({} analyst(s), {} scenario(s), {} search(es), {} unit(s)); {}",
                 file.display(),
                 incident.analysts.len(),
                 incident.scenarios.len(),
                 incident.searches.len(),
-                incident.units.len()
+                incident.units.len(),
+                describe_size(&size)
             );
             Ok(())
         }
@@ -172,8 +174,9 @@ fn run(cli: Cli) -> Result<(), Failure> {
                 Some(list) => OutputSelection::parse(&list).map_err(Failure::bad_input)?,
                 None => OutputSelection::all(),
             };
-            let at = at.map(|t| parse_time(&t)).transpose()?;
+            let at = at.map(|t| parse_time(&t, "--at")).transpose()?;
             let incident = seekgrid_incident::load(&file)?;
+            sized(&incident)?;
             let dir = open_output(&out, force, &run_id, &incident.input_files())?;
             let summary = map_incident(&incident, &dir, at, &selection)?;
             commit(dir)?;
@@ -195,8 +198,9 @@ fn run(cli: Cli) -> Result<(), Failure> {
             json,
             force,
         } => {
-            let start = parse_time(&start)?;
+            let start = parse_time(&start, "--start")?;
             let incident = seekgrid_incident::load(&file)?;
+            sized(&incident)?;
             let dir = open_output(&out, force, &run_id, &incident.input_files())?;
             let summary = plan_incident(&incident, &dir, start)?;
             commit(dir)?;
@@ -241,12 +245,8 @@ fn one_line(s: &seekgrid_render::summary::Summary, out: &Path, run_id: &str) -> 
     )
 }
 
-fn parse_time(t: &str) -> Result<chrono::DateTime<chrono::Utc>, Failure> {
-    parse_time_named("--at", t)
-}
-
-/// The time given to the option `name`, or a message naming the option.
-fn parse_time_named(name: &str, t: &str) -> Result<chrono::DateTime<chrono::Utc>, Failure> {
+/// Parses the time given to the command-line option `name` (named in the message).
+fn parse_time(t: &str, name: &str) -> Result<chrono::DateTime<chrono::Utc>, Failure> {
     chrono::DateTime::parse_from_rfc3339(t.trim())
         .map(|d| d.with_timezone(&chrono::Utc))
         .map_err(|_| {
@@ -263,6 +263,43 @@ fn located(incident: &Incident, item: Option<Item>, message: &str) -> Failure {
         Some(item) => Failure::bad_input(incident.error_at(&item, message).to_string()),
         None => Failure::bad_input(format!("{}: {message}", incident.path.display())),
     }
+}
+
+/// The memory a run may plan to use, bytes: refused above this before anything is allocated.
+const MEMORY_LIMIT_BYTES: u64 = 8 << 30;
+
+/// Sizes the incident's computation and refuses, at the line and column of the input that
+/// drives the size, one that would exceed `[grid] max_cells` or [`MEMORY_LIMIT_BYTES`].
+fn sized(incident: &Incident) -> Result<seekgrid_engine::sizing::SizeEstimate, Failure> {
+    seekgrid_engine::sizing::estimate(incident, MEMORY_LIMIT_BYTES).map_err(|e| {
+        let place = seekgrid_incident::locate::span_of(&incident.text, e.field()).map(|span| {
+            let (line, col) = seekgrid_incident::locate::line_col(&incident.text, span.start);
+            format!(":{line}:{col}")
+        });
+        Failure::bad_input(format!(
+            "{}{}: {e}",
+            incident.path.display(),
+            place.unwrap_or_default()
+        ))
+    })
+}
+
+/// One line saying how large the computation will be.
+fn describe_size(s: &seekgrid_engine::sizing::SizeEstimate) -> String {
+    let mut line = format!(
+        "grid {} x {} cells of {} m, about {} MB",
+        s.rows,
+        s.cols,
+        s.cell_m,
+        s.bytes.div_ceil(1_000_000)
+    );
+    if s.particles > 0 {
+        line.push_str(&format!(
+            "; drift {} particles x {} records",
+            s.particles, s.records
+        ));
+    }
+    line
 }
 
 /// Maps an incident into `dir`; shared by `map` and `demo`.

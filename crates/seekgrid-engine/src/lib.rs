@@ -16,6 +16,7 @@
 mod located;
 pub mod planning;
 pub mod prepare;
+pub mod sizing;
 pub mod slices;
 pub mod timeline;
 

@@ -345,7 +345,7 @@ fn stationary(
         id: s.id.clone(),
         source: Box::new(source),
     })?;
-    if let (None, prior::Shape::Segments { segments, .. }) = (&out.segments, &shape) {
+    if let (None, prior::ScenarioShape::Segments { segments, .. }) = (&out.segments, &shape) {
         out.segments = Some(segments.clone());
     }
     match out
@@ -470,6 +470,16 @@ pub fn prepare(incident: &Incident) -> Result<Prepared, PrepareError> {
 }
 
 impl PreparedSearch {
+    /// The pattern, when the search flew it in full (a pattern cut short is scored as a
+    /// track; see [`PreparedGeometry`]).
+    #[must_use]
+    pub fn pattern(&self) -> Option<&search::Pattern> {
+        match &self.geometry {
+            PreparedGeometry::Pattern(p) => Some(p),
+            PreparedGeometry::Track { .. } => None,
+        }
+    }
+
     /// Whether the search's area or track comes within one sweep width of the box `b` (e.g. a
     /// grid's extent): false when it lies wholly outside, where it can find nothing.
     #[must_use]
@@ -478,22 +488,12 @@ impl PreparedSearch {
         let grown = b.expanded(self.sweep_width.metres()).to_polygon();
         match &self.geometry {
             PreparedGeometry::Pattern(p) => p.area_polygon().intersects(&grown),
-            PreparedGeometry::Track { points, .. } if points.len() == 1 => {
-                grown.intersects(&geo::Point(points[0]))
+            PreparedGeometry::Track { points: t, .. } if t.len() == 1 => {
+                grown.intersects(&geo::Point(t[0]))
             }
-            PreparedGeometry::Track { points, .. } => {
-                geo::LineString(points.clone()).intersects(&grown)
+            PreparedGeometry::Track { points: t, .. } => {
+                geo::LineString(t.clone()).intersects(&grown)
             }
-        }
-    }
-
-    /// The pattern, when the search flew it in full (a pattern cut short is scored as a
-    /// track; see [`PreparedGeometry`]).
-    #[must_use]
-    pub fn pattern(&self) -> Option<&search::Pattern> {
-        match &self.geometry {
-            PreparedGeometry::Pattern(p) => Some(p),
-            PreparedGeometry::Track { .. } => None,
         }
     }
 

@@ -14,6 +14,7 @@ pub mod edit;
 pub mod error;
 pub mod file;
 pub mod geofiles;
+pub mod input;
 pub mod load;
 pub mod locate;
 pub mod model;

@@ -60,18 +60,14 @@ impl From<IncidentError> for IncidentErrors {
     }
 }
 
-/// Reads and validates an incident file and every file it names.
+/// Reads and validates an incident file and every file it names. Every file is read through
+/// [`crate::input`]: regular files only, at most 16 MiB for the incident file and 256 MiB for
+/// each GeoJSON, GPX or CSV file, UTF-8 with an optional byte-order mark.
 ///
 /// # Errors
 /// Every problem found, each as `FILE:LINE:COL: what is wrong; how to fix it`.
 pub fn load(path: &Path) -> Result<Incident, IncidentErrors> {
-    let text = std::fs::read_to_string(path).map_err(|e| {
-        IncidentError::whole_file(
-            ErrorKind::Unreadable,
-            path,
-            format!("cannot read the incident file: {e}; check the path"),
-        )
-    })?;
+    let text = crate::input::read_text(path, crate::input::InputKind::Incident)?;
     parse(path, text)
 }
 

@@ -532,14 +532,14 @@ impl ScenarioKind {
         &self,
         xy: &impl Fn([f64; 2]) -> Result<Coord<f64>, E>,
         bearing: &impl Fn(f64, [f64; 2]) -> f64,
-    ) -> Result<Option<prior::Shape>, E> {
+    ) -> Result<Option<prior::ScenarioShape>, E> {
         Ok(Some(match self {
             Self::Point {
                 position,
                 sigma_major_m,
                 sigma_minor_m,
                 major_bearing_deg,
-            } => prior::Shape::Point {
+            } => prior::ScenarioShape::Point {
                 center: xy(*position)?,
                 sigma_major_m: *sigma_major_m,
                 sigma_minor_m: *sigma_minor_m,
@@ -548,14 +548,14 @@ impl ScenarioKind {
             Self::Route {
                 waypoints,
                 cross_track_sigma_m,
-            } => prior::Shape::Route {
+            } => prior::ScenarioShape::Route {
                 waypoints: waypoints.iter().map(|w| xy(*w)).collect::<Result<_, _>>()?,
                 cross_track_sigma_m: *cross_track_sigma_m,
             },
-            Self::Area { polygons, .. } => prior::Shape::Area {
+            Self::Area { polygons, .. } => prior::ScenarioShape::Area {
                 polygons: place_polygons(polygons, xy)?,
             },
-            Self::Segments { segments, poa, .. } => prior::Shape::Segments {
+            Self::Segments { segments, poa, .. } => prior::ScenarioShape::Segments {
                 segments: segments
                     .iter()
                     .map(|(id, mp)| {
@@ -571,7 +571,7 @@ impl ScenarioKind {
                 position,
                 quantiles,
                 mode,
-            } => prior::Shape::Rings {
+            } => prior::ScenarioShape::Rings {
                 center: xy(*position)?,
                 quantiles: quantiles.clone(),
                 interpolation: *mode,

@@ -4,7 +4,7 @@ use crate::error::{PriorError, ShapeError};
 use geo::{Area, BooleanOps, BoundingRect, Coord, MultiPolygon, Validation};
 use seekgrid_core::ProjectedBox;
 
-/// Mahalanobis radius (in sigmas) of the box given by [`Shape::extent`] for normal shapes:
+/// Mahalanobis radius (in sigmas) of the box given by [`ScenarioShape::extent`] for normal shapes:
 /// a 4.5-sigma ellipse leaves exp(-4.5²/2) = 4.0e-5 of the mass outside, i.e. it holds
 /// > 99.99 % (mass within the Mahalanobis-k ellipse is 1 - exp(-k²/2); common practice).
 pub const EXTENT_SIGMAS: f64 = 4.5;
@@ -32,7 +32,7 @@ pub struct Scenario {
     /// Weight, positive; normalised over the scenarios of the same analyst.
     pub weight: f64,
     /// Where the scenario puts the object.
-    pub shape: Shape,
+    pub shape: ScenarioShape,
 }
 
 /// A named map segment (land search).
@@ -44,7 +44,7 @@ pub struct Segment {
     pub polygons: MultiPolygon<f64>,
 }
 
-/// How the distance CDF is interpolated between rings of a [`Shape::Rings`] scenario.
+/// How the distance CDF is interpolated between rings of a [`ScenarioShape::Rings`] scenario.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum RingInterpolation {
     /// Constant density in each annulus (each ring's share spread evenly over its area): the
@@ -113,7 +113,7 @@ impl Pool {
 
 /// Where a scenario puts the object, in the working frame (metres, grid bearings).
 #[derive(Debug, Clone, PartialEq)]
-pub enum Shape {
+pub enum ScenarioShape {
     /// Bivariate normal; circular when `sigma_major_m == sigma_minor_m`.
     Point {
         /// Mean position, metres.
@@ -237,7 +237,7 @@ fn overlap_area<
     }
 }
 
-impl Shape {
+impl ScenarioShape {
     /// Checks the shape's parameters.
     ///
     /// # Errors
@@ -252,7 +252,7 @@ impl Shape {
 
     pub(crate) fn check(&self) -> Result<(), ShapeError> {
         match self {
-            Shape::Point {
+            ScenarioShape::Point {
                 center,
                 sigma_major_m,
                 sigma_minor_m,
@@ -270,7 +270,7 @@ impl Shape {
                 }
                 Ok(())
             }
-            Shape::Route {
+            ScenarioShape::Route {
                 waypoints,
                 cross_track_sigma_m,
             } => {
@@ -292,8 +292,8 @@ impl Shape {
                 }
                 Ok(())
             }
-            Shape::Area { polygons } => check_polygons("area", polygons).map(|_| ()),
-            Shape::Segments { segments, poa } => {
+            ScenarioShape::Area { polygons } => check_polygons("area", polygons).map(|_| ()),
+            ScenarioShape::Segments { segments, poa } => {
                 if segments.is_empty() {
                     return Err(ShapeError::NoSegments);
                 }
@@ -336,7 +336,7 @@ impl Shape {
                 }
                 Ok(())
             }
-            Shape::Rings {
+            ScenarioShape::Rings {
                 center, quantiles, ..
             } => {
                 finite_coord("center", *center)?;
@@ -373,7 +373,7 @@ impl Shape {
             return None;
         }
         match self {
-            Shape::Point {
+            ScenarioShape::Point {
                 center,
                 sigma_major_m,
                 sigma_minor_m,
@@ -390,19 +390,19 @@ impl Shape {
                     EXTENT_SIGMAS * sy,
                 ))
             }
-            Shape::Route {
+            ScenarioShape::Route {
                 waypoints,
                 cross_track_sigma_m,
             } => ProjectedBox::of_points(waypoints.iter().copied())
                 .map(|b| b.expanded(EXTENT_SIGMAS * cross_track_sigma_m)),
-            Shape::Area { polygons } => rect_to_box(polygons.bounding_rect()),
-            Shape::Segments { segments, poa } => segments
+            ScenarioShape::Area { polygons } => rect_to_box(polygons.bounding_rect()),
+            ScenarioShape::Segments { segments, poa } => segments
                 .iter()
                 .zip(poa)
                 .filter(|(_, p)| **p > 0.0)
                 .filter_map(|(s, _)| rect_to_box(s.polygons.bounding_rect()))
                 .reduce(|a, b| a.union(&b)),
-            Shape::Rings {
+            ScenarioShape::Rings {
                 center, quantiles, ..
             } => quantiles
                 .last()
@@ -420,7 +420,7 @@ fn rect_to_box(r: Option<geo::Rect<f64>>) -> Option<ProjectedBox> {
     })
 }
 
-/// The union of the scenarios' extents ([`Shape::extent`]): a box holding at least 99.9 % of
+/// The union of the scenarios' extents ([`ScenarioShape::extent`]): a box holding at least 99.9 % of
 /// the pooled in-world mass whatever the weights (each scenario's box holds ≥ 99.99 % of its
 /// own). Invalid shapes are skipped. `None` when no scenario has an extent.
 #[must_use]

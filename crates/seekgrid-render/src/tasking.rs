@@ -10,7 +10,7 @@ use seekgrid_incident::tasking::{
     TASKING_FILE, TASKING_FORMAT, TaskedPattern, TaskedUnit, Tasking,
 };
 use seekgrid_plan::UnitKind;
-use seekgrid_search::Pattern;
+use seekgrid_search::{Pattern, Rectangle};
 
 /// Writes `tasking.toml` into the plan folder, under the folder's run id.
 ///
@@ -117,17 +117,30 @@ fn tasked_pattern(frame: &Frame, p: &Pattern) -> TaskedPattern {
         sectors: None,
     };
     match *p {
-        Pattern::ParallelSweep(r) | Pattern::CreepingLine(r) => {
-            t.kind = if matches!(p, Pattern::ParallelSweep { .. }) {
+        Pattern::ParallelSweep(Rectangle {
+            center,
+            length_m,
+            width_m,
+            major_grid_bearing_deg,
+            track_spacing_m,
+        })
+        | Pattern::CreepingLine(Rectangle {
+            center,
+            length_m,
+            width_m,
+            major_grid_bearing_deg,
+            track_spacing_m,
+        }) => {
+            t.kind = if matches!(p, Pattern::ParallelSweep(_)) {
                 "parallel-sweep".into()
             } else {
                 "creeping-line".into()
             };
-            t.center = at(r.center);
-            t.length_m = Some(r.length_m);
-            t.width_m = Some(r.width_m);
-            t.major_bearing_deg = Some(true_bearing(r.major_grid_bearing_deg, t.center));
-            t.track_spacing_m = Some(r.track_spacing_m);
+            t.center = at(center);
+            t.length_m = Some(length_m);
+            t.width_m = Some(width_m);
+            t.major_bearing_deg = Some(true_bearing(major_grid_bearing_deg, t.center));
+            t.track_spacing_m = Some(track_spacing_m);
         }
         Pattern::ExpandingSquare {
             center,
@@ -167,7 +180,7 @@ mod tests {
         // Off-centre in its zone so that the convergence is several degrees (computed).
         let frame = Frame::new(UtmZone::from_epsg(32625).unwrap());
         let center = frame.to_xy(-35.012_345, 28.0);
-        let p = Pattern::ParallelSweep(seekgrid_search::pattern::Rectangle {
+        let p = Pattern::ParallelSweep(Rectangle {
             center,
             length_m: 11_309.876_543_210_987,
             width_m: 5_271.000_000_000_001,

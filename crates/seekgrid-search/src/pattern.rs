@@ -314,16 +314,9 @@ impl Pattern {
                 major_grid_bearing_deg,
                 track_spacing_m,
             }) => {
-                let u = unit(major_grid_bearing_deg);
-                let v = unit(major_grid_bearing_deg + 90.0);
+                let (major, minor) = rectangle_sides(major_grid_bearing_deg, length_m, width_m);
                 // Legs along the major axis, stepping across it.
-                back_and_forth(
-                    &mut pts,
-                    center,
-                    (u, length_m),
-                    (v, width_m),
-                    track_spacing_m,
-                );
+                back_and_forth(&mut pts, center, major, minor, track_spacing_m);
             }
             Self::CreepingLine(Rectangle {
                 center,
@@ -332,16 +325,9 @@ impl Pattern {
                 major_grid_bearing_deg,
                 track_spacing_m,
             }) => {
-                let u = unit(major_grid_bearing_deg);
-                let v = unit(major_grid_bearing_deg + 90.0);
+                let (major, minor) = rectangle_sides(major_grid_bearing_deg, length_m, width_m);
                 // Legs across the major axis, creeping along it.
-                back_and_forth(
-                    &mut pts,
-                    center,
-                    (v, width_m),
-                    (u, length_m),
-                    track_spacing_m,
-                );
+                back_and_forth(&mut pts, center, minor, major, track_spacing_m);
             }
             Self::ExpandingSquare {
                 center,
@@ -478,19 +464,26 @@ impl Pattern {
     }
 }
 
-/// Legs of a rectangle pattern across `extent_m` at spacing `spacing_m`.
+/// One side of a rectangle: its direction (a unit vector in the working frame) and its
+/// extent that way, metres.
+#[derive(Clone, Copy, Debug)]
+struct RectangleSide {
+    direction: Coord<f64>,
+    extent_m: f64,
+}
+
 /// The turn points of legs of a rectangle's back-and-forth pattern, centred on `center`: legs
-/// along `leg` (direction, extent of the rectangle that way; each leg stops half a spacing short
-/// of the edges), `spacing_m` apart along `step` (direction, extent), alternating in direction.
+/// along `leg` (each stops half a spacing short of the rectangle's edges), `spacing_m` apart
+/// along `step`, alternating in direction.
 fn back_and_forth(
     pts: &mut Vec<Coord<f64>>,
     center: Coord<f64>,
-    leg: (Coord<f64>, f64),
-    step: (Coord<f64>, f64),
+    leg: RectangleSide,
+    step: RectangleSide,
     spacing_m: f64,
 ) {
-    let n = legs_across(step.1, spacing_m);
-    let half_leg = 0.5 * (leg.1 - spacing_m);
+    let n = legs_across(step.extent_m, spacing_m);
+    let half_leg = 0.5 * (leg.extent_m - spacing_m);
     for j in 0..n {
         let off = (j as f64 - 0.5 * (n - 1) as f64) * spacing_m;
         let (s0, s1) = if j % 2 == 0 {
@@ -498,9 +491,28 @@ fn back_and_forth(
         } else {
             (half_leg, -half_leg)
         };
-        pts.push(at(center, leg.0, s0, step.0, off));
-        pts.push(at(center, leg.0, s1, step.0, off));
+        pts.push(at(center, leg.direction, s0, step.direction, off));
+        pts.push(at(center, leg.direction, s1, step.direction, off));
     }
+}
+
+/// The major side (along the major grid bearing, `length_m`) and the minor side (90° clockwise
+/// from it, `width_m`) of a rectangle.
+fn rectangle_sides(
+    major_grid_bearing_deg: f64,
+    length_m: f64,
+    width_m: f64,
+) -> (RectangleSide, RectangleSide) {
+    (
+        RectangleSide {
+            direction: unit(major_grid_bearing_deg),
+            extent_m: length_m,
+        },
+        RectangleSide {
+            direction: unit(major_grid_bearing_deg + 90.0),
+            extent_m: width_m,
+        },
+    )
 }
 
 fn legs_across(extent_m: f64, spacing_m: f64) -> usize {

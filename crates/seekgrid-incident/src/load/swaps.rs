@@ -42,13 +42,16 @@ fn median(mut v: Vec<f64>) -> f64 {
     }
 }
 
+/// A position written in the incident file, with the path of its key.
+type WrittenPosition = (FieldPath, [f64; 2]);
+
 /// Every position written in the incident file (with its path) and the positions of the files
 /// it names (as references only: GeoJSON and GPX fix the order).
 fn positions(
     scenarios: &[ScenarioDef],
     searches: &[SearchDef],
     outcome: Option<&Outcome>,
-) -> (Vec<(FieldPath, [f64; 2])>, Vec<[f64; 2]>) {
+) -> (Vec<WrittenPosition>, Vec<[f64; 2]>) {
     let mut written = Vec::new();
     let mut files = Vec::new();
     let first = |mp: &geo::MultiPolygon<f64>| {
