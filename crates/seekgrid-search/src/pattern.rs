@@ -16,6 +16,11 @@ use seekgrid_core::GridSpec;
 /// the legs of a rectangle pattern, and the `legs` of an expanding square (1..=`MAX_LEGS`).
 pub const MAX_LEGS: usize = 100_000;
 
+/// Largest length, width, spacing or radius of a pattern, and longest leg of an expanding
+/// square, metres (10 000 km: a quarter of the Earth's circumference; a working frame is a few
+/// hundred kilometres wide).
+pub const MAX_PATTERN_M: f64 = 1e7;
+
 /// Fewest and most sectors of a sector search.
 pub const SECTORS: std::ops::RangeInclusive<usize> = 2..=12;
 
@@ -88,14 +93,14 @@ fn at(c: Coord<f64>, u: Coord<f64>, along: f64, v: Coord<f64>, across: f64) -> C
 }
 
 fn positive(pattern: &'static str, field: &'static str, value: f64) -> Result<(), SearchError> {
-    if value.is_finite() && value > 0.0 {
+    if value.is_finite() && value > 0.0 && value <= MAX_PATTERN_M {
         Ok(())
     } else {
         Err(SearchError::BadPattern {
             pattern,
             field,
             value,
-            fix: "give a positive number of metres",
+            fix: "give a positive number of metres, at most 10 000 km",
         })
     }
 }
@@ -129,7 +134,8 @@ impl Pattern {
     ///
     /// # Errors
     /// [`SearchError::BadPattern`] naming the field: a non-finite centre or bearing, a
-    /// non-positive length, width, radius or spacing, a spacing that leaves no room for a leg
+    /// non-positive length, width, radius or spacing (or one over [`MAX_PATTERN_M`]; for the
+    /// expanding square, a last leg over it), a spacing that leaves no room for a leg
     /// (parallel sweep: `S < length`; creeping line: `S < width`), more than [`MAX_LEGS`] legs,
     /// zero legs, or sectors outside 2..=12.
     pub fn validate(&self) -> Result<(), SearchError> {
@@ -192,6 +198,15 @@ impl Pattern {
                         field: "legs",
                         value: legs as f64,
                         fix: "give 1 to 100000 legs",
+                    });
+                }
+                // The last leg is ceil(legs / 2) spacings long.
+                if legs.div_ceil(2) as f64 * track_spacing_m > MAX_PATTERN_M {
+                    return Err(SearchError::BadPattern {
+                        pattern: kind,
+                        field: "legs",
+                        value: legs as f64,
+                        fix: "its last leg would be longer than 10 000 km; give fewer legs or a smaller spacing",
                     });
                 }
                 Ok(())

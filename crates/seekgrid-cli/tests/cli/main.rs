@@ -6,5 +6,6 @@ mod end_to_end;
 mod external;
 mod frame_vs_proj;
 mod golden;
+mod located;
 mod log;
 mod output_folder;
