@@ -925,8 +925,8 @@ sweep_width_m = 800            # invented
             "{e}"
         );
         assert!(
-            e.to_string()
-                .contains("search[1].sweep_width_m: sweep width -5 m is not usable"),
+            e.to_string().contains("sweep_width_m")
+                && e.to_string().contains("positive number of metres"),
             "{e}"
         );
         untouched(dir.path(), &path, FILE);

@@ -2102,7 +2102,7 @@ const CSV_RULES: &[Row] = &[
     (
         InFile("current-field.csv", Some(1)),
         WriteBytes("current-field.csv", b"lon,lat,time,u_kn,\xff\xfe\n"),
-        &["unreadable header"],
+        &["not UTF-8", "save the file as UTF-8"],
     ),
     (
         InFile("wind.csv", Some(4)),
