@@ -2026,4 +2026,3 @@ fn a_short_position_inside_a_geometry_collection_is_refused_instead_of_panicking
     let e = geofiles::read_polygons(&p).unwrap_err();
     assert!(e.message.contains("position of 1 number(s)"), "{e}");
 }
-
