@@ -148,27 +148,6 @@ impl PrepareError {
     }
 }
 
-/// The first position named anywhere in the incident, to choose the UTM zone.
-fn first_position(incident: &Incident) -> Option<[f64; 2]> {
-    incident.scenarios.iter().find_map(|s| match &s.kind {
-        ScenarioKind::Point { position, .. } | ScenarioKind::Rings { position, .. } => {
-            Some(*position)
-        }
-        ScenarioKind::Route { waypoints, .. } => waypoints.first().copied(),
-        ScenarioKind::Area { polygons, .. } => polygons
-            .0
-            .first()
-            .and_then(|p| p.exterior().0.first())
-            .map(|c| [c.x, c.y]),
-        ScenarioKind::Segments { segments, .. } => segments
-            .first()
-            .and_then(|(_, mp)| mp.0.first())
-            .and_then(|p| p.exterior().0.first())
-            .map(|c| [c.x, c.y]),
-        ScenarioKind::Drift(d) => Some(d.position),
-    })
-}
-
 /// The working frame: the CRS given, or the UTM zone of the first position.
 ///
 /// # Errors
@@ -177,7 +156,7 @@ pub fn frame_for(incident: &Incident) -> Result<Frame, PrepareError> {
     if let Some(zone) = incident.crs {
         return Ok(Frame::new(zone));
     }
-    let [lon, lat] = first_position(incident).unwrap_or([0.0, 0.0]);
+    let [lon, lat] = incident.first_position().unwrap_or([0.0, 0.0]);
     Frame::for_position(lon, lat).map_err(|source| PrepareError::Frame {
         item: Item::Header,
         what: "first position".into(),

@@ -182,7 +182,9 @@ fn position_message(numbers: &[Number]) -> String {
     };
     let mut m = format!("a position is exactly two numbers [lon, lat]; {written} has {count}");
     if let Some(fix) = decimal_comma_fix(numbers) {
-        m.push_str(&format!(": a decimal comma? write {fix}"));
+        m.push_str(&format!(
+            ": a decimal comma? write {fix} with a decimal point"
+        ));
     }
     m
 }
@@ -317,6 +319,8 @@ pub struct RawHeader {
     pub object_afloat: Option<bool>,
     /// Free text shown in the summary (e.g. "invented demo").
     pub notes: Option<String>,
+    /// `true`: keep a `crs` whose zone is farther than the neighbouring one from the incident.
+    pub allow_distant_crs: Option<bool>,
 }
 
 /// `[grid]`.
@@ -457,9 +461,21 @@ const SCENARIO_KINDS: [KindFields; 6] = [
             "diffusivity_m2_s",
             "particles",
             "seed",
+            "hold_environment_beyond_series",
         ],
     },
 ];
+
+/// The names of the scenario kinds the file accepts (`kind = "…"`), in the order of
+/// docs/incident-format.md.
+pub fn scenario_kind_names() -> impl Iterator<Item = &'static str> {
+    SCENARIO_KINDS.iter().map(|k| k.name)
+}
+
+/// The names of the search pattern kinds the file accepts (`pattern = { kind = "…" }`).
+pub fn pattern_kind_names() -> impl Iterator<Item = &'static str> {
+    PATTERN_KINDS.iter().map(|k| k.name)
+}
 
 /// The pattern kinds and their fields (`kind` aside).
 const PATTERN_KINDS: [KindFields; 4] = [
@@ -579,6 +595,10 @@ pub struct RawDrift {
     pub particles: Option<usize>,
     /// Random seed (default 1).
     pub seed: Option<u64>,
+    /// `true`: a wind or current series (or field) that ends before the drift does is held at
+    /// its last value (and one that starts after going adrift, at its first) instead of being
+    /// refused.
+    pub hold_environment_beyond_series: Option<bool>,
 }
 
 /// drift: the window in which the object went adrift.
@@ -1106,6 +1126,7 @@ mod tests {
             "current" | "wind" => "{ speed_kn = 1.0 }",
             "leeway" => "{ downwind_slope = 0.01 }",
             "particles" | "seed" => "5",
+            "hold_environment_beyond_series" => "true",
             _ => "1.0",
         };
         for k in &SCENARIO_KINDS {
@@ -1144,7 +1165,7 @@ mod tests {
         assert_eq!(e.span.map(|s| &text[s]), Some("[-40.955, 31,548]"));
         assert_eq!(
             e.message,
-            "a position is exactly two numbers [lon, lat]; [-40.955, 31, 548] has three: a decimal comma? write [-40.955, 31.548]"
+            "a position is exactly two numbers [lon, lat]; [-40.955, 31, 548] has three: a decimal comma? write [-40.955, 31.548] with a decimal point"
         );
     }
 

@@ -120,6 +120,10 @@ struct Validator<'a> {
     errors: Vec<IncidentError>,
 }
 
+/// The years a time in an incident file may fall in: a wider range is a typing slip, and times
+/// far outside it overflow the calendar arithmetic of drift and outputs.
+const TIME_YEARS: std::ops::RangeInclusive<i32> = 1900..=2199;
+
 fn p(s: &str) -> FieldPath {
     FieldPath::new(s)
 }
@@ -162,6 +166,20 @@ impl Validator<'_> {
         self.errors.push(e);
     }
 
+    /// An error reading the file named at `at`: one that cannot be read at all (missing, not
+    /// a regular file, too large) is reported at the key that names it, which is what to fix,
+    /// still as [`ErrorKind::Unreadable`]; one inside the file, at its own line.
+    fn named_file_err(&mut self, at: &FieldPath, e: IncidentError) {
+        if e.kind == ErrorKind::Unreadable && e.line.is_none() {
+            self.err(at, format!("{}: {}", e.file.display(), e.message));
+            if let Some(last) = self.errors.last_mut() {
+                last.kind = ErrorKind::Unreadable;
+            }
+        } else {
+            self.file_err(e);
+        }
+    }
+
     fn file_invalid(&mut self, file: &Path, message: impl Into<String>) {
         self.errors
             .push(IncidentError::whole_file(ErrorKind::Invalid, file, message));
@@ -186,6 +204,17 @@ impl Validator<'_> {
     fn time(&mut self, at: &FieldPath, t: &TimeText) -> Option<Time> {
         let s = t.as_text();
         match DateTime::parse_from_rfc3339(s.trim()) {
+            Ok(d) if !TIME_YEARS.contains(&chrono::Datelike::year(&d.with_timezone(&Utc))) => {
+                self.err(
+                    at,
+                    format!(
+                        "\"{s}\" is outside the years {} to {} that an incident can take place in; check the year",
+                        TIME_YEARS.start(),
+                        TIME_YEARS.end()
+                    ),
+                );
+                None
+            }
             Ok(d) => Some(d.with_timezone(&Utc)),
             Err(_) => {
                 self.err(at, format!("\"{s}\" is not an RFC 3339 time; write it as \"2026-06-14T18:00:00Z\" (UTC)"));
@@ -281,6 +310,16 @@ impl Validator<'_> {
             .as_ref()
             .and_then(|o| self.outcome(o, header.reference_time));
         self.log_pool_with_drift(pool, &scenarios);
+        if raw.incident.allow_distant_crs != Some(true) {
+            self.distant_crs(header.crs, &scenarios);
+        }
+        if let Some(reference) = header.reference_time {
+            let last_search_end = searches.iter().map(|s| s.end).max();
+            self.environment_covers(
+                &scenarios,
+                reference.max(last_search_end.unwrap_or(reference)),
+            );
+        }
         let swaps = swaps::swapped_positions(header.crs, &scenarios, &searches, outcome.as_ref());
         for (at, message) in swaps {
             self.err(&at, message);
@@ -308,6 +347,67 @@ impl Validator<'_> {
         })
     }
 
+    /// Refuses a `crs` whose zone is past the neighbouring one from the first position: grid
+    /// distances there are off by percents (a typing slip in the zone number, usually).
+    fn distant_crs(&mut self, crs: Option<UtmZone>, scenarios: &[ScenarioDef]) {
+        let (Some(zone), Some([lon, lat])) = (crs, crate::model::first_position(scenarios)) else {
+            return;
+        };
+        let off = crate::crs::degrees_from_central_meridian(zone, lon);
+        if off <= crate::crs::NEIGHBOUR_ZONE_DEG {
+            return;
+        }
+        let Ok(own) = UtmZone::for_position(lon, lat) else {
+            return;
+        };
+        let error = crate::crs::scale_error(zone, lon, lat)
+            .filter(|e| e.abs() < 10.0)
+            .map_or_else(
+                || "where that zone cannot draw distances at all".to_owned(),
+                |e| {
+                    format!(
+                        "where its grid distances differ from those on the ground by {:+.1} %",
+                        100.0 * e
+                    )
+                },
+            );
+        self.err(
+            &p("incident").key("crs"),
+            format!(
+                "crs = \"EPSG:{}\" is {off:.1} degrees of longitude from the incident's first position ({lon:.3}, {lat:.3}), {error}; use crs = \"EPSG:{}\" (the position's own zone), or add allow_distant_crs = true to [incident] to keep it",
+                zone.epsg(),
+                own.epsg()
+            ),
+        );
+    }
+
+    /// Refuses a wind or current series or field that does not cover a drift scenario from
+    /// its earliest time adrift to `until` (the later of the reference time and the last
+    /// search's end) or its latest time adrift, unless the scenario says
+    /// `hold_environment_beyond_series = true`. The map checks again against its own time.
+    fn environment_covers(&mut self, scenarios: &[ScenarioDef], until: Time) {
+        for s in scenarios {
+            let ScenarioKind::Drift(d) = &s.kind else {
+                continue;
+            };
+            if d.hold_environment_beyond_series {
+                continue;
+            }
+            let end = until.max(d.adrift_latest);
+            for (key, v) in [("current", &d.current), ("wind", &d.wind)] {
+                if let Some(message) = v.uncovered(key, d.adrift_earliest, end) {
+                    let at = s.at.key(key);
+                    let at = if matches!(v, VectorDef::Field { .. }) {
+                        at.key("field")
+                    } else {
+                        at.key("series")
+                    };
+                    self.err(&at, message);
+                }
+            }
+        }
+    }
+
     fn header(&mut self, h: &RawHeader) -> Header {
         let title = h.title.trim().to_owned();
         if title.is_empty() {
@@ -328,7 +428,7 @@ impl Validator<'_> {
         let coastline = h.coastline.as_ref().and_then(|c| {
             let file = self.resolve(c);
             geofiles::read_polygons(&file)
-                .map_err(|e| self.file_err(e))
+                .map_err(|e| self.named_file_err(&p("incident").key("coastline"), e))
                 .ok()
         });
         if h.object_afloat.is_some() && h.coastline.is_none() {
@@ -646,7 +746,7 @@ impl Validator<'_> {
         )?;
         let file = self.resolve(&rel);
         let features = geofiles::read_polygon_features(&file)
-            .map_err(|e| self.file_err(e))
+            .map_err(|e| self.named_file_err(&at.key("polygon"), e))
             .ok()?;
         let polygons = geo::MultiPolygon(features.iter().flatten().cloned().collect());
         files
@@ -676,7 +776,7 @@ impl Validator<'_> {
             Some(seg) => seg.clone(),
             None => {
                 let seg = geofiles::read_segments(&file)
-                    .map_err(|e| self.file_err(e))
+                    .map_err(|e| self.named_file_err(&at.key("segments"), e))
                     .ok()?;
                 files.segments.insert(file.clone(), seg.clone());
                 seg
@@ -813,6 +913,7 @@ impl Validator<'_> {
             diffusivity_m2_s: s.diffusivity_m2_s.unwrap_or(0.0),
             particles: s.particles.unwrap_or(20_000),
             seed: s.seed.unwrap_or(1),
+            hold_environment_beyond_series: s.hold_environment_beyond_series.unwrap_or(false),
         };
         if !ok {
             return None;
@@ -864,7 +965,7 @@ impl Validator<'_> {
             let file = self.resolve(rel);
             return geofiles::read_series(&file, speed_sigma_kn, direction_sigma_deg)
                 .map(|samples| VectorDef::Series { file, samples })
-                .map_err(|e| self.file_err(e))
+                .map_err(|e| self.named_file_err(&at.key("series"), e))
                 .ok();
         }
         if let Some(rel) = &v.field {
@@ -876,7 +977,7 @@ impl Validator<'_> {
                     speed_sigma_kn,
                     direction_sigma_deg,
                 })
-                .map_err(|e| self.file_err(e))
+                .map_err(|e| self.named_file_err(&at.key("field"), e))
                 .ok();
         }
         let speed_kn = self.required(&at.key("speed_kn"), v.speed_kn, "give speed_kn");
@@ -945,7 +1046,7 @@ impl Validator<'_> {
                         points,
                         times,
                     })
-                    .map_err(|e| self.file_err(e))
+                    .map_err(|e| self.named_file_err(&at.key("track"), e))
                     .ok()
             }
             _ => {

@@ -283,6 +283,9 @@ pub struct DriftDef {
     pub particles: usize,
     /// Seed.
     pub seed: u64,
+    /// Whether a wind or current series (or field) that does not cover the drift is held at
+    /// its end values (`hold_environment_beyond_series = true`) rather than refused.
+    pub hold_environment_beyond_series: bool,
 }
 
 /// A pattern, positions in lon/lat, bearings true.
@@ -455,7 +458,35 @@ pub enum Item {
     Outcome,
 }
 
+/// The first position named in these scenarios (the incident's), to choose the UTM zone.
+#[must_use]
+pub fn first_position(scenarios: &[ScenarioDef]) -> Option<[f64; 2]> {
+    scenarios.iter().find_map(|s| match &s.kind {
+        ScenarioKind::Point { position, .. } | ScenarioKind::Rings { position, .. } => {
+            Some(*position)
+        }
+        ScenarioKind::Route { waypoints, .. } => waypoints.first().copied(),
+        ScenarioKind::Area { polygons, .. } => polygons
+            .0
+            .first()
+            .and_then(|p| p.exterior().0.first())
+            .map(|c| [c.x, c.y]),
+        ScenarioKind::Segments { segments, .. } => segments
+            .first()
+            .and_then(|(_, mp)| mp.0.first())
+            .and_then(|p| p.exterior().0.first())
+            .map(|c| [c.x, c.y]),
+        ScenarioKind::Drift(d) => Some(d.position),
+    })
+}
+
 impl Incident {
+    /// The first position named anywhere in the incident, to choose the UTM zone.
+    #[must_use]
+    pub fn first_position(&self) -> Option<[f64; 2]> {
+        first_position(&self.scenarios)
+    }
+
     /// The path in the file of an item's table or key (a section header when the id is not
     /// in the incident).
     #[must_use]
@@ -695,7 +726,62 @@ impl VectorSample {
     }
 }
 
+/// Hours a series or field may fall short of the drift at either end and be held at its end
+/// value without `hold_environment_beyond_series`: less than one step of an hourly forecast.
+pub const HELD_WITHOUT_ASKING_H: f64 = 1.0;
+
 impl VectorDef {
+    /// The times a series or a field covers, first and last; `None` for a constant and for a
+    /// series or field of a single time (held steady by design).
+    #[must_use]
+    pub fn time_span(&self) -> Option<(Time, Time)> {
+        let times: Vec<Time> = match self {
+            Self::Constant(_) => return None,
+            Self::Series { samples, .. } => samples.iter().map(|(t, _)| *t).collect(),
+            Self::Field { samples, .. } => samples.iter().map(|s| s.time).collect(),
+        };
+        let first = *times.iter().min()?;
+        let last = *times.iter().max()?;
+        (first < last).then_some((first, last))
+    }
+
+    /// What is missing when this series or field does not cover `from..=to` (give or take
+    /// [`HELD_WITHOUT_ASKING_H`]): a message naming
+    /// `what` (`"wind"`, `"current"`), the gap and the fixes the file accepts; `None` when it
+    /// covers them (or is constant).
+    #[must_use]
+    pub fn uncovered(&self, what: &str, from: Time, to: Time) -> Option<String> {
+        let (first, last) = self.time_span()?;
+        let fmt = |t: Time| t.format("%Y-%m-%dT%H:%MZ").to_string();
+        let hours = |a: Time, b: Time| (b - a).as_seconds_f64() / 3600.0;
+        let slack = chrono::TimeDelta::seconds((HELD_WITHOUT_ASKING_H * 3600.0) as i64);
+        let gap = if first > from + slack {
+            format!(
+                "starts at {}, {:.1} h after the drift begins ({})",
+                fmt(first),
+                hours(from, first),
+                fmt(from)
+            )
+        } else if last + slack < to {
+            format!(
+                "ends at {}, {:.1} h before the drift does ({})",
+                fmt(last),
+                hours(last, to),
+                fmt(to)
+            )
+        } else {
+            return None;
+        };
+        Some(format!(
+            "the {what} {gap}, and would be held at its {} value for that time; extend the file to cover the drift, or add hold_environment_beyond_series = true to this scenario to hold it",
+            if first > from + slack {
+                "first"
+            } else {
+                "last"
+            }
+        ))
+    }
+
     /// The drift crate's environment (a gridded field is built into its lattice here).
     ///
     /// # Errors

@@ -209,11 +209,10 @@ fn a_missing_referenced_file_names_that_file() {
     );
     let e = first_error(parse_in(d.path(), &text));
     assert_eq!(e.kind, ErrorKind::Unreadable);
-    assert!(
-        e.file.ends_with(PathBuf::from("areas/bay.geojson")),
-        "{}",
-        e.file.display()
-    );
+    // Reported at the key that names it (what to fix), naming the file.
+    assert!(e.file.ends_with("incident.toml"), "{}", e.file.display());
+    assert!(e.line.is_some());
+    assert!(e.message.contains("areas/bay.geojson"), "{}", e.message);
 }
 
 #[test]

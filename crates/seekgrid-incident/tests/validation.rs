@@ -1665,8 +1665,8 @@ const PATTERN_RULES: &[Row] = &[
         &["at most 10 000 km"],
     ),
     (
-        // 16 legs, the last of 8 spacings of 2000 km.
-        Key("search[2].pattern.legs"),
+        // 16 legs, the last of 8 spacings of 2000 km: the fault is reported at `legs`.
+        KeyOnLine("search[2].pattern.legs", "\"expanding-square\""),
         Replace("track_spacing_m = 700", "track_spacing_m = 2000000"),
         &["last leg would be longer than 10 000 km"],
     ),
@@ -1910,7 +1910,7 @@ const TWO_POINT_RING: &str =
 
 const GEOJSON_FILE_RULES: &[Row] = &[
     (
-        InFile("coast.geojson", None),
+        KeyOnLine("incident.coastline", "coastline = \"coast.geojson\""),
         Delete("coast.geojson"),
         &[
             "cannot read the polygon file",
@@ -1918,7 +1918,7 @@ const GEOJSON_FILE_RULES: &[Row] = &[
         ],
     ),
     (
-        InFile("area.geojson", None),
+        KeyOnLine("scenario[3].polygon", "polygon = \"area.geojson\""),
         Delete("area.geojson"),
         &["cannot read the polygon file"],
     ),
@@ -1978,7 +1978,7 @@ const GEOJSON_FILE_RULES: &[Row] = &[
         &["feature 0 has no geometry"],
     ),
     (
-        InFile("segments.geojson", None),
+        KeyOnLine("scenario[4].segments", "segments = \"segments.geojson\""),
         Delete("segments.geojson"),
         &["cannot read the segments file"],
     ),
@@ -2020,7 +2020,7 @@ const GPX_WITH_A_ROUTE_ONLY: &str = r#"<?xml version="1.0" encoding="UTF-8"?>
 
 const TRACK_RULES: &[Row] = &[
     (
-        InFile("track.gpx", None),
+        KeyOnLine("search[4].track", "track = \"track.gpx\""),
         Delete("track.gpx"),
         &["cannot read the track"],
     ),
@@ -2054,7 +2054,7 @@ const TRACK_RULES: &[Row] = &[
         &["track point 2", "earlier than the point before it"],
     ),
     (
-        InFile("track.geojson", None),
+        KeyOnLine("search[5].track", "track = \"track.geojson\""),
         Delete("track.geojson"),
         &["cannot read the track"],
     ),
@@ -2090,12 +2090,12 @@ fn track_files_must_hold_a_recorded_track_of_two_or_more_points_in_time_order() 
 
 const CSV_RULES: &[Row] = &[
     (
-        InFile("wind.csv", None),
+        KeyOnLine("scenario[7].wind.series", "wind = { series"),
         Delete("wind.csv"),
         &["cannot read the series"],
     ),
     (
-        InFile("current-field.csv", None),
+        KeyOnLine("scenario[7].current.field", "current = { field"),
         Delete("current-field.csv"),
         &["cannot read the field"],
     ),

@@ -1,0 +1,65 @@
+//! How far a `crs` given in the file is from the incident: a UTM zone is 6 degrees wide, and
+//! distances drawn in a zone far from its own stretch (the scale error grows with the square
+//! of the distance from the central meridian).
+
+use geo::{Distance, Geodesic, Point};
+use seekgrid_core::{Frame, UtmZone};
+
+/// Half a UTM zone's width, degrees: within this of the central meridian the zone is the
+/// position's own (UTM standard, apart from the Norway and Svalbard exceptions).
+pub const ZONE_HALF_WIDTH_DEG: f64 = 3.0;
+
+/// Beyond this many degrees from the central meridian the position is past the neighbouring
+/// zone: the loader refuses such a `crs` unless `allow_distant_crs = true`. Between
+/// [`ZONE_HALF_WIDTH_DEG`] and this, a warning (an incident spanning two zones may use either).
+pub const NEIGHBOUR_ZONE_DEG: f64 = 9.0;
+
+/// Degrees of longitude between `lon_deg` and the zone's central meridian, in 0..=180.
+#[must_use]
+pub fn degrees_from_central_meridian(zone: UtmZone, lon_deg: f64) -> f64 {
+    ((lon_deg - zone.central_meridian_deg() + 180.0).rem_euclid(360.0) - 180.0).abs()
+}
+
+/// The relative error of distances drawn in `zone` at (`lon_deg`, `lat_deg`): the projected
+/// length of a short east-west step over its length on the ellipsoid, minus one (0.0004 short
+/// on the central meridian, where UTM's scale is 0.9996). `None` where the zone cannot project
+/// the position.
+#[must_use]
+pub fn scale_error(zone: UtmZone, lon_deg: f64, lat_deg: f64) -> Option<f64> {
+    let frame = Frame::new(zone);
+    let step = 0.001;
+    let a = frame.checked_to_xy(lon_deg, lat_deg).ok()?;
+    let b = frame.checked_to_xy(lon_deg + step, lat_deg).ok()?;
+    let projected = ((b.x - a.x).powi(2) + (b.y - a.y).powi(2)).sqrt();
+    let ground = Geodesic.distance(
+        Point::new(lon_deg, lat_deg),
+        Point::new(lon_deg + step, lat_deg),
+    );
+    (ground > 0.0 && projected.is_finite()).then(|| projected / ground - 1.0)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn degrees_from_the_central_meridian_wrap_at_the_date_line() {
+        let z1 = UtmZone::from_epsg(32601).unwrap(); // central meridian 177 W
+        assert!((degrees_from_central_meridian(z1, -177.0)).abs() < 1e-12);
+        assert!((degrees_from_central_meridian(z1, 179.0) - 4.0).abs() < 1e-12);
+        assert!((degrees_from_central_meridian(z1, -40.955) - 136.045).abs() < 1e-9);
+    }
+
+    #[test]
+    fn scale_error_is_utm_k0_on_the_central_meridian_and_grows_off_it() {
+        // UTM's central scale factor 0.9996 (UTM standard; common practice). Off the meridian
+        // k ≈ k0 (1 + (Δλ cos φ)² / 2) to first order (Snyder 1987, USGS PP 1395, §8).
+        let z = UtmZone::from_epsg(32624).unwrap(); // central meridian 39 W
+        let e0 = scale_error(z, -39.0, 31.5).unwrap();
+        assert!((e0 + 0.0004).abs() < 2e-6, "{e0}");
+        let dl = 3f64.to_radians() * 31.5f64.to_radians().cos();
+        let first_order = 0.9996 * (1.0 + dl * dl / 2.0) - 1.0;
+        let e3 = scale_error(z, -42.0, 31.5).unwrap();
+        assert!((e3 - first_order).abs() < 2e-5, "{e3} vs {first_order}");
+    }
+}
