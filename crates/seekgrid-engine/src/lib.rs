@@ -4,6 +4,8 @@
 //!   prior, drift and search crates.
 //! * [`timeline::map`] computes the belief at a time: prior, drift, and every completed search
 //!   applied in time order as a Bayesian update, returned as an [`IncidentMap`].
+//! * [`warnings`]: what is legal but suspect, found while computing (kept in
+//!   [`IncidentMap::warnings`]; [`warnings::before_computing`] for `check`).
 //! * [`planning::plan_at`] plans the next period against the belief at its start.
 //!
 //! Every error of the engine can name the part of the incident file it concerns
@@ -19,6 +21,7 @@ pub mod prepare;
 pub mod sizing;
 pub mod slices;
 pub mod timeline;
+pub mod warnings;
 
 pub use planning::{PlanRun, PlanRunError, plan_at};
 pub use timeline::{IncidentMap, MapError, MapOptions, Progress, SearchReport, map};

@@ -18,7 +18,9 @@ impl MapError {
                 }
                 _ => None,
             },
-            Self::Drift { id, .. } => Some(Item::Scenario(id.clone())),
+            Self::Drift { id, .. } | Self::EnvironmentNotCovered { id, .. } => {
+                Some(Item::Scenario(id.clone()))
+            }
             Self::Search { id, .. } => Some(Item::Search(id.clone())),
             Self::NowhereToBe { .. } => Some(Item::Header),
             _ => None,

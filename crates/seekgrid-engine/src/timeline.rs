@@ -106,6 +106,12 @@ pub struct IncidentMap {
     /// The probability of containment per cell at `at`: the grid part plus the particles
     /// spread by the kernel of [`seekgrid_core::particle_density`], computed once.
     pub poc: Array2<f64>,
+    /// Of each stationary scenario's mass on the grid, the share the land (or water) mask
+    /// kept, in scenario order; empty when no mask applies.
+    pub kept_by_mask: Vec<(String, f64)>,
+    /// What is legal but suspect in the incident or at this time (the file's own warnings
+    /// first), see [`crate::warnings`].
+    pub warnings: Vec<seekgrid_incident::Warning>,
 }
 
 /// Why an incident map cannot be computed.
@@ -140,6 +146,15 @@ pub enum MapError {
     /// Nothing to map.
     #[error("the grid extent cannot be chosen: no scenario has an extent; give [grid] bounds")]
     NoExtent,
+    /// A drift's wind or current series (or field) does not cover it (see
+    /// `hold_environment_beyond_series`).
+    #[error("drift scenario \"{id}\": {message}")]
+    EnvironmentNotCovered {
+        /// Scenario id.
+        id: String,
+        /// The gap and the fixes.
+        message: String,
+    },
     /// A belief operation failed.
     #[error("belief: {0}")]
     Belief(CoreError),
@@ -168,13 +183,19 @@ pub fn map(
     progress: Progress<'_>,
 ) -> Result<IncidentMap, MapError> {
     let prepared = prepare(incident)?;
-    let schedule = Schedule::new(incident, &prepared, options);
+    let mut schedule = Schedule::new(incident, &prepared, options);
+    crate::warnings::environment_covers(incident, schedule.drift_end())?;
+    let mut warnings = incident.warnings();
+    warnings.extend(crate::warnings::about_the_time(incident, schedule.at));
     let drift_runs = run_drift(&prepared, &schedule, progress)?;
     let drifting = Drifting { runs: &drift_runs };
     let (grid, grid_auto) = choose_grid(incident, &prepared, &schedule, &drifting)?;
+    warnings.extend(schedule.leave_out_searches_outside(&grid, grid_auto));
     let prior = build_prior(&prepared, &grid)?;
-    let stationary =
+    let mut stationary =
         StationaryPart::where_the_object_can_be(prior.as_ref(), incident, &prepared, &grid)?;
+    let kept_by_mask = std::mem::take(&mut stationary.kept_by_mask);
+    warnings.extend(crate::warnings::about_the_mask(incident, &kept_by_mask));
     let declared_share_of_outside = stationary.declared_share_of_outside();
     let belief_before_searches =
         stationary.into_belief(&prepared, &drifting, schedule.reference_time)?;
@@ -200,6 +221,8 @@ pub fn map(
         searches_pending: pending,
         drift_runs,
         pos_cumulative: 1.0 - log.miss_all,
+        kept_by_mask,
+        warnings,
     })
 }
 
@@ -249,6 +272,33 @@ impl<'p> Schedule<'p> {
         }
     }
 
+    /// The time every drift runs to (at least; a scenario going adrift later runs to then).
+    fn drift_end(&self) -> Time {
+        self.at.max(self.reference_time)
+    }
+
+    /// Leaves out of the map the searches that cannot reach the grid, with a warning for each.
+    /// An automatic grid holds every drift cloud at every time the map uses and only the
+    /// searches that reach the scenarios (see [`automatic_extent`]), so such a search could find
+    /// nothing (its POS is 0); a grid from `[grid] bounds` is the planner's, and particles
+    /// outside it are not searched.
+    fn leave_out_searches_outside(
+        &mut self,
+        grid: &GridSpec,
+        grid_auto: bool,
+    ) -> Vec<seekgrid_incident::Warning> {
+        let what = if grid_auto {
+            "the grid (which holds the scenarios and the drift)"
+        } else {
+            "the [grid] bounds"
+        };
+        let extent = grid.extent();
+        let out =
+            crate::warnings::about_searches_outside(self.to_apply.iter().copied(), &extent, what);
+        self.to_apply.retain(|s| s.reaches(&extent));
+        out
+    }
+
     /// The times the map places the drifting particles at: the reference time, the map's
     /// time and the middle of each applied search.
     fn placement_times(&self) -> Vec<Time> {
@@ -287,10 +337,7 @@ fn run_drift(
     let land = prepared.land.clone().map(drift::LandMask::new);
     let mut drift_runs = Vec::new();
     for d in &prepared.drift {
-        let end = schedule
-            .at
-            .max(schedule.reference_time)
-            .max(d.scenario.adrift_latest);
+        let end = schedule.drift_end().max(d.scenario.adrift_latest);
         // A record every six hours besides the times used keeps interpolated positions close
         // for other readers.
         let options = drift::SimulationOptions {
@@ -337,7 +384,7 @@ fn choose_grid(
 }
 
 /// The box holding the stationary scenarios, every drift cloud at each placement time (grown
-/// by one cell) and every applied search's extent.
+/// by one cell) and the extent of every applied search that reaches them.
 fn automatic_extent(
     incident: &Incident,
     prepared: &Prepared,
@@ -354,15 +401,21 @@ fn automatic_extent(
             }
         }
     }
+    // Only the searches that reach the scenarios' box: one far from every scenario (a typing
+    // slip in its position) would stretch the grid over empty sea; it is left out with a
+    // warning instead (Schedule::leave_out_searches_outside).
+    let scenarios = b;
     for s in &schedule.to_apply {
-        if let Some(sb) = s.extent() {
+        if let (Some(sb), Some(held)) = (s.extent(), &scenarios)
+            && s.reaches(held)
+        {
             b = Some(b.map_or(sb, |x| x.union(&sb)));
         }
     }
     b.ok_or(MapError::NoExtent)
 }
 
-fn lon_lat_box(frame: &Frame, b: [f64; 4]) -> Result<ProjectedBox, MapError> {
+pub(crate) fn lon_lat_box(frame: &Frame, b: [f64; 4]) -> Result<ProjectedBox, MapError> {
     // Sample the edges: a lon/lat box is not a rectangle in UTM.
     let [w, s, e, n] = b;
     let mut pts = Vec::new();
@@ -414,6 +467,9 @@ struct StationaryPart {
     declared: f64,
     /// Mass that fell outside the grid.
     outside: f64,
+    /// Of each stationary scenario's mass on the grid, the share the land (or water) mask
+    /// kept; empty when no mask applies.
+    kept_by_mask: Vec<(String, f64)>,
 }
 
 impl StationaryPart {
@@ -432,16 +488,21 @@ impl StationaryPart {
                 cells: Array2::zeros((grid.rows(), grid.cols())),
                 declared: 0.0,
                 outside: 0.0,
+                kept_by_mask: Vec::new(),
             },
             Some(p) => Self {
                 grid: *grid,
                 cells: &p.cells * m,
                 declared: p.rest_of_world * m,
                 outside: p.outside_grid * m,
+                kept_by_mask: Vec::new(),
             },
         };
-        if let (Some(afloat), Some(land)) = (incident.object_afloat, &prepared.land) {
-            keep_where_the_object_can_be(&mut part.cells, grid, land, afloat)?;
+        if let (Some(afloat), Some(land)) = (incident.object_afloat, &prepared.land)
+            && let Some(keep) = where_the_object_can_be(grid, land, afloat)?
+        {
+            keep_where_the_object_can_be(&mut part.cells, &keep, afloat)?;
+            part.kept_by_mask = kept_by_mask(prepared, grid, &keep)?;
         }
         Ok(part)
     }
@@ -675,24 +736,17 @@ impl SearchReport {
     }
 }
 
-/// Conditions the stationary cell masses on where the object can be: afloat, each cell keeps
-/// only its water share (cell area minus its exact overlap with the land polygons); ashore,
-/// only its land share. The grid part is rescaled to the mass it had, so rest of world and the
-/// drifting part are unchanged.
-fn keep_where_the_object_can_be(
-    cells: &mut Array2<f64>,
+/// The share of each cell where the object can be: afloat, its water share (cell area minus
+/// its exact overlap with the land polygons); ashore, its land share.
+fn where_the_object_can_be(
     grid: &GridSpec,
     land: &geo::MultiPolygon<f64>,
     afloat: bool,
-) -> Result<(), MapError> {
+) -> Result<Option<Array2<f64>>, MapError> {
     use geo::Area;
-    let before = seekgrid_core::neumaier_sum(cells.iter().copied());
-    if before <= 0.0 {
-        return Ok(());
-    }
     let land_area = land.unsigned_area();
     if land_area <= 0.0 {
-        return Ok(());
+        return Ok(None);
     }
     // The prior crate's exact polygon-cell overlap: a uniform Area scenario over the land puts
     // overlap_area / land_area into each cell.
@@ -701,18 +755,57 @@ fn keep_where_the_object_can_be(
     };
     let on_land = prior::scenario_mass(&shape, grid).map_err(|e| MapError::Prior(Box::new(e)))?;
     let cell_area = grid.cell_area_m2();
+    Ok(Some(on_land.cells.mapv(|l| {
+        let land_share = (l * land_area / cell_area).clamp(0.0, 1.0);
+        if afloat { 1.0 - land_share } else { land_share }
+    })))
+}
+
+/// Conditions the stationary cell masses on where the object can be (`keep`, from
+/// [`where_the_object_can_be`]). The grid part is rescaled to the mass it had, so rest of
+/// world and the drifting part are unchanged.
+fn keep_where_the_object_can_be(
+    cells: &mut Array2<f64>,
+    keep: &Array2<f64>,
+    afloat: bool,
+) -> Result<(), MapError> {
+    let before = seekgrid_core::neumaier_sum(cells.iter().copied());
+    if before <= 0.0 {
+        return Ok(());
+    }
     ndarray::Zip::from(&mut *cells)
-        .and(&on_land.cells)
-        .for_each(|c, l| {
-            let land_share = (l * land_area / cell_area).clamp(0.0, 1.0);
-            *c *= if afloat { 1.0 - land_share } else { land_share };
-        });
+        .and(keep)
+        .for_each(|c, k| *c *= k);
     let after = seekgrid_core::neumaier_sum(cells.iter().copied());
     if after <= 0.0 {
         return Err(MapError::NowhereToBe { afloat });
     }
     cells.mapv_inplace(|v| v * before / after);
     Ok(())
+}
+
+/// Of each stationary scenario's mass on the grid, the share `keep` leaves (1 for a scenario
+/// with no mass on the grid), in scenario order.
+fn kept_by_mask(
+    prepared: &Prepared,
+    grid: &GridSpec,
+    keep: &Array2<f64>,
+) -> Result<Vec<(String, f64)>, MapError> {
+    prepared
+        .stationary
+        .iter()
+        .map(|s| {
+            let m =
+                prior::scenario_mass(&s.shape, grid).map_err(|e| MapError::Prior(Box::new(e)))?;
+            let on_grid = seekgrid_core::neumaier_sum(m.cells.iter().copied());
+            let kept =
+                seekgrid_core::neumaier_sum(m.cells.iter().zip(keep.iter()).map(|(c, k)| c * k));
+            Ok((
+                s.id.clone(),
+                if on_grid > 0.0 { kept / on_grid } else { 1.0 },
+            ))
+        })
+        .collect()
 }
 
 /// POD below which a cell does not count as searched in the reports (1 %). Long-tailed lateral
@@ -835,6 +928,33 @@ fn particle_clouds(drift_runs: &[(String, drift::DriftRun)]) -> Vec<std::ops::Ra
 }
 
 impl IncidentMap {
+    /// Each analyst's share of the stationary part after the land (or water) mask, with a
+    /// linear pool: `Σ_s∈a m_s k_s / Σ_s m_s k_s` over the stationary scenarios, with `m_s` the
+    /// scenario's mass in the pool and `k_s` the share of it the mask kept. `None` when no mask
+    /// applies, with a logarithmic pool (whose parts do not add), or when nothing is kept.
+    #[must_use]
+    pub fn analyst_share_after_mask(&self, analyst: &str) -> Option<f64> {
+        if self.kept_by_mask.is_empty() || self.prepared.pool != prior::Pool::Linear {
+            return None;
+        }
+        let kept = |id: &str| {
+            self.kept_by_mask
+                .iter()
+                .find(|(k, _)| k == id)
+                .map(|(_, k)| *k)
+        };
+        let (mut mine, mut all) = (0.0, 0.0);
+        for (id, a, m) in &self.prepared.scenario_weights {
+            if let Some(k) = kept(id) {
+                all += m * k;
+                if a == analyst {
+                    mine += m * k;
+                }
+            }
+        }
+        (all > 0.0).then(|| mine / all)
+    }
+
     /// The index range of each drift scenario's particles in the belief.
     #[must_use]
     pub fn particle_clouds(&self) -> Vec<std::ops::Range<usize>> {

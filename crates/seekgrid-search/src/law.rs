@@ -407,6 +407,24 @@ mod tests {
     use super::*;
 
     #[test]
+    fn all_lists_every_law_once() {
+        // The match is exhaustive: a new law does not compile here until it is given a place,
+        // and then this fails until ALL lists it (the file format, the docs and the CLI take
+        // their laws from ALL).
+        let place = |l: DetectionLaw| match l {
+            DetectionLaw::DefiniteRange => 0,
+            DetectionLaw::InverseCube => 1,
+            DetectionLaw::Exponential => 2,
+        };
+        let mut seen = [false; 3];
+        for l in DetectionLaw::ALL {
+            assert!(!seen[place(l)], "{} twice in ALL", l.name());
+            seen[place(l)] = true;
+        }
+        assert!(seen.iter().all(|s| *s), "ALL misses a law");
+    }
+
+    #[test]
     fn exponential_width_factor_matches_its_series() {
         // computed: the alternating series defining the constant.
         let mut s = 0.0;
