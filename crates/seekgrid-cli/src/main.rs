@@ -39,6 +39,9 @@ enum Command {
     Check {
         /// The incident file (TOML)
         file: PathBuf,
+        /// Treat every warning as an error: exit 2 and write nothing when there is one
+        #[arg(long)]
+        strict: bool,
     },
     /// Compute the probability map at a time and write its layers
     #[command(after_help = AFTER_HELP)]
@@ -61,6 +64,9 @@ enum Command {
         /// Also print the summary as JSON on standard output
         #[arg(long)]
         json: bool,
+        /// Treat every warning as an error: exit 2 and write nothing when there is one
+        #[arg(long)]
+        strict: bool,
         /// Replace an existing output folder: the whole earlier folder goes when this run is
         /// complete, no file of it stays
         #[arg(long)]
@@ -87,6 +93,9 @@ enum Command {
         /// Also print the summary as JSON on standard output
         #[arg(long)]
         json: bool,
+        /// Treat every warning as an error: exit 2 and write nothing when there is one
+        #[arg(long)]
+        strict: bool,
         /// Replace an existing output folder: the whole earlier folder goes when this run is
         /// complete, no file of it stays
         #[arg(long)]
@@ -204,12 +213,15 @@ fn main() -> ExitCode {
 fn run(cli: Cli) -> Result<(), Failure> {
     let run_id = run_id();
     match cli.command {
-        Command::Check { file } => {
+        Command::Check { file, strict } => {
             let incident = seekgrid_incident::load(&file)?;
             // Preparing projects every position and validates every shape and search.
-            seekgrid_engine::prepare::prepare(&incident)
+            let prepared = seekgrid_engine::prepare::prepare(&incident)
                 .map_err(|e| located(&incident, Some(e.item()), &e.to_string()))?;
             let size = sized(&incident)?;
+            let warnings = seekgrid_engine::warnings::before_computing(&incident, &prepared)
+                .map_err(|e| located(&incident, e.item(), &e.to_string()))?;
+            report_warnings(&incident, &warnings, strict)?;
             println!(
                 "{}: ok ({} analyst(s), {} scenario(s), {} search(es), {} unit(s)); {}",
                 file.display(),
@@ -227,6 +239,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
             at,
             outputs,
             json,
+            strict,
             force,
         } => {
             let layers: Vec<Layer> = outputs.iter().map(|l| l.0).collect();
@@ -239,7 +252,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
             let incident = seekgrid_incident::load(&file)?;
             sized(&incident)?;
             let dir = open_output(&out, force, &run_id, &incident.input_files())?;
-            let summary = map_incident(&incident, &dir, at, &selection)?;
+            let summary = map_incident(&incident, &dir, at, &selection, strict)?;
             commit(dir)?;
             if json {
                 println!(
@@ -258,6 +271,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
             out,
             outputs,
             json,
+            strict,
             force,
         } => {
             let layers: Vec<Layer> = outputs.iter().map(|l| l.0).collect();
@@ -270,7 +284,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
             let incident = seekgrid_incident::load(&file)?;
             sized(&incident)?;
             let dir = open_output(&out, force, &run_id, &incident.input_files())?;
-            let summary = plan_incident(&incident, &dir, start, &selection)?;
+            let summary = plan_incident(&incident, &dir, start, &selection, strict)?;
             commit(dir)?;
             if json {
                 println!(
@@ -333,6 +347,26 @@ fn located(incident: &Incident, item: Option<Item>, message: &str) -> Failure {
     }
 }
 
+/// Prints each warning on standard error as `FILE:LINE:COL: warning: …`; under `--strict`,
+/// any warning refuses the run (exit 2; an output folder is then never committed).
+fn report_warnings(
+    incident: &Incident,
+    warnings: &[seekgrid_incident::Warning],
+    strict: bool,
+) -> Result<(), Failure> {
+    for w in incident.locate_warnings(warnings) {
+        eprintln!("{w}");
+    }
+    if strict && !warnings.is_empty() {
+        return Err(Failure::bad_input(format!(
+            "{}: refused under --strict: {} warning(s) above; fix them, or run without --strict to accept them",
+            incident.path.display(),
+            warnings.len()
+        )));
+    }
+    Ok(())
+}
+
 /// The memory a run may plan to use, bytes: refused above this before anything is allocated.
 const MEMORY_LIMIT_BYTES: u64 = 8 << 30;
 
@@ -376,6 +410,7 @@ fn map_incident(
     dir: &OutputDir,
     at: Option<chrono::DateTime<chrono::Utc>>,
     selection: &OutputSelection,
+    strict: bool,
 ) -> Result<seekgrid_render::summary::Summary, Failure> {
     let result = with_progress(|progress| {
         seekgrid_engine::timeline::map(incident, &MapOptions { at }, progress)
@@ -384,6 +419,7 @@ fn map_incident(
         MapError::Belief(_) => Failure::failed(format!("{}: {e}", incident.path.display())),
         other => located(incident, other.item(), &other.to_string()),
     })?;
+    report_warnings(incident, &m.warnings, strict)?;
     seekgrid_render::layers::write(&Computed::map(incident, &m), dir, selection)
         .map_err(|e| Failure::failed(e.to_string()))
 }
@@ -394,10 +430,12 @@ fn plan_incident(
     dir: &OutputDir,
     start: chrono::DateTime<chrono::Utc>,
     selection: &OutputSelection,
+    strict: bool,
 ) -> Result<seekgrid_render::summary::Summary, Failure> {
     let result =
         with_progress(|progress| seekgrid_engine::planning::plan_at(incident, start, progress));
     let run = result.map_err(|e| located(incident, e.item(), &e.to_string()))?;
+    report_warnings(incident, &run.map.warnings, strict)?;
     seekgrid_render::layers::write(&Computed::plan(incident, &run), dir, selection)
         .map_err(|e| Failure::failed(e.to_string()))
 }

@@ -410,6 +410,7 @@ pub(crate) fn briefing(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Resul
     let frame = &c.map.prepared.frame;
     let mut md = String::new();
     briefing_header(&mut md, c, run, out.run_id());
+    briefing_warnings(&mut md, c);
     briefing_headline(&mut md, run);
     if let Some(p) = &run.areas {
         briefing_areas(&mut md, frame, p);
@@ -435,6 +436,24 @@ fn briefing_header(md: &mut String, c: &Computed, run: &PlanRun, run_id: &str) {
     );
     let _ = writeln!(md, "Run id: `{}`.\n", run_id);
     let _ = writeln!(md, "> **Caution.** {CAUTION}\n");
+}
+
+/// The warnings of the computation (also in summary.json and on standard error), before the
+/// plan they qualify; nothing when there are none.
+fn briefing_warnings(md: &mut String, c: &Computed) {
+    if c.map.warnings.is_empty() {
+        return;
+    }
+    let _ = writeln!(md, "## Warnings\n");
+    for w in c.incident.locate_warnings(&c.map.warnings) {
+        let place = match (w.line, w.column) {
+            (Some(l), Some(col)) => format!(" (incident file line {l}, column {col})"),
+            (Some(l), None) => format!(" (incident file line {l})"),
+            _ => String::new(),
+        };
+        let _ = writeln!(md, "- **{}**{place}: {}", w.kind.name(), w.message);
+    }
+    let _ = writeln!(md);
 }
 
 /// The whole plan's joint POS and bound: the numbers `pos_plan` and `pos_optimal_bound` of

@@ -49,6 +49,10 @@ pub struct AnalystSummary {
     pub leave_one_out_shift: Option<f64>,
     /// How far the pool's centroid moves without this analyst, metres.
     pub leave_one_out_centroid_shift_m: Option<f64>,
+    /// Share of the stationary part after the land (or water) mask, when one applies: an
+    /// analyst whose scenarios lie where the object cannot be loses their share to the others.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub share_after_mask: Option<f64>,
 }
 
 /// One scenario's effective weight.
@@ -248,6 +252,9 @@ pub struct Summary {
     pub pos_cumulative: f64,
     /// Drift scenarios.
     pub drift: Vec<DriftSummary>,
+    /// What is legal but suspect in the incident or at this time, each with its place in the
+    /// incident file (also printed on standard error; `--strict` refuses them).
+    pub warnings: Vec<seekgrid_incident::LocatedWarning>,
     /// Every file written, by name, with the layer that wrote it (sidecars included).
     pub outputs: BTreeMap<String, FileRecord>,
     /// Chosen layers that wrote nothing, by `--outputs` name, with the reason.
@@ -322,6 +329,7 @@ fn summarise_map(incident: &Incident, m: &IncidentMap) -> Summary {
                 js_divergence_bits: d.map(|d| d.js_divergence_bits),
                 leave_one_out_shift: d.map(|d| d.leave_one_out_shift),
                 leave_one_out_centroid_shift_m: d.map(|d| d.leave_one_out_centroid_shift_m),
+                share_after_mask: m.analyst_share_after_mask(id),
             }
         })
         .collect();
@@ -410,6 +418,7 @@ fn summarise_map(incident: &Incident, m: &IncidentMap) -> Summary {
         searches_pending: m.searches_pending.clone(),
         pos_cumulative: m.pos_cumulative,
         drift,
+        warnings: incident.locate_warnings(&m.warnings),
         outputs: BTreeMap::new(),
         outputs_not_written: BTreeMap::new(),
         pos_plan: None,

@@ -10,3 +10,4 @@ mod layers;
 mod located;
 mod log;
 mod output_folder;
+mod warnings;
