@@ -12,6 +12,9 @@ pub const MPS_PER_KNOT: f64 = METRES_PER_NM / 3600.0;
 /// Metres per second in one kilometre per hour (exact).
 pub const MPS_PER_KMH: f64 = 1000.0 / 3600.0;
 
+/// Metres in one kilometre.
+pub const METRES_PER_KM: f64 = 1000.0;
+
 /// Square metres in one square kilometre.
 pub const M2_PER_KM2: f64 = 1.0e6;
 

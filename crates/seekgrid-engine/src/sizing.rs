@@ -184,7 +184,7 @@ fn reaches(incident: &Incident, until: Time) -> Vec<Reach> {
                     + l.crosswind_slope.abs() * wind
                     + l.crosswind_offset_kn.abs()
                     + 3.0 * l.crosswind_sigma_kn;
-                let kn = 1852.0 / 3600.0;
+                let kn = seekgrid_core::units::MPS_PER_KNOT;
                 let parts = [
                     (
                         SIGMAS * d.position_sigma_m,

@@ -753,8 +753,10 @@ impl VectorDef {
     pub fn uncovered(&self, what: &str, from: Time, to: Time) -> Option<String> {
         let (first, last) = self.time_span()?;
         let fmt = |t: Time| t.format("%Y-%m-%dT%H:%MZ").to_string();
-        let hours = |a: Time, b: Time| (b - a).as_seconds_f64() / 3600.0;
-        let slack = chrono::TimeDelta::seconds((HELD_WITHOUT_ASKING_H * 3600.0) as i64);
+        let hours = |a: Time, b: Time| seekgrid_core::units::s_to_hours((b - a).as_seconds_f64());
+        let slack = chrono::TimeDelta::seconds(seekgrid_core::units::hours_to_s(
+            HELD_WITHOUT_ASKING_H,
+        ) as i64);
         let gap = if first > from + slack {
             format!(
                 "starts at {}, {:.1} h after the drift begins ({})",

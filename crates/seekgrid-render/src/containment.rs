@@ -407,7 +407,7 @@ pub fn containment_geojson(
                 "poc": mass,
                 "share_of_grid": mass / total,
                 "cells": n,
-                "area_km2": n as f64 * grid.cell_area_m2() / 1e6,
+                "area_km2": n as f64 * grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2,
             }
         }));
     }

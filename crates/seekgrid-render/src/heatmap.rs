@@ -48,7 +48,7 @@ pub struct MapStyle<'a> {
 pub type Rgb = [u8; 3];
 
 #[derive(Debug, Clone)]
-enum Shape {
+enum OverlayShape {
     Line(LineString<f64>),
     Polygon(Polygon<f64>),
     Points(Vec<Coord<f64>>),
@@ -60,7 +60,7 @@ enum Shape {
 /// area.
 #[derive(Debug, Clone)]
 pub struct Overlay {
-    shape: Shape,
+    shape: OverlayShape,
     colour: Rgb,
     width_px: u32,
     fill: Option<[u8; 4]>,
@@ -72,20 +72,20 @@ impl Overlay {
     /// A line (track, coastline) of `width_px` pixels.
     #[must_use]
     pub fn line(line: LineString<f64>, colour: Rgb, width_px: u32) -> Self {
-        Self::new(Shape::Line(line), colour, width_px)
+        Self::new(OverlayShape::Line(line), colour, width_px)
     }
 
     /// A polygon outline (search area, segment) of `width_px` pixels, holes outlined too.
     #[must_use]
     pub fn polygon(poly: Polygon<f64>, colour: Rgb, width_px: u32) -> Self {
-        Self::new(Shape::Polygon(poly), colour, width_px)
+        Self::new(OverlayShape::Polygon(poly), colour, width_px)
     }
 
     /// A polygon filled with `fill` (RGBA, alpha 0..=255 blends over the raster) and outlined
     /// with `colour` (`width_px` 0 for no outline), e.g. land.
     #[must_use]
     pub fn filled_polygon(poly: Polygon<f64>, fill: [u8; 4], colour: Rgb, width_px: u32) -> Self {
-        let mut o = Self::new(Shape::Polygon(poly), colour, width_px);
+        let mut o = Self::new(OverlayShape::Polygon(poly), colour, width_px);
         o.fill = Some(fill);
         o
     }
@@ -93,7 +93,7 @@ impl Overlay {
     /// Points (datum, commence search points) as discs of diameter `diameter_px` with a white rim.
     #[must_use]
     pub fn points(points: Vec<Coord<f64>>, colour: Rgb, diameter_px: u32) -> Self {
-        Self::new(Shape::Points(points), colour, diameter_px)
+        Self::new(OverlayShape::Points(points), colour, diameter_px)
     }
 
     /// Adds a label drawn on the map beside the shape (polygon: at its first vertex; line: at its
@@ -111,7 +111,7 @@ impl Overlay {
         self
     }
 
-    fn new(shape: Shape, colour: Rgb, width_px: u32) -> Self {
+    fn new(shape: OverlayShape, colour: Rgb, width_px: u32) -> Self {
         Self {
             shape,
             colour,
@@ -355,7 +355,11 @@ pub fn heatmap_png(
     };
     check_layer("heatmap values", grid, values, hi)?;
     let prj = utm_wkt1_esri(frame.epsg())?;
-    let colouring = Colouring::new(style.scale, values, grid.cell_area_m2() / 1e6);
+    let colouring = Colouring::new(
+        style.scale,
+        values,
+        grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2,
+    );
     let legend = legend_entries(overlays);
     let layout = Layout::new(grid, style, legend.len())?;
     let mut cv = Canvas::new(layout.width as u32, layout.height as u32, WHITE, layout.u);
@@ -642,7 +646,7 @@ fn draw_key(cv: &mut Canvas, layout: &Layout, legend: &[&Overlay]) {
         let y = p.entry_y(i, u);
         let c = [o.colour[0], o.colour[1], o.colour[2], 255];
         match &o.shape {
-            Shape::Line(_) => {
+            OverlayShape::Line(_) => {
                 let yy = f64::from(y + 10 * u);
                 cv.stroke_path(
                     &[(f64::from(p.x), yy), (f64::from(p.x + 28 * u), yy)],
@@ -651,10 +655,10 @@ fn draw_key(cv: &mut Canvas, layout: &Layout, legend: &[&Overlay]) {
                     whole,
                 );
             }
-            Shape::Polygon(_) => {
+            OverlayShape::Polygon(_) => {
                 swatch(cv, y, o.fill, (o.width_px > 0).then_some((c, o.width_px)));
             }
-            Shape::Points(_) => draw_point(cv, p.x + 14 * u, y + 10 * u, c, o.width_px),
+            OverlayShape::Points(_) => draw_point(cv, p.x + 14 * u, y + 10 * u, c, o.width_px),
         }
         cv.text(o.legend.as_deref().unwrap_or(""), p.x + 40 * u, y, INK, 1);
     }
@@ -738,12 +742,12 @@ fn draw_overlays(
         let c = [o.colour[0], o.colour[1], o.colour[2], 255];
         let mut anchor: Option<(f64, f64)> = None;
         match &o.shape {
-            Shape::Line(ls) => {
+            OverlayShape::Line(ls) => {
                 let pts = ring_px(ls);
                 anchor = pts.first().copied();
                 cv.stroke_path(&pts, f64::from(o.width_px), c, clip);
             }
-            Shape::Polygon(poly) => {
+            OverlayShape::Polygon(poly) => {
                 let rings: Vec<Vec<(f64, f64)>> = std::iter::once(poly.exterior())
                     .chain(poly.interiors())
                     .map(&ring_px)
@@ -758,7 +762,7 @@ fn draw_overlays(
                 }
                 anchor = rings.first().and_then(|r| r.first().copied());
             }
-            Shape::Points(pts) => {
+            OverlayShape::Points(pts) => {
                 for p in pts {
                     let q = to_px(*p);
                     if inside(q) {

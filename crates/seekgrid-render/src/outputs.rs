@@ -140,7 +140,7 @@ pub(crate) fn containment(c: &Computed, out: &mut Recorder) -> Result<(), Render
 /// The heatmap layer's writer: `heatmap.png` and its sidecars.
 pub(crate) fn heatmap(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
     let m = c.map;
-    let cell_km2 = m.grid.cell_area_m2() / 1e6;
+    let cell_km2 = m.grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
     let density = m.poc.mapv(|p| p / cell_km2);
     let sub = subtitle(m, "Probability map");
     let style = MapStyle {
@@ -288,7 +288,7 @@ fn segment_rows(m: &IncidentMap, segments: &[seekgrid_prior::Segment]) -> Vec<Se
         .enumerate()
         .map(|(k, row)| SegmentRow {
             id: row.id.clone(),
-            area_km2: row.area_m2 / 1e6,
+            area_km2: row.area_m2 / seekgrid_core::units::M2_PER_KM2,
             poa: row.poa,
             density_km2: row.density_per_km2,
             searched: match &searched {

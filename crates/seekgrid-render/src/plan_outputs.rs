@@ -13,6 +13,7 @@ use crate::{self as render, ColourScale, MapStyle, Overlay, RenderError};
 use geo::{Area, Coord, Polygon};
 use geojson::{Feature, JsonObject};
 use seekgrid_core::Frame;
+use seekgrid_core::units::{M2_PER_KM2, METRES_PER_KM, m_to_nm};
 use seekgrid_engine::PlanRun;
 use seekgrid_plan::{SegmentAssignment, UnitAssignment};
 use serde::Serialize;
@@ -212,7 +213,7 @@ pub fn plan_summary(run: &PlanRun) -> PlanSummary {
     let mut units = Vec::new();
     if let Some(p) = &run.areas {
         units.extend(p.assignments.iter().map(|a| UnitSummary::Area {
-            area_km2: a.area_m2 / 1e6,
+            area_km2: a.area_m2 / M2_PER_KM2,
             coverage: a.coverage,
             hours_needed: a.hours_needed,
             pattern: a.pattern.kind(),
@@ -298,7 +299,7 @@ pub(crate) fn geojson(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result
         props.insert("pod".into(), a.pod.into());
         props.insert("pos".into(), a.pos.into());
         props.insert("poa".into(), a.poa.into());
-        props.insert("area_km2".into(), (a.area_m2 / 1e6).into());
+        props.insert("area_km2".into(), (a.area_m2 / M2_PER_KM2).into());
         props.insert("track_length_m".into(), a.track_length_m.into());
         props.insert("hours_needed".into(), a.hours_needed.into());
         let mut area = props.clone();
@@ -325,7 +326,10 @@ pub(crate) fn geojson(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result
             props.insert("coverage".into(), a.coverage.into());
             props.insert("pod".into(), a.pod.into());
             props.insert("pos".into(), a.pos.into());
-            props.insert("area_km2".into(), (poly.unsigned_area() / 1e6).into());
+            props.insert(
+                "area_km2".into(),
+                (poly.unsigned_area() / M2_PER_KM2).into(),
+            );
             props.insert("part".into(), "area".into());
             features.push(feature(render::polygon_to_geojson(frame, poly), props));
         }
@@ -511,8 +515,8 @@ fn briefing_unit(md: &mut String, frame: &Frame, a: &UnitAssignment) {
             "area",
             format!(
                 "{:.2} km² ({:.2} NM²)",
-                a.area_m2 / 1e6,
-                a.area_m2 / (1852.0 * 1852.0)
+                a.area_m2 / M2_PER_KM2,
+                m_to_nm(m_to_nm(a.area_m2))
             ),
         ),
         (
@@ -520,7 +524,7 @@ fn briefing_unit(md: &mut String, frame: &Frame, a: &UnitAssignment) {
             format!(
                 "{:.0} m ({:.2} NM)",
                 a.track_spacing_m,
-                a.track_spacing_m / 1852.0
+                m_to_nm(a.track_spacing_m)
             ),
         ),
         ("coverage", format!("{:.2}", a.coverage)),
@@ -531,8 +535,8 @@ fn briefing_unit(md: &mut String, frame: &Frame, a: &UnitAssignment) {
             "track length",
             format!(
                 "{:.1} km ({:.1} NM)",
-                a.track_length_m / 1000.0,
-                a.track_length_m / 1852.0
+                a.track_length_m / METRES_PER_KM,
+                m_to_nm(a.track_length_m)
             ),
         ),
         ("time needed", format!("{:.2} h", a.hours_needed)),
@@ -621,7 +625,7 @@ pub(crate) fn picture(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result
         }
     }
     let t = plan_totals(run);
-    let cell_km2 = m.grid.cell_area_m2() / 1e6;
+    let cell_km2 = m.grid.cell_area_m2() / M2_PER_KM2;
     let density = m.poc.mapv(|p| p / cell_km2);
     let sub = format!(
         "Plan for the period from {} UTC | POS {:.3} of at best {:.3}",
@@ -647,7 +651,7 @@ pub(crate) fn effort(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<
     let sub = format!(
         "Optimal coverage (the bound): POS {:.3} for {:.1} km² of effort",
         run.bound.pos,
-        run.bound.effort_m2 / 1e6
+        run.bound.effort_m2 / M2_PER_KM2
     );
     let style = MapStyle {
         title: &c.incident.title,

@@ -330,7 +330,7 @@ pub fn probability_geojson(
     let grid_mass = neumaier_sum(flat.iter().copied());
 
     let decimals = decimals_for_cell(grid.cell_m());
-    let cell_area_km2 = grid.cell_area_m2() / 1e6;
+    let cell_area_km2 = grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
     let mut out: Vec<u8> = Vec::with_capacity(256 + selected.len().min(1 << 22) * 200);
     out.extend_from_slice(b"{\"type\":\"FeatureCollection\",\"name\":");
     push_json(&mut out, &Value::String(collection_name.to_owned()))?;

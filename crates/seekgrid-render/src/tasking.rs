@@ -84,7 +84,7 @@ pub fn tasking(incident: &Incident, run: &PlanRun, run_id: &str) -> Tasking {
 
 /// `start` plus `hours`, to the millisecond.
 fn after_hours(start: Time, hours: f64) -> Time {
-    let ms = (hours * 3_600_000.0).round();
+    let ms = (seekgrid_core::units::hours_to_s(hours) * 1000.0).round();
     // Hours on scene are validated positive and finite; a day count beyond chrono's range
     // cannot be a period on scene, so it is held at the start.
     if ms.is_finite() && ms.abs() < 1e15 {
