@@ -14,7 +14,11 @@
 //! * **Timeline**: a row at the reference time, at every whole hour after it up to the end, at
 //!   every applied search's end, and at the end. A search counts in a row from its end on.
 //! * **Effort** of a search: the area swept, sweep width (with its correction factors) x track
-//!   length (W·L, m²), and the track length; the length of a pattern is that of its legs.
+//!   length (Z = W·L, m²), and the track length L. For a parallel sweep or creeping line, whose
+//!   POD is credited over its whole area at coverage C = W/S, L is the area over the track
+//!   spacing (C = Z/A = W/S, so L = A/S: found, Cooper, "Selected Inland Search Theory
+//!   Definitions"), a little more than its drawn legs, whose turns lie S/2 inside the edges;
+//!   for every other pattern and a followed track, L is the length of the legs or track.
 //! * **Period**: the searches tasked in the same period (the incident's `tasked_in`); a search
 //!   without one forms a period with the searches that share exactly its start and end. A
 //!   period runs from the earliest start to the latest end of its searches. Periods are ordered
@@ -168,8 +172,11 @@ pub struct ReviewedSearch {
     pub detection: &'static str,
     /// Effective sweep width, metres.
     pub sweep_width_m: f64,
-    /// Its effort (one search).
+    /// Its effort (one search; see the module docs for the track length of a rectangle).
     pub effort: Effort,
+    /// Length of its legs as drawn, or of its followed track, metres (as in the map's
+    /// summary).
+    pub legs_length_m: f64,
     /// Its POS given that the searches before it failed (conditional); `None` when not applied.
     pub pos: Option<f64>,
     /// Its POD at the found position, where found (the search's own POD at that point, from
@@ -515,7 +522,7 @@ pub fn review(
             .iter()
             .filter(|s| p.searches.contains(&s.def.id))
         {
-            let length = geometry(s).2;
+            let length = effort_length(s, geometry(s).2);
             p.effort.area_swept_m2 += s.sweep_width.metres() * length;
             p.effort.track_length_m += length;
             p.effort.searches += 1;
@@ -638,6 +645,7 @@ pub fn review(
             None => geometry(s),
         };
         let sweep_width_m = s.sweep_width.metres();
+        let length = effort_length(s, track_length_m);
         let pod_at_truth = match &truth {
             Some(t) => Some(pod_at(s, t.xy)?),
             None => None,
@@ -652,10 +660,11 @@ pub fn review(
             detection: law_name(s.law),
             sweep_width_m,
             effort: Effort {
-                area_swept_m2: sweep_width_m * track_length_m,
-                track_length_m,
+                area_swept_m2: sweep_width_m * length,
+                track_length_m: length,
                 searches: 1,
             },
+            legs_length_m: track_length_m,
             pos: report.map(|r| r.pos),
             pod_at_truth,
             area_polygon: area,
@@ -907,6 +916,19 @@ fn geometry(s: &PreparedSearch) -> (LineString<f64>, Option<Polygon<f64>>, f64) 
         .map(|w| (w[1].x - w[0].x).hypot(w[1].y - w[0].y))
         .sum();
     (track, area, length)
+}
+
+/// The track length credited to a search: A/S for a rectangle pattern (its POD is credited
+/// over the whole area at coverage W/S), else the drawn length of its legs or track.
+fn effort_length(s: &PreparedSearch, drawn_m: f64) -> f64 {
+    use geo::Area;
+    match &s.pattern {
+        Some(p) if p.is_rectangle() => {
+            // coverage = W/S, so A·coverage/W = A/S.
+            p.area_polygon().unsigned_area() * p.coverage(&s.sweep_width) / s.sweep_width.metres()
+        }
+        _ => drawn_m,
+    }
 }
 
 /// A search's POD at one point, from its pattern or track and law.
