@@ -5,6 +5,9 @@
 //! * [`timeline::map`] computes the belief at a time: prior, drift, and every completed search
 //!   applied in time order as a Bayesian update, returned as an [`IncidentMap`].
 //! * [`planning::plan_at`] plans the next period against the belief at its start.
+//! * [`review::review`] replays an ended incident against its outcome: the timeline of POS and
+//!   effort, the searches over the found position, the analysts' scores, and the optimal
+//!   allocation of each period's effort.
 //!
 //! The engine knows the incident model (`seekgrid-incident`) and the search theory crates; it
 //! knows no output format (no GeoJSON, no JSON, no pictures) and does no I/O: every file a user
@@ -12,8 +15,10 @@
 
 pub mod planning;
 pub mod prepare;
+pub mod review;
 pub mod slices;
 pub mod timeline;
 
 pub use planning::{PlanRun, PlanRunError, plan_at};
+pub use review::{Outcome, Review, ReviewError, review};
 pub use timeline::{IncidentMap, MapError, MapOptions, Progress, SearchReport, map};

@@ -190,153 +190,254 @@ pub fn map(
     options: &MapOptions,
     progress: Progress<'_>,
 ) -> Result<IncidentMap, MapError> {
-    let prepared = prepare(incident)?;
-    let frame = prepared.frame.clone();
-
-    let last_search_end = incident.searches.iter().map(|s| s.end).max();
-    let at = options.at.unwrap_or_else(|| {
-        last_search_end
-            .unwrap_or(incident.reference_time)
-            .max(incident.reference_time)
-    });
-    let mut to_apply: Vec<&PreparedSearch> = prepared
-        .searches
-        .iter()
-        .filter(|s| s.def.end <= at)
-        .collect();
-    to_apply.sort_by(|a, b| {
-        a.def
-            .end
-            .cmp(&b.def.end)
-            .then(a.def.start.cmp(&b.def.start))
-            .then(a.def.id.cmp(&b.def.id))
-    });
-    let searches_pending = prepared
-        .searches
-        .iter()
-        .filter(|s| s.def.end > at)
-        .map(|s| s.def.id.clone())
-        .collect();
-
-    // Drift first: its cloud is part of the grid extent.
-    let land = prepared.land.clone().map(drift::LandMask::new);
-    let mut drift_runs = Vec::new();
-    for d in &prepared.drift {
-        let end = at
-            .max(incident.reference_time)
-            .max(d.scenario.adrift_latest);
-        // Positions are stored exactly where they are used: the reference time, the map
-        // time, each search's mid-time and every whole hour (the drift layer's track); a
-        // record every six hours beyond that keeps interpolated positions close for other
-        // readers. 16 bytes per particle per record.
-        let mut record_at: Vec<Time> = vec![incident.reference_time, at];
-        record_at.extend(to_apply.iter().map(|s| mid_time(s)));
-        for s in &to_apply {
-            record_at.extend(slices::slices(s).into_iter().flatten().map(|p| p.mid));
-        }
-        let hour = chrono::TimeDelta::hours(1);
-        if let Ok(first) = chrono::DurationRound::duration_trunc(d.scenario.adrift_earliest, hour) {
-            let mut t = first + hour;
-            while t < end {
-                record_at.push(t);
-                t += hour;
-            }
-        }
-        let options = drift::SimulationOptions {
-            end,
-            record_every_s: DRIFT_RECORD_EVERY_S,
-            step_s: None,
-            also_record_at: record_at,
-        };
-        let report = |done: u64, total: u64| progress(&d.id, done, total);
-        let run = drift::simulate(&d.scenario, &frame, land.as_ref(), &options, &report).map_err(
-            |source| MapError::Drift {
-                id: d.id.clone(),
-                source: Box::new(source),
-            },
-        )?;
-        drift_runs.push((d.id.clone(), run));
-    }
-
-    let (grid_box, grid_auto) = match incident.grid.bounds {
-        Some(b) => (lon_lat_box(&frame, b)?, false),
-        None => {
-            let mut b = prior::auto_extent(&prepared.stationary);
-            let mut times: Vec<Time> = vec![incident.reference_time, at];
-            times.extend(to_apply.iter().map(|s| mid_time(s)));
-            for (_, run) in &drift_runs {
-                for t in &times {
-                    if let Some(sb) = snapshot_box(&run.positions_at(*t)) {
-                        let sb = sb.expanded(incident.grid.cell_m);
-                        b = Some(b.map_or(sb, |x| x.union(&sb)));
-                    }
-                }
-            }
-            for s in &to_apply {
-                if let Some(sb) = s.extent() {
-                    b = Some(b.map_or(sb, |x| x.union(&sb)));
-                }
-            }
-            (b.ok_or(MapError::NoExtent)?, true)
-        }
-    };
-    let grid = GridSpec::covering(&grid_box, incident.grid.cell_m, incident.grid.max_cells)
-        .map_err(MapError::Grid)?;
-
-    // The stationary part on the grid.
-    let m = prepared.stationary_mass;
-    let (prior, mut cells, declared, outside) = if prepared.stationary.is_empty() {
-        (None, Array2::zeros((grid.rows(), grid.cols())), 0.0, 0.0)
-    } else {
-        let p = prior::combine(
-            &prepared.stationary_analysts,
-            &prepared.stationary,
-            &grid,
-            prepared.pool,
-        )
-        .map_err(|e| MapError::Prior(Box::new(e)))?;
-        let cells = &p.cells * m;
-        let (declared, outside) = (p.rest_of_world * m, p.outside_grid * m);
-        (Some(p), cells, declared, outside)
-    };
-    if let (Some(afloat), Some(land)) = (incident.object_afloat, &prepared.land) {
-        keep_where_the_object_can_be(&mut cells, &grid, land, afloat)?;
-    }
-
-    // The drifting part: equal weights within each scenario, summing to its pool mass.
-    let mut weights = Vec::new();
-    for (d, (_, run)) in prepared.drift.iter().zip(&drift_runs) {
-        let n = run.len() as f64;
-        weights.extend(std::iter::repeat_n(d.mass / n, run.len()));
-    }
-    let place = |t: Time| -> (Vec<f64>, Vec<f64>, Vec<bool>) {
-        let (mut x, mut y, mut s) = (Vec::new(), Vec::new(), Vec::new());
-        for (_, run) in &drift_runs {
-            let snap = run.positions_at(t);
-            x.extend(snap.x_m);
-            y.extend(snap.y_m);
-            s.extend(snap.stranded);
-        }
-        (x, y, s)
-    };
-    let (x, y, s) = place(incident.reference_time);
-    let particles = Particles::new(x, y, weights, s).map_err(MapError::Belief)?;
-    let outside_total = declared + outside;
-    let declared_share_of_outside = if outside_total > 0.0 {
-        declared / outside_total
-    } else {
-        1.0
-    };
-    let mut belief =
-        Belief::new(grid, cells, particles, outside_total).map_err(MapError::Belief)?;
-    let belief_before_searches = belief.clone();
-
+    let replay = Replay::start(incident, options.at, &[], progress)?;
+    let grid = replay.grid;
+    let mut belief = replay.belief_before_searches.clone();
     let mut pod_cumulative: Option<Array2<f64>> = None;
     let mut reports = Vec::new();
     let mut miss_all = 1.0;
-    for s in to_apply {
+    for &k in &replay.to_apply {
+        let s = &replay.prepared.searches[k];
+        let applied = replay.apply(&mut belief, s)?;
+        let err = |source| MapError::Search {
+            id: s.def.id.clone(),
+            source: Box::new(source),
+        };
+        let cumulative =
+            pod_cumulative.get_or_insert_with(|| Array2::zeros((grid.rows(), grid.cols())));
+        applied.layer.combine_into(cumulative).map_err(err)?;
+        miss_all *= 1.0 - applied.report.pos;
+        reports.push(applied.report);
+    }
+    let (x, y, st) = replay.place(replay.at);
+    belief.move_particles(x, y, st).map_err(MapError::Belief)?;
+
+    let poc = poc_cells(&belief, &grid, &particle_clouds(&replay.drift_runs));
+    Ok(IncidentMap {
+        poc,
+        prepared: replay.prepared,
+        grid,
+        grid_auto: replay.grid_auto,
+        at: replay.at,
+        prior: replay.prior,
+        belief,
+        belief_before_searches: replay.belief_before_searches,
+        declared_share_of_outside: replay.declared_share_of_outside,
+        pod_cumulative,
+        searches: reports,
+        searches_pending: replay.searches_pending,
+        drift_runs: replay.drift_runs,
+        pos_cumulative: 1.0 - miss_all,
+    })
+}
+
+/// An incident set up at its reference time, ready to be carried forward: the inputs in the
+/// frame, the drift simulated once, the grid, and the belief before any search. [`map`] and
+/// the review ([`crate::review`]) both start here; the review then visits many times in one
+/// pass over the same drift runs.
+pub(crate) struct Replay {
+    /// The inputs in the frame.
+    pub(crate) prepared: Prepared,
+    /// The grid.
+    pub(crate) grid: GridSpec,
+    /// Whether the grid extent was chosen automatically.
+    pub(crate) grid_auto: bool,
+    /// The last time the replay describes (the map time).
+    pub(crate) at: Time,
+    /// The stationary prior, when there is one.
+    pub(crate) prior: Option<prior::Prior>,
+    /// The belief at the reference time, before any search.
+    pub(crate) belief_before_searches: Belief,
+    /// See [`IncidentMap::declared_share_of_outside`].
+    pub(crate) declared_share_of_outside: f64,
+    /// Drift simulations, one per drift scenario.
+    pub(crate) drift_runs: Vec<(String, drift::DriftRun)>,
+    /// Indices into `prepared.searches` of the searches ended by `at`, in the order applied
+    /// (end time, then start, then id).
+    pub(crate) to_apply: Vec<usize>,
+    /// Ids of the searches ending after `at`.
+    pub(crate) searches_pending: Vec<String>,
+}
+
+/// One search applied by [`Replay::apply`].
+pub(crate) struct Applied {
+    /// Its report.
+    pub(crate) report: SearchReport,
+    /// Its POD on the cells.
+    pub(crate) layer: search::PodLayer,
+}
+
+impl Replay {
+    /// Prepares the incident, simulates the drift to `at` (default as [`MapOptions::at`])
+    /// with positions stored exactly at the times the map uses and at `extra_record_at`, chooses
+    /// the grid and builds the belief at the reference time.
+    pub(crate) fn start(
+        incident: &Incident,
+        at: Option<Time>,
+        extra_record_at: &[Time],
+        progress: Progress<'_>,
+    ) -> Result<Self, MapError> {
+        let prepared = prepare(incident)?;
+        let frame = prepared.frame.clone();
+
+        let last_search_end = incident.searches.iter().map(|s| s.end).max();
+        let at = at.unwrap_or_else(|| {
+            last_search_end
+                .unwrap_or(incident.reference_time)
+                .max(incident.reference_time)
+        });
+        let mut to_apply: Vec<&PreparedSearch> = prepared
+            .searches
+            .iter()
+            .filter(|s| s.def.end <= at)
+            .collect();
+        to_apply.sort_by(|a, b| {
+            a.def
+                .end
+                .cmp(&b.def.end)
+                .then(a.def.start.cmp(&b.def.start))
+                .then(a.def.id.cmp(&b.def.id))
+        });
+        let searches_pending = prepared
+            .searches
+            .iter()
+            .filter(|s| s.def.end > at)
+            .map(|s| s.def.id.clone())
+            .collect();
+
+        // Drift first: its cloud is part of the grid extent.
+        let land = prepared.land.clone().map(drift::LandMask::new);
+        let mut drift_runs = Vec::new();
+        for d in &prepared.drift {
+            let end = at
+                .max(incident.reference_time)
+                .max(d.scenario.adrift_latest);
+            // Positions are stored exactly where they are used: the reference time, the map
+            // time, each search's mid-time and every whole hour (the drift layer's track), and
+            // the caller's extra times; a record every six hours beyond that keeps
+            // interpolated positions close for other readers. 16 bytes per particle per record.
+            let mut record_at: Vec<Time> = vec![incident.reference_time, at];
+            record_at.extend_from_slice(extra_record_at);
+            record_at.extend(to_apply.iter().map(|s| mid_time(s)));
+            for s in &to_apply {
+                record_at.extend(slices::slices(s).into_iter().flatten().map(|p| p.mid));
+            }
+            let hour = chrono::TimeDelta::hours(1);
+            if let Ok(first) =
+                chrono::DurationRound::duration_trunc(d.scenario.adrift_earliest, hour)
+            {
+                let mut t = first + hour;
+                while t < end {
+                    record_at.push(t);
+                    t += hour;
+                }
+            }
+            let options = drift::SimulationOptions {
+                end,
+                record_every_s: DRIFT_RECORD_EVERY_S,
+                step_s: None,
+                also_record_at: record_at,
+            };
+            let report = |done: u64, total: u64| progress(&d.id, done, total);
+            let run = drift::simulate(&d.scenario, &frame, land.as_ref(), &options, &report)
+                .map_err(|source| MapError::Drift {
+                    id: d.id.clone(),
+                    source: Box::new(source),
+                })?;
+            drift_runs.push((d.id.clone(), run));
+        }
+
+        let (grid_box, grid_auto) = match incident.grid.bounds {
+            Some(b) => (lon_lat_box(&frame, b)?, false),
+            None => {
+                let mut b = prior::auto_extent(&prepared.stationary);
+                let mut times: Vec<Time> = vec![incident.reference_time, at];
+                times.extend(to_apply.iter().map(|s| mid_time(s)));
+                for (_, run) in &drift_runs {
+                    for t in &times {
+                        if let Some(sb) = snapshot_box(&run.positions_at(*t)) {
+                            let sb = sb.expanded(incident.grid.cell_m);
+                            b = Some(b.map_or(sb, |x| x.union(&sb)));
+                        }
+                    }
+                }
+                for s in &to_apply {
+                    if let Some(sb) = s.extent() {
+                        b = Some(b.map_or(sb, |x| x.union(&sb)));
+                    }
+                }
+                (b.ok_or(MapError::NoExtent)?, true)
+            }
+        };
+        let grid = GridSpec::covering(&grid_box, incident.grid.cell_m, incident.grid.max_cells)
+            .map_err(MapError::Grid)?;
+
+        // The stationary part on the grid.
+        let m = prepared.stationary_mass;
+        let (prior, mut cells, declared, outside) = if prepared.stationary.is_empty() {
+            (None, Array2::zeros((grid.rows(), grid.cols())), 0.0, 0.0)
+        } else {
+            let p = prior::combine(
+                &prepared.stationary_analysts,
+                &prepared.stationary,
+                &grid,
+                prepared.pool,
+            )
+            .map_err(|e| MapError::Prior(Box::new(e)))?;
+            let cells = &p.cells * m;
+            let (declared, outside) = (p.rest_of_world * m, p.outside_grid * m);
+            (Some(p), cells, declared, outside)
+        };
+        if let (Some(afloat), Some(land)) = (incident.object_afloat, &prepared.land) {
+            keep_where_the_object_can_be(&mut cells, &grid, land, afloat)?;
+        }
+
+        // The drifting part: equal weights within each scenario, summing to its pool mass.
+        let mut weights = Vec::new();
+        for (d, (_, run)) in prepared.drift.iter().zip(&drift_runs) {
+            let n = run.len() as f64;
+            weights.extend(std::iter::repeat_n(d.mass / n, run.len()));
+        }
+        let (x, y, s) = place(&drift_runs, incident.reference_time);
+        let particles = Particles::new(x, y, weights, s).map_err(MapError::Belief)?;
+        let outside_total = declared + outside;
+        let declared_share_of_outside = if outside_total > 0.0 {
+            declared / outside_total
+        } else {
+            1.0
+        };
+        let belief_before_searches =
+            Belief::new(grid, cells, particles, outside_total).map_err(MapError::Belief)?;
+        let to_apply = to_apply.iter().map(|s| s.index).collect();
+        Ok(Self {
+            prepared,
+            grid,
+            grid_auto,
+            at,
+            prior,
+            belief_before_searches,
+            declared_share_of_outside,
+            drift_runs,
+            to_apply,
+            searches_pending,
+        })
+    }
+
+    /// Every particle's position at `t` (all drift runs, in run order).
+    pub(crate) fn place(&self, t: Time) -> (Vec<f64>, Vec<f64>, Vec<bool>) {
+        place(&self.drift_runs, t)
+    }
+
+    /// Applies one completed search to `belief` as a Bayesian update: the particles are placed
+    /// at the search's middle (or met part by part, see [`crate::slices`]) and left there.
+    pub(crate) fn apply(
+        &self,
+        belief: &mut Belief,
+        s: &PreparedSearch,
+    ) -> Result<Applied, MapError> {
+        let grid = &self.grid;
         let t = mid_time(s);
-        let (x, y, st) = place(t);
+        let (x, y, st) = self.place(t);
         belief.move_particles(x, y, st).map_err(MapError::Belief)?;
         let points: Vec<Coord<f64>> = (0..belief.particles().len())
             .map(|i| belief.particles().position(i))
@@ -350,12 +451,14 @@ pub fn map(
         // are scored where they are at its middle.
         let parts = slices::slices(s);
         let sliced = match &parts {
-            Some(parts) => Some(sliced_particle_pod(parts, &place, s.law, sw).map_err(err)?),
+            Some(parts) => {
+                Some(sliced_particle_pod(parts, &|t| self.place(t), s.law, sw).map_err(err)?)
+            }
             None => None,
         };
         let (layer, particle_pod, track_line, area) = match (&s.pattern, &s.track) {
             (Some(p), _) => (
-                search::pattern_pod(&grid, p, s.law, sw).map_err(err)?,
+                search::pattern_pod(grid, p, s.law, sw).map_err(err)?,
                 match sliced {
                     Some(pod) => pod,
                     None => search::pattern_pod_at(&points, p, s.law, sw).map_err(err)?,
@@ -364,7 +467,7 @@ pub fn map(
                 Some(p.area_polygon()),
             ),
             (None, Some(tr)) => (
-                search::track_pod(&grid, tr, s.law, sw).map_err(err)?,
+                search::track_pod(grid, tr, s.law, sw).map_err(err)?,
                 match sliced {
                     Some(pod) => pod,
                     None => search::track_pod_at(&points, tr, s.law, sw).map_err(err)?,
@@ -376,10 +479,9 @@ pub fn map(
         };
         let before_cells = belief.cells().clone();
         let before_weights = belief.particles().weights().to_vec();
-        let mut outcome =
-            search::update_after_miss(&mut belief, &layer, &particle_pod).map_err(err)?;
+        let mut outcome = search::update_after_miss(belief, &layer, &particle_pod).map_err(err)?;
         let searched = Searched {
-            cell_pod: &layer.to_dense(&grid).map_err(err)?,
+            cell_pod: &layer.to_dense(grid).map_err(err)?,
             particle_pod: &particle_pod,
         };
         searched.report(
@@ -387,10 +489,6 @@ pub fn map(
             (&before_cells, &before_weights),
             (belief.cells(), belief.particles().weights()),
         );
-        let cumulative =
-            pod_cumulative.get_or_insert_with(|| Array2::zeros((grid.rows(), grid.cols())));
-        layer.combine_into(cumulative).map_err(err)?;
-        miss_all *= 1.0 - outcome.pos;
         let track_length_m = euclid_length(&track_line);
         let (coverage, pod_pattern, track_spacing_m) = match &s.pattern {
             Some(p) => {
@@ -403,44 +501,39 @@ pub fn map(
             }
             None => (None, None, None),
         };
-        reports.push(SearchReport {
-            id: s.def.id.clone(),
-            unit: s.def.unit.clone(),
-            start: s.def.start,
-            end: s.def.end,
-            evaluated_at: t,
-            sweep_width_m: sw.metres(),
-            detection: law_name(s.law),
-            track_spacing_m,
-            track_length_m,
-            coverage,
-            pod_pattern,
-            pos: outcome.pos,
-            outcome,
-            area_polygon: area,
-            track: track_line,
-        });
+        Ok(Applied {
+            report: SearchReport {
+                id: s.def.id.clone(),
+                unit: s.def.unit.clone(),
+                start: s.def.start,
+                end: s.def.end,
+                evaluated_at: t,
+                sweep_width_m: sw.metres(),
+                detection: law_name(s.law),
+                track_spacing_m,
+                track_length_m,
+                coverage,
+                pod_pattern,
+                pos: outcome.pos,
+                outcome,
+                area_polygon: area,
+                track: track_line,
+            },
+            layer,
+        })
     }
-    let (x, y, st) = place(at);
-    belief.move_particles(x, y, st).map_err(MapError::Belief)?;
+}
 
-    let poc = poc_cells(&belief, &grid, &particle_clouds(&drift_runs));
-    Ok(IncidentMap {
-        poc,
-        prepared,
-        grid,
-        grid_auto,
-        at,
-        prior,
-        belief,
-        belief_before_searches,
-        declared_share_of_outside,
-        pod_cumulative,
-        searches: reports,
-        searches_pending,
-        drift_runs,
-        pos_cumulative: 1.0 - miss_all,
-    })
+/// Every particle's position at `t`, all drift runs in run order.
+fn place(drift_runs: &[(String, drift::DriftRun)], t: Time) -> (Vec<f64>, Vec<f64>, Vec<bool>) {
+    let (mut x, mut y, mut s) = (Vec::new(), Vec::new(), Vec::new());
+    for (_, run) in drift_runs {
+        let snap = run.positions_at(t);
+        x.extend(snap.x_m);
+        y.extend(snap.y_m);
+        s.extend(snap.stranded);
+    }
+    (x, y, s)
 }
 
 /// Conditions the stationary cell masses on where the object can be: afloat, each cell keeps
@@ -588,19 +681,25 @@ fn sliced_particle_pod(
         .collect())
 }
 
-fn mid_time(s: &PreparedSearch) -> Time {
+pub(crate) fn mid_time(s: &PreparedSearch) -> Time {
     s.def.start + (s.def.end - s.def.start) / 2
 }
 
 /// The grid part plus the particles spread by the kernel of [`seekgrid_core::particle_density`].
-fn poc_cells(belief: &Belief, grid: &GridSpec, clouds: &[std::ops::Range<usize>]) -> Array2<f64> {
+pub(crate) fn poc_cells(
+    belief: &Belief,
+    grid: &GridSpec,
+    clouds: &[std::ops::Range<usize>],
+) -> Array2<f64> {
     let mut cells = belief.cells().clone();
     seekgrid_core::particle_density::add_particles(&mut cells, grid, belief.particles(), clouds);
     cells
 }
 
 /// The index range of each drift run's particles in the belief, in run order.
-fn particle_clouds(drift_runs: &[(String, drift::DriftRun)]) -> Vec<std::ops::Range<usize>> {
+pub(crate) fn particle_clouds(
+    drift_runs: &[(String, drift::DriftRun)],
+) -> Vec<std::ops::Range<usize>> {
     let mut start = 0;
     drift_runs
         .iter()
