@@ -8,11 +8,15 @@
 //! * [`review::review`] replays an ended incident against its outcome: the timeline of POS and
 //!   effort, the searches over the found position, the analysts' scores, and the optimal
 //!   allocation of each period's effort.
+//! * [`credibility::credibility`] reads a track record across incidents: each analyst's mean
+//!   log score and suggested weight, whether their biases share a direction, and whether the
+//!   pooled map beat the best single analyst.
 //!
 //! The engine knows the incident model (`seekgrid-incident`) and the search theory crates; it
 //! knows no output format (no GeoJSON, no JSON, no pictures) and does no I/O: every file a user
 //! receives is written by `seekgrid-render` from the values returned here.
 
+pub mod credibility;
 pub mod planning;
 pub mod prepare;
 pub mod review;
