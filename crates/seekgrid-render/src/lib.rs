@@ -12,6 +12,7 @@
 //!   traced from the raster as valid polygons with holes.
 //! * [`heatmap_png`] and [`write_png_set`]: a briefing picture with legend, scale bar, north
 //!   arrow, title and caution line, with world file, `.aux.xml` and `.prj` so GIS viewers place it.
+//! * [`review::write`]: an incident review as `review.json`, `review.md` and GeoJSON layers.
 //! * [`geojson_bytes`], [`polygon_to_geojson`], [`line_to_geojson`], [`point_to_geojson`]: the
 //!   shared GeoJSON writer and working-frame-to-lon/lat helpers for other layers.
 //!
@@ -51,6 +52,7 @@ pub mod output;
 pub mod outputs;
 pub mod plan_outputs;
 mod probability;
+pub mod review;
 pub mod summary;
 pub mod vector;
 
