@@ -4,8 +4,8 @@
 //! [`GridSpec`](seekgrid_core::GridSpec) and `ndarray::Array2<f64>` layers) into bytes and writes
 //! them atomically. It knows nothing of incident files, scenarios or search theory.
 //!
-//! * [`OutputDir`]: an output folder whose files appear whole (temporary file, fsync, rename)
-//!   and which never overwrites the run's inputs.
+//! * [`OutputDir`]: an output folder written as one unit: staged beside its destination under a
+//!   lock, put in place whole by one atomic swap, never holding the run's inputs.
 //! * [`probability_geojson`]: cells as RFC 7946 polygons with `poc`, `density_km2`, `row`,
 //!   `col` and `pod_cumulative`, limited to the top share of the mass for big grids.
 //! * [`containment_geojson`]: the smallest regions holding 50 %, 90 %, 95 % of the mass,
@@ -63,6 +63,6 @@ pub use heatmap::{
     ColourScale, GeoreferencedPng, MapStyle, Overlay, Rgb, heatmap_png, pixels_per_cell,
     write_png_set,
 };
-pub use output::OutputDir;
+pub use output::{OutputDir, OutputOptions};
 pub use probability::{CellLayer, ProbabilityExport, probability_geojson};
 pub use vector::{geojson_bytes, line_to_geojson, point_to_geojson, polygon_to_geojson};
