@@ -3,7 +3,7 @@
 //! The incidents live in `scenarios/` at the workspace root and are compiled into the binary,
 //! so the demo runs from any folder.
 
-use crate::{Failure, map_incident, plan_incident};
+use crate::{Failure, commit, map_incident, open_output, plan_incident};
 use seekgrid_render::OutputDir;
 use seekgrid_render::outputs::OutputSelection;
 use std::path::Path;
@@ -57,52 +57,48 @@ const LAND: &[Bundled] = &[
     ),
 ];
 
-fn write_inputs(folder: &Path, files: &[Bundled], force: bool) -> Result<(), Failure> {
+/// Writes the bundled files into `input`, making the subfolders they name.
+fn write_inputs(input: &OutputDir, files: &[Bundled]) -> Result<(), Failure> {
+    let failed = |e: seekgrid_render::RenderError| Failure::failed(e.to_string());
     for (name, text) in files {
-        let path = folder.join(name);
-        let parent = path.parent().unwrap_or(folder);
-        let dir = OutputDir::create(parent, true).map_err(|e| Failure::failed(e.to_string()))?;
-        if path.exists() && !force {
-            return Err(Failure::bad_input(format!(
-                "{} exists; use --force to replace the demo files",
-                path.display()
-            )));
+        let mut parts: Vec<&str> = name.split('/').collect();
+        let file_name = parts.pop().unwrap_or(name);
+        let mut folder = None;
+        for part in parts {
+            let parent = folder.as_ref().unwrap_or(input);
+            folder = Some(parent.subdir(part).map_err(failed)?);
         }
-        let file_name = path.file_name().and_then(|n| n.to_str()).unwrap_or(name);
-        dir.write(file_name, text.as_bytes())
-            .map_err(|e| Failure::failed(e.to_string()))?;
+        folder
+            .as_ref()
+            .unwrap_or(input)
+            .write(file_name, text.as_bytes())
+            .map_err(failed)?;
     }
     Ok(())
 }
 
-/// Runs the demo into `out`.
-pub(crate) fn run(out: &Path, force: bool) -> Result<(), Failure> {
-    if out.exists()
-        && out
-            .read_dir()
-            .map(|mut d| d.next().is_some())
-            .unwrap_or(false)
-        && !force
-    {
-        return Err(Failure::bad_input(format!(
-            "{} exists and is not empty; choose another --out or add --force",
-            out.display()
-        )));
-    }
+/// Runs the demo into `out`, written as one unit like every output folder: the inputs, maps
+/// and plans of both incidents appear together when all are done.
+pub(crate) fn run(out: &Path, force: bool, run_id: &str) -> Result<(), Failure> {
+    // The demo's inputs are its own outputs (copies of the bundled files): none to protect.
+    let dir = open_output(out, force, run_id, &[])?;
     // The next period of each invented incident starts after its last logged search.
     for (name, files, plan_start) in [
         ("marine", MARINE, "2026-06-14T22:30:00Z"),
         ("land", LAND, "2026-06-15T12:00:00Z"),
     ] {
-        let input = out.join(name).join("input");
-        write_inputs(&input, files, force)?;
-        let incident = seekgrid_incident::load(&input.join("incident.toml"))?;
-        let map_dir = out.join(name).join("map");
-        let summary = map_incident(&incident, &map_dir, None, &OutputSelection::all(), force)?;
+        let failed = |e: seekgrid_render::RenderError| Failure::failed(e.to_string());
+        let case = dir.subdir(name).map_err(failed)?;
+        let input = case.subdir("input").map_err(failed)?;
+        write_inputs(&input, files)?;
+        // Read from the staging folder, where the inputs are until the demo is complete.
+        let incident = seekgrid_incident::load(&input.path().join("incident.toml"))?;
+        let map_dir = case.subdir("map").map_err(failed)?;
+        let summary = map_incident(&incident, &map_dir, None, &OutputSelection::all())?;
         eprintln!(
             "{name}: {} -> {} (POC in grid {:.4}, {} search(es), cumulative POS {:.4})",
             incident.title,
-            map_dir.display(),
+            out.join(name).join("map").display(),
             summary.poc_in_grid,
             summary.searches.len(),
             summary.pos_cumulative
@@ -110,17 +106,19 @@ pub(crate) fn run(out: &Path, force: bool) -> Result<(), Failure> {
         let start = chrono::DateTime::parse_from_rfc3339(plan_start)
             .map(|d| d.with_timezone(&chrono::Utc))
             .map_err(|e| Failure::failed(e.to_string()))?;
-        let plan_dir = out.join(name).join("plan");
-        let plan = plan_incident(&incident, &plan_dir, start, force)?;
+        let plan_dir = case.subdir("plan").map_err(failed)?;
+        let plan = plan_incident(&incident, &plan_dir, start)?;
         eprintln!(
             "{name}: plan from {plan_start} -> {} (plan POS {:.4}, best possible {:.4})",
-            plan_dir.display(),
+            out.join(name).join("plan").display(),
             plan.pos_plan.unwrap_or(0.0),
             plan.pos_optimal_bound.unwrap_or(0.0)
         );
     }
+    commit(dir)?;
     eprintln!(
-        "The demo incidents are invented. {}",
+        "wrote {} as run {run_id}. The demo incidents are invented. {}",
+        out.display(),
         seekgrid_render::summary::CAUTION
     );
     Ok(())

@@ -8,6 +8,7 @@ use seekgrid_engine::timeline::{MapError, MapOptions};
 use seekgrid_incident::{Incident, IncidentErrors};
 use seekgrid_render::outputs::OutputSelection;
 use seekgrid_render::summary::CAUTION;
+use seekgrid_render::{OutputDir, OutputOptions, RenderError};
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -40,7 +41,8 @@ enum Command {
     Map {
         /// The incident file (TOML)
         file: PathBuf,
-        /// Output folder (created; an existing non-empty folder needs --force)
+        /// Output folder (created; an existing non-empty folder needs --force). Written as one
+        /// unit: it appears whole when the run ends, never half-written
         #[arg(long)]
         out: PathBuf,
         /// The time the map describes (RFC 3339, UTC): searches ended by then are applied and
@@ -54,7 +56,8 @@ enum Command {
         /// Also print the summary as JSON on standard output
         #[arg(long)]
         json: bool,
-        /// Write into an existing output folder, replacing files of the same name
+        /// Replace an existing output folder: the whole earlier folder goes when this run is
+        /// complete, no file of it stays
         #[arg(long)]
         force: bool,
     },
@@ -68,23 +71,27 @@ enum Command {
         /// after the searches logged by then
         #[arg(long)]
         start: String,
-        /// Output folder (created; an existing non-empty folder needs --force)
+        /// Output folder (created; an existing non-empty folder needs --force). Written as one
+        /// unit: it appears whole when the run ends, never half-written
         #[arg(long)]
         out: PathBuf,
         /// Also print the summary as JSON on standard output
         #[arg(long)]
         json: bool,
-        /// Write into an existing output folder, replacing files of the same name
+        /// Replace an existing output folder: the whole earlier folder goes when this run is
+        /// complete, no file of it stays
         #[arg(long)]
         force: bool,
     },
     /// Write the bundled invented demo incidents into a folder, map them and plan for them
     #[command(after_help = AFTER_HELP)]
     Demo {
-        /// Output folder (created; an existing non-empty folder needs --force)
+        /// Output folder (created; an existing non-empty folder needs --force). Written as one
+        /// unit: it appears whole when the run ends, never half-written
         #[arg(long)]
         out: PathBuf,
-        /// Replace files in an existing folder
+        /// Replace an existing output folder: the whole earlier folder goes when this run is
+        /// complete, no file of it stays
         #[arg(long)]
         force: bool,
     },
@@ -129,6 +136,7 @@ fn main() -> ExitCode {
 }
 
 fn run(cli: Cli) -> Result<(), Failure> {
+    let run_id = run_id();
     match cli.command {
         Command::Check { file } => {
             let incident = seekgrid_incident::load(&file)?;
@@ -159,7 +167,9 @@ fn run(cli: Cli) -> Result<(), Failure> {
             };
             let at = at.map(|t| parse_time(&t)).transpose()?;
             let incident = seekgrid_incident::load(&file)?;
-            let summary = map_incident(&incident, &out, at, &selection, force)?;
+            let dir = open_output(&out, force, &run_id, &incident.input_files())?;
+            let summary = map_incident(&incident, &dir, at, &selection)?;
+            commit(dir)?;
             if json {
                 println!(
                     "{}",
@@ -167,7 +177,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
                         .map_err(|e| Failure::failed(e.to_string()))?
                 );
             } else {
-                eprintln!("{}", one_line(&summary, &out));
+                eprintln!("{}", one_line(&summary, &out, &run_id));
             }
             Ok(())
         }
@@ -180,7 +190,9 @@ fn run(cli: Cli) -> Result<(), Failure> {
         } => {
             let start = parse_time(&start)?;
             let incident = seekgrid_incident::load(&file)?;
-            let summary = plan_incident(&incident, &out, start, force)?;
+            let dir = open_output(&out, force, &run_id, &incident.input_files())?;
+            let summary = plan_incident(&incident, &dir, start)?;
+            commit(dir)?;
             if json {
                 println!(
                     "{}",
@@ -189,7 +201,7 @@ fn run(cli: Cli) -> Result<(), Failure> {
                 );
             } else {
                 eprintln!(
-                    "wrote {} (plan POS {:.4}, best possible {:.4})\n{}",
+                    "wrote {} as run {run_id} (plan POS {:.4}, best possible {:.4})\n{}",
                     out.display(),
                     summary.pos_plan.unwrap_or(0.0),
                     summary.pos_optimal_bound.unwrap_or(0.0),
@@ -198,13 +210,13 @@ fn run(cli: Cli) -> Result<(), Failure> {
             }
             Ok(())
         }
-        Command::Demo { out, force } => demo::run(&out, force),
+        Command::Demo { out, force } => demo::run(&out, force, &run_id),
     }
 }
 
-fn one_line(s: &seekgrid_render::summary::Summary, out: &Path) -> String {
+fn one_line(s: &seekgrid_render::summary::Summary, out: &Path, run_id: &str) -> String {
     format!(
-        "wrote {} ({} x {} cells of {} m, POC in grid {:.4}, outside {:.4}, {} search(es), cumulative POS {:.4})\n{}",
+        "wrote {} as run {run_id} ({} x {} cells of {} m, POC in grid {:.4}, outside {:.4}, {} search(es), cumulative POS {:.4})\n{}",
         out.display(),
         s.grid.rows,
         s.grid.cols,
@@ -231,15 +243,13 @@ fn located(incident: &Incident, message: &str) -> Failure {
     Failure::bad_input(format!("{}: {message}", incident.path.display()))
 }
 
-/// Maps an incident into `out`; shared by `map` and `demo`.
+/// Maps an incident into `dir`; shared by `map` and `demo`.
 fn map_incident(
     incident: &Incident,
-    out: &Path,
+    dir: &OutputDir,
     at: Option<chrono::DateTime<chrono::Utc>>,
     selection: &OutputSelection,
-    force: bool,
 ) -> Result<seekgrid_render::summary::Summary, Failure> {
-    let dir = output_dir(incident, out, force)?;
     let result = with_progress(|progress| {
         seekgrid_engine::timeline::map(incident, &MapOptions { at }, progress)
     });
@@ -247,35 +257,76 @@ fn map_incident(
         MapError::Belief(_) => Failure::failed(format!("{}: {e}", incident.path.display())),
         other => located(incident, &other.to_string()),
     })?;
-    seekgrid_render::outputs::write(incident, &m, &dir, selection)
+    seekgrid_render::outputs::write(incident, &m, dir, selection)
         .map_err(|e| Failure::failed(e.to_string()))
 }
 
-/// Plans the period from `start` into `out`; shared by `plan` and `demo`.
+/// Plans the period from `start` into `dir`; shared by `plan` and `demo`.
 fn plan_incident(
     incident: &Incident,
-    out: &Path,
+    dir: &OutputDir,
     start: chrono::DateTime<chrono::Utc>,
-    force: bool,
 ) -> Result<seekgrid_render::summary::Summary, Failure> {
-    let dir = output_dir(incident, out, force)?;
     let result =
         with_progress(|progress| seekgrid_engine::planning::plan_at(incident, start, progress));
     let run = result.map_err(|e| located(incident, &e.to_string()))?;
-    seekgrid_render::plan_outputs::write(incident, &run, &dir)
+    seekgrid_render::plan_outputs::write(incident, &run, dir)
         .map_err(|e| Failure::failed(e.to_string()))
 }
 
-/// The output folder, refusing to write over the incident file.
-fn output_dir(
-    incident: &Incident,
+/// This run's id: the UTC time to the second and the process id, e.g. `20260614T213000Z-4242`.
+/// It names the staging folder and is written into the outputs.
+fn run_id() -> String {
+    format!(
+        "{}-{}",
+        chrono::Utc::now().format("%Y%m%dT%H%M%SZ"),
+        std::process::id()
+    )
+}
+
+/// Opens the output folder of a run (see [`OutputDir`]): refused when it is or holds one of
+/// `inputs`, when another run is writing into it, or when it is not empty and `force` is false.
+/// Says on standard error what leftovers of interrupted runs it removed.
+fn open_output(
     out: &Path,
     force: bool,
-) -> Result<seekgrid_render::OutputDir, Failure> {
-    let mut dir = seekgrid_render::OutputDir::create(out, force)
-        .map_err(|e| Failure::bad_input(e.to_string()))?;
-    dir.protect(&incident.path);
+    run_id: &str,
+    inputs: &[PathBuf],
+) -> Result<OutputDir, Failure> {
+    let dir = OutputDir::create(
+        out,
+        &OutputOptions {
+            run_id,
+            force,
+            inputs,
+        },
+    )
+    .map_err(|e| match e {
+        RenderError::OutputNotEmpty { .. } => Failure::bad_input(format!(
+            "output folder {} already exists and is not empty; choose a new or empty folder, or add --force to replace it whole",
+            out.display()
+        )),
+        RenderError::OutputNotAFolder { .. }
+        | RenderError::OutputHoldsInput { .. }
+        | RenderError::OutputIsInput { .. }
+        | RenderError::BadOutputPath { .. } => Failure::bad_input(e.to_string()),
+        // Another run holding the folder, or the file system refusing: not bad input.
+        other => Failure::failed(other.to_string()),
+    })?;
+    for path in dir.removed_leftovers() {
+        eprintln!(
+            "removed {}, left by an interrupted run into the same folder",
+            path.display()
+        );
+    }
     Ok(dir)
+}
+
+/// Puts a finished output folder in place.
+fn commit(dir: OutputDir) -> Result<(), Failure> {
+    dir.commit()
+        .map(drop)
+        .map_err(|e| Failure::failed(e.to_string()))
 }
 
 /// Runs `work` with a progress callback that drives a bar on a terminal (and does nothing

@@ -223,6 +223,7 @@ impl Validator<'_> {
                 None
             }
         });
+        let coastline_file = h.coastline.as_ref().map(|c| self.resolve(c));
         let coastline = h.coastline.as_ref().and_then(|c| {
             let file = self.resolve(c);
             match geofiles::read_polygons(&file) {
@@ -282,6 +283,7 @@ impl Validator<'_> {
             crs,
             notes: h.notes.clone(),
             coastline,
+            coastline_file,
             object_afloat,
             grid: GridSettings {
                 cell_m: g.cell_m,

@@ -26,6 +26,8 @@ pub struct Incident {
     pub notes: Option<String>,
     /// Land polygons (lon/lat), if a coastline was given.
     pub coastline: Option<MultiPolygon<f64>>,
+    /// The coastline file, if one was given.
+    pub coastline_file: Option<PathBuf>,
     /// With a coastline: `Some(true)` afloat (no probability on land), `Some(false)` ashore
     /// (no probability at sea), `None` the coastline is only drawn.
     pub object_afloat: Option<bool>,
@@ -41,6 +43,46 @@ pub struct Incident {
     pub searches: Vec<SearchDef>,
     /// Units available for the next period.
     pub units: Vec<UnitDef>,
+}
+
+impl Incident {
+    /// Every input file of the incident: the incident file itself, then the coastline and each
+    /// polygon, segment, track, time-series and field file it names, in file order, each once.
+    /// Paths are as the incident resolved them (relative to the incident file's folder unless
+    /// written absolute); they are not canonicalised.
+    #[must_use]
+    pub fn input_files(&self) -> Vec<PathBuf> {
+        let mut files = vec![self.path.clone()];
+        files.extend(self.coastline_file.iter().cloned());
+        for s in &self.scenarios {
+            match &s.kind {
+                ScenarioKind::Area { file, .. } | ScenarioKind::Segments { file, .. } => {
+                    files.push(file.clone());
+                }
+                ScenarioKind::Drift(d) => {
+                    for v in [&d.current, &d.wind] {
+                        match v {
+                            VectorDef::Series { file, .. } | VectorDef::Field { file, .. } => {
+                                files.push(file.clone());
+                            }
+                            VectorDef::Constant(_) => {}
+                        }
+                    }
+                }
+                ScenarioKind::Point { .. }
+                | ScenarioKind::Route { .. }
+                | ScenarioKind::Rings { .. } => {}
+            }
+        }
+        for s in &self.searches {
+            if let SearchGeometry::Track { file, .. } = &s.geometry {
+                files.push(file.clone());
+            }
+        }
+        let mut seen = std::collections::HashSet::new();
+        files.retain(|f| seen.insert(f.clone()));
+        files
+    }
 }
 
 /// Grid settings.

@@ -248,3 +248,43 @@ fn searches_with_a_pattern_or_a_track_are_read() {
     let e = first_error(parse_in(d.path(), &text));
     assert!(e.message.contains("earlier"), "{}", e.message);
 }
+
+#[test]
+fn input_files_lists_the_incident_and_every_file_it_names_once() {
+    // The bundled land incident names its segments file three times and two track files.
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../scenarios");
+    let land = seekgrid_incident::load(&root.join("land/incident.toml")).unwrap();
+    let names = |i: &seekgrid_incident::Incident| -> Vec<PathBuf> {
+        let base = i.path.parent().unwrap();
+        i.input_files()
+            .iter()
+            .map(|f| f.strip_prefix(base).unwrap().to_owned())
+            .collect()
+    };
+    assert_eq!(
+        names(&land),
+        [
+            "incident.toml",
+            "coast.geojson",
+            "segments.geojson",
+            "tracks/team-alpha.gpx",
+            "tracks/team-bravo.gpx"
+        ]
+        .map(PathBuf::from)
+    );
+    // The marine incident: a wind series of a drift scenario and an area polygon.
+    let marine = seekgrid_incident::load(&root.join("marine/incident.toml")).unwrap();
+    let mut got = names(&marine);
+    got.sort();
+    assert_eq!(
+        got,
+        [
+            "areas/kestrel-bay.geojson",
+            "coast.geojson",
+            "incident.toml",
+            "tracks/helicopter-1.gpx",
+            "wind.csv"
+        ]
+        .map(PathBuf::from)
+    );
+}

@@ -5,15 +5,22 @@ use geo::{Coord, LineString, Polygon};
 use ndarray::Array2;
 use seekgrid_core::{DEFAULT_MAX_CELLS, Frame, GridSpec, UtmZone};
 use seekgrid_render::{
-    CellLayer, ColourScale, MapStyle, OutputDir, Overlay, containment_geojson, heatmap_png,
-    probability_geojson, write_png_set,
+    CellLayer, ColourScale, MapStyle, OutputDir, OutputOptions, Overlay, containment_geojson,
+    heatmap_png, probability_geojson, write_png_set,
 };
 
 fn main() -> Result<(), Box<dyn std::error::Error>> {
     let out = std::env::args()
         .nth(1)
         .unwrap_or_else(|| "sample-out".into());
-    let dir = OutputDir::create(std::path::Path::new(&out), true)?;
+    let dir = OutputDir::create(
+        std::path::Path::new(&out),
+        &OutputOptions {
+            run_id: "sample-map",
+            force: true,
+            inputs: &[],
+        },
+    )?;
     // Invented: a datum in the open mid-Atlantic, zone 26N.
     let frame = Frame::new(UtmZone::from_epsg(32626)?);
     let datum = frame.to_xy(-28.4, 31.2);
@@ -89,10 +96,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         Default::default(),
     )?;
     dir.write("containment.geojson", &c)?;
-    println!(
-        "wrote {} ({} cells)",
-        dir.path().display(),
-        ex.cells_written
-    );
+    let written = dir.commit()?;
+    println!("wrote {} ({} cells)", written.display(), ex.cells_written);
     Ok(())
 }

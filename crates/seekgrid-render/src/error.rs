@@ -21,7 +21,7 @@ pub enum RenderError {
     },
     /// The output folder exists and holds files, and replacing them was not allowed.
     #[error(
-        "output folder {path} already exists and is not empty; choose a new or empty folder, or allow replacing its files"
+        "output folder {path} already exists and is not empty; choose a new or empty folder, or allow replacing the whole folder"
     )]
     OutputNotEmpty {
         /// The folder.
@@ -33,13 +33,53 @@ pub enum RenderError {
         /// The path.
         path: PathBuf,
     },
-    /// An output file would replace one of the run's inputs.
+    /// The output folder would hold one of the run's inputs, which replacing it would delete.
     #[error(
-        "refusing to write {path}: it is an input of this run; choose an output folder apart from the inputs"
+        "output folder {path} holds the input {input}; choose another output folder that holds none of the inputs, such as a new folder beside the incident file"
     )]
-    WouldOverwriteInput {
-        /// The protected path.
+    OutputHoldsInput {
+        /// The output folder as given.
         path: PathBuf,
+        /// The input, as the incident names it.
+        input: PathBuf,
+    },
+    /// The output path is one of the run's input files.
+    #[error(
+        "output path {path} is the input {input}; choose another output folder that holds none of the inputs, such as a new folder beside the incident file"
+    )]
+    OutputIsInput {
+        /// The output path as given.
+        path: PathBuf,
+        /// The input, as the incident names it.
+        input: PathBuf,
+    },
+    /// Another run is writing into the same output folder.
+    #[error(
+        "output folder {path} is being written by another seekgrid run{holder} (it holds the lock {lock}); wait for that run to finish, or choose another output folder"
+    )]
+    OutputLocked {
+        /// The output folder.
+        path: PathBuf,
+        /// The lock file beside it.
+        lock: PathBuf,
+        /// `" (run RUNID)"` when the lock file names the run holding it, else empty.
+        holder: String,
+    },
+    /// The output path names no folder of its own.
+    #[error(
+        "output path {path} does not name a folder of its own; give a folder path such as out/map"
+    )]
+    BadOutputPath {
+        /// The path given.
+        path: PathBuf,
+    },
+    /// A run id that cannot be part of a folder name.
+    #[error(
+        "run id \"{run_id}\" must be 1 to 64 ASCII letters, digits, '-' or '_'; make it from the time and the process id, such as 20260614T213000Z-4242"
+    )]
+    BadRunId {
+        /// The id given.
+        run_id: String,
     },
     /// An output file name that is not a plain file name.
     #[error(

@@ -927,24 +927,93 @@ fn nice_unit(v: f64) -> f64 {
 }
 
 /// Writes `stem.png`, `stem.pgw`, `stem.png.aux.xml` and `stem.prj` into `dir`, each atomically.
+/// The picture carries the run id ([`OutputDir::run_id`]) in a `tEXt` chunk with keyword
+/// `run_id`.
 ///
 /// # Errors
-/// As [`OutputDir::write`].
+/// As [`OutputDir::write`]; [`RenderError::Png`] when `png` is not a PNG stream.
 pub fn write_png_set(
     dir: &OutputDir,
     stem: &str,
     png: &GeoreferencedPng,
 ) -> Result<(), RenderError> {
-    dir.write(&format!("{stem}.png"), &png.png)?;
+    let tagged = with_text_chunk(&png.png, "run_id", dir.run_id())?;
+    dir.write(&format!("{stem}.png"), &tagged)?;
     dir.write(&format!("{stem}.pgw"), png.world_file.as_bytes())?;
     dir.write(&format!("{stem}.png.aux.xml"), png.aux_xml.as_bytes())?;
     dir.write(&format!("{stem}.prj"), png.prj.as_bytes())?;
     Ok(())
 }
 
+/// `png` with a `tEXt` chunk `keyword`, `text` (ISO 8859-1) inserted after its `IHDR` chunk.
+///
+/// A PNG stream is the 8-byte signature then chunks, `IHDR` first: 4-byte length 13, the type,
+/// 13 bytes of data and a 4-byte CRC; a `tEXt` chunk may stand anywhere between `IHDR` and
+/// `IEND` (PNG specification, third edition, 5.2, 5.6 and 11.3.3.2). The chunk's bytes, CRC
+/// included, come from the png crate.
+fn with_text_chunk(png: &[u8], keyword: &str, text: &str) -> Result<Vec<u8>, RenderError> {
+    use png::text_metadata::{EncodableTextChunk, TEXtChunk};
+    const SIGNATURE: [u8; 8] = [137, 80, 78, 71, 13, 10, 26, 10];
+    const AFTER_IHDR: usize = 8 + 4 + 4 + 13 + 4;
+    if png.len() < AFTER_IHDR || png[..8] != SIGNATURE || &png[8..16] != b"\0\0\0\x0dIHDR" {
+        return Err(RenderError::Png(
+            "the picture does not start with a PNG signature and IHDR chunk".into(),
+        ));
+    }
+    let mut chunk = Vec::new();
+    TEXtChunk::new(keyword, text)
+        .encode(&mut chunk)
+        .map_err(|e| RenderError::Png(e.to_string()))?;
+    let mut out = Vec::with_capacity(png.len() + chunk.len());
+    out.extend_from_slice(&png[..AFTER_IHDR]);
+    out.extend_from_slice(&chunk);
+    out.extend_from_slice(&png[AFTER_IHDR..]);
+    Ok(out)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn the_run_id_is_read_back_from_a_text_chunk_and_the_picture_is_unchanged() {
+        let frame = Frame::new(seekgrid_core::UtmZone::from_epsg(32620).unwrap());
+        let grid = GridSpec::new(
+            480_000.0,
+            4_900_000.0,
+            250.0,
+            4,
+            6,
+            seekgrid_core::DEFAULT_MAX_CELLS,
+        )
+        .unwrap();
+        let v = Array2::from_elem((4, 6), 0.5);
+        let style = MapStyle {
+            title: "t",
+            subtitle: "",
+            caution: "c",
+            legend_label: "l",
+            scale: ColourScale::Fraction,
+        };
+        let plain = heatmap_png(&frame, &grid, &v, &style, &[]).unwrap().png;
+        let tagged = with_text_chunk(&plain, "run_id", "20260614T213000Z-4242").unwrap();
+        // Read back by the png crate's decoder, which checks every chunk's CRC.
+        let mut reader = png::Decoder::new(std::io::Cursor::new(&tagged))
+            .read_info()
+            .unwrap();
+        let texts = &reader.info().uncompressed_latin1_text;
+        assert_eq!(texts.len(), 1);
+        assert_eq!(
+            (texts[0].keyword.as_str(), texts[0].text.as_str()),
+            ("run_id", "20260614T213000Z-4242")
+        );
+        let mut buf = vec![0; reader.output_buffer_size().unwrap()];
+        reader.next_frame(&mut buf).unwrap();
+        let a = image::load_from_memory(&plain).unwrap().to_rgba8();
+        let b = image::load_from_memory(&tagged).unwrap().to_rgba8();
+        assert_eq!(a, b);
+        assert!(with_text_chunk(b"not a png", "run_id", "x").is_err());
+    }
     use seekgrid_core::{DEFAULT_MAX_CELLS, UtmZone};
 
     #[test]

@@ -4,14 +4,15 @@
 //! [`GridSpec`](seekgrid_core::GridSpec) and `ndarray::Array2<f64>` layers) into bytes and writes
 //! them atomically. It knows nothing of incident files, scenarios or search theory.
 //!
-//! * [`OutputDir`]: an output folder whose files appear whole (temporary file, fsync, rename)
-//!   and which never overwrites the run's inputs.
+//! * [`OutputDir`]: an output folder written as one unit: staged beside its destination under a
+//!   lock, put in place whole by one atomic swap, never holding the run's inputs.
 //! * [`probability_geojson`]: cells as RFC 7946 polygons with `poc`, `density_km2`, `row`,
 //!   `col` and `pod_cumulative`, limited to the top share of the mass for big grids.
 //! * [`containment_geojson`]: the smallest regions holding 50 %, 90 %, 95 % of the mass,
 //!   traced from the raster as valid polygons with holes.
 //! * [`heatmap_png`] and [`write_png_set`]: a briefing picture with legend, scale bar, north
 //!   arrow, title and caution line, with world file, `.aux.xml` and `.prj` so GIS viewers place it.
+//! * [`review::write`]: an incident review as `review.json`, `review.md` and GeoJSON layers.
 //! * [`geojson_bytes`], [`polygon_to_geojson`], [`line_to_geojson`], [`point_to_geojson`]: the
 //!   shared GeoJSON writer and working-frame-to-lon/lat helpers for other layers.
 //!
@@ -51,6 +52,7 @@ pub mod output;
 pub mod outputs;
 pub mod plan_outputs;
 mod probability;
+pub mod review;
 pub mod summary;
 pub mod vector;
 
@@ -61,6 +63,6 @@ pub use heatmap::{
     ColourScale, GeoreferencedPng, MapStyle, Overlay, Rgb, heatmap_png, pixels_per_cell,
     write_png_set,
 };
-pub use output::OutputDir;
+pub use output::{OutputDir, OutputOptions};
 pub use probability::{CellLayer, ProbabilityExport, probability_geojson};
 pub use vector::{geojson_bytes, line_to_geojson, point_to_geojson, polygon_to_geojson};

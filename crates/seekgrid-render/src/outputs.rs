@@ -76,8 +76,9 @@ impl OutputSelection {
     }
 }
 
-fn foreign(incident: &Incident, m: &IncidentMap) -> JsonObject {
+fn foreign(incident: &Incident, m: &IncidentMap, run_id: &str) -> JsonObject {
     let mut f = JsonObject::new();
+    f.insert("run_id".into(), run_id.into());
     f.insert("title".into(), incident.title.clone().into());
     f.insert("time".into(), m.at.to_rfc3339().into());
     f.insert("caution".into(), CAUTION.into());
@@ -148,6 +149,7 @@ pub fn write(
     let grid = &m.grid;
     let poc = &m.poc;
     let mut summary = summarise(incident, m);
+    summary.run_id = Some(dir.run_id().to_owned());
     let mut written = serde_json::Map::new();
     let cell_km2 = grid.cell_area_m2() / 1e6;
 
@@ -163,7 +165,7 @@ pub fn write(
             TOP_SHARE,
             MAX_PROBABILITY_FEATURES,
             "probability",
-            foreign(incident, m),
+            foreign(incident, m, dir.run_id()),
         )?;
         dir.write("probability.geojson", &export.geojson)?;
         written.insert(
@@ -182,7 +184,7 @@ pub fn write(
             poc,
             &[0.5, 0.9, 0.95],
             "containment",
-            foreign(incident, m),
+            foreign(incident, m, dir.run_id()),
         )?;
         dir.write("containment.geojson", &bytes)?;
         written.insert(
@@ -229,7 +231,7 @@ pub fn write(
     if selection.has("segments")
         && let Some(segments) = &m.prepared.segments
     {
-        let (csv, geojson) = segment_tables(m, segments, poc)?;
+        let (csv, geojson) = segment_tables(m, segments, poc, dir.run_id())?;
         dir.write("segments.csv", csv.as_bytes())?;
         dir.write("segments.geojson", &geojson)?;
         written.insert(
@@ -238,7 +240,10 @@ pub fn write(
         );
     }
     if selection.has("searches") && !m.searches.is_empty() {
-        dir.write("searches.geojson", &searches_geojson(incident, m)?)?;
+        dir.write(
+            "searches.geojson",
+            &searches_geojson(incident, m, dir.run_id())?,
+        )?;
         written.insert(
             "searches.geojson".into(),
             serde_json::json!({"searches": m.searches.len()}),
@@ -246,14 +251,14 @@ pub fn write(
     }
     if !m.drift_runs.is_empty() {
         if selection.has("particles") {
-            dir.write("particles.geojson", &particles_geojson(m)?)?;
+            dir.write("particles.geojson", &particles_geojson(m, dir.run_id())?)?;
             written.insert(
                 "particles.geojson".into(),
                 serde_json::json!({"thinned_to_at_most_per_scenario": MAX_PARTICLE_FEATURES, "weight": "mass of the particles each point stands for"}),
             );
         }
         if selection.has("drift") {
-            dir.write("drift.geojson", &drift_geojson(m)?)?;
+            dir.write("drift.geojson", &drift_geojson(m, dir.run_id())?)?;
             written.insert(
                 "drift.geojson".into(),
                 serde_json::json!({"mean_track": "hourly weighted mean", "ellipses": [0.5, 0.9], "weights": "the belief's weights at the map time"}),
@@ -284,6 +289,7 @@ fn segment_tables(
     m: &IncidentMap,
     segments: &[seekgrid_prior::Segment],
     poc: &Array2<f64>,
+    run_id: &str,
 ) -> Result<(String, Vec<u8>), RenderError> {
     let now = seekgrid_prior::segment_table(poc, &m.grid, segments);
     // Cumulative POD of a segment: its prior mass weighted by each cell's cumulative POD,
@@ -331,7 +337,7 @@ fn segment_tables(
             });
         }
     }
-    Ok((csv, collection_bytes(features, named("segments"))?))
+    Ok((csv, collection_bytes(features, named("segments", run_id))?))
 }
 
 /// A feature collection with its foreign members, as RFC 7946 bytes.
@@ -346,14 +352,19 @@ pub(crate) fn collection_bytes(
     })
 }
 
-fn named(name: &str) -> JsonObject {
+fn named(name: &str, run_id: &str) -> JsonObject {
     let mut f = JsonObject::new();
+    f.insert("run_id".into(), run_id.into());
     f.insert("name".into(), name.into());
     f.insert("caution".into(), CAUTION.into());
     f
 }
 
-fn searches_geojson(incident: &Incident, m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
+fn searches_geojson(
+    incident: &Incident,
+    m: &IncidentMap,
+    run_id: &str,
+) -> Result<Vec<u8>, RenderError> {
     let frame = &m.prepared.frame;
     let mut features = Vec::new();
     for s in &m.searches {
@@ -392,7 +403,7 @@ fn searches_geojson(incident: &Incident, m: &IncidentMap) -> Result<Vec<u8>, Ren
             ..Default::default()
         });
     }
-    let mut f = named("searches");
+    let mut f = named("searches", run_id);
     f.insert("title".into(), JsonValue::from(incident.title.clone()));
     collection_bytes(features, f)
 }
@@ -400,7 +411,7 @@ fn searches_geojson(incident: &Incident, m: &IncidentMap) -> Result<Vec<u8>, Ren
 /// A thinned sample of each drift scenario's particles at the map time: every k-th particle,
 /// carrying the mass of the k particles it stands for, so the sample's weights add up to the
 /// drifting mass.
-fn particles_geojson(m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
+fn particles_geojson(m: &IncidentMap, run_id: &str) -> Result<Vec<u8>, RenderError> {
     let frame = &m.prepared.frame;
     let p = m.belief.particles();
     let mut features = Vec::new();
@@ -423,14 +434,14 @@ fn particles_geojson(m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
             i = block.end;
         }
     }
-    let mut f = named("particles");
+    let mut f = named("particles", run_id);
     f.insert("time".into(), m.at.to_rfc3339().into());
     collection_bytes(features, f)
 }
 
 /// Hourly weighted mean position of each drift scenario's cloud (a track and points) and its
 /// 50 % and 90 % spread ellipses, from the hour after the earliest adrift time to the map time.
-fn drift_geojson(m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
+fn drift_geojson(m: &IncidentMap, run_id: &str) -> Result<Vec<u8>, RenderError> {
     use chrono::{DurationRound, TimeDelta};
     let frame = &m.prepared.frame;
     let weights = m.belief.particles().weights();
@@ -497,5 +508,5 @@ fn drift_geojson(m: &IncidentMap) -> Result<Vec<u8>, RenderError> {
             ..Default::default()
         });
     }
-    collection_bytes(features, named("drift"))
+    collection_bytes(features, named("drift", run_id))
 }

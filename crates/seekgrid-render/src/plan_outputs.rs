@@ -68,6 +68,7 @@ pub fn write(incident: &Incident, run: &PlanRun, dir: &OutputDir) -> Result<Summ
         m.searches.len(),
         frame.epsg()
     );
+    let _ = writeln!(md, "Run id: `{}`.\n", dir.run_id());
     let _ = writeln!(md, "> **Caution.** {CAUTION}\n");
     let mut overlays = outputs::base_overlays(incident, m);
     let mut unit_rows = Vec::new();
@@ -302,6 +303,7 @@ pub fn write(incident: &Incident, run: &PlanRun, dir: &OutputDir) -> Result<Summ
     let (pos_plan, bound) = plan_totals(run);
     let mut fm = JsonObject::new();
     fm.insert("name".into(), "plan".into());
+    fm.insert("run_id".into(), dir.run_id().into());
     fm.insert("caution".into(), CAUTION.into());
     fm.insert("start".into(), run.start.to_rfc3339().into());
     fm.insert("pos_plan".into(), pos_plan.into());
@@ -312,7 +314,11 @@ pub fn write(incident: &Incident, run: &PlanRun, dir: &OutputDir) -> Result<Summ
             "plan.gpx",
             &routes_gpx(
                 &incident.title,
-                &format!("seekgrid plan from {}. {CAUTION}", run.start.to_rfc3339()),
+                &format!(
+                    "seekgrid plan from {}, run {}. {CAUTION}",
+                    run.start.to_rfc3339(),
+                    dir.run_id()
+                ),
                 &routes,
             )?,
         )?;

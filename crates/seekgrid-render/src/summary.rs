@@ -115,6 +115,9 @@ pub struct DriftSummary {
 pub struct Summary {
     /// The caution.
     pub caution: &'static str,
+    /// The run that wrote this summary and the layers beside it (filled in by the writer).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub run_id: Option<String>,
     /// Title.
     pub title: String,
     /// Notes from the incident.
@@ -260,6 +263,7 @@ pub fn summarise(incident: &Incident, m: &IncidentMap) -> Summary {
         .collect();
     Summary {
         caution: CAUTION,
+        run_id: None,
         title: incident.title.clone(),
         notes: incident.notes.clone(),
         reference_time: incident.reference_time.to_rfc3339(),

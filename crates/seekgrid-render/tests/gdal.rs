@@ -7,10 +7,17 @@ mod support;
 use ndarray::Array2;
 use seekgrid_core::{DEFAULT_MAX_CELLS, Frame, GridSpec, UtmZone};
 use seekgrid_render::{
-    CellLayer, ColourScale, MapStyle, OutputDir, Overlay, containment_geojson, heatmap_png,
-    probability_geojson, utm_wkt1_esri, write_png_set,
+    CellLayer, ColourScale, MapStyle, OutputDir, OutputOptions, Overlay, containment_geojson,
+    heatmap_png, probability_geojson, utm_wkt1_esri, write_png_set,
 };
 use support::{cs2cs_to_lon_lat, have_tools, ogr_check_geojson, run};
+
+/// Files are checked in the staging folder, before any commit.
+const OPTIONS: OutputOptions<'static> = OutputOptions {
+    run_id: "gdal-test",
+    force: false,
+    inputs: &[],
+};
 
 fn frame(epsg: u32) -> Frame {
     Frame::new(UtmZone::from_epsg(epsg).unwrap())
@@ -66,7 +73,7 @@ fn probability_geojson_is_valid_ccw_and_matches_the_cs2cs_extent() {
         return;
     }
     let tmp = tempfile::tempdir().unwrap();
-    let dir = OutputDir::create(tmp.path(), false).unwrap();
+    let dir = OutputDir::create(&tmp.path().join("out"), &OPTIONS).unwrap();
     // Northern (zone 20N, off Nova Scotia) and southern (zone 56S, off Sydney) grids, each with
     // every cell holding mass so that the extent is the whole grid.
     for (epsg, west, north) in [
@@ -101,7 +108,7 @@ fn containment_polygons_with_holes_and_pinches_are_valid_in_gdal() {
         return;
     }
     let tmp = tempfile::tempdir().unwrap();
-    let dir = OutputDir::create(tmp.path(), false).unwrap();
+    let dir = OutputDir::create(&tmp.path().join("out"), &OPTIONS).unwrap();
     let f = frame(32626);
     let (rows, cols) = (60, 70);
     let grid = GridSpec::new(400_000.0, 3_500_000.0, 200.0, rows, cols, DEFAULT_MAX_CELLS).unwrap();
@@ -174,7 +181,7 @@ fn containment_of_random_grids_is_always_valid_in_gdal() {
         return;
     }
     let tmp = tempfile::tempdir().unwrap();
-    let dir = OutputDir::create(tmp.path(), false).unwrap();
+    let dir = OutputDir::create(&tmp.path().join("out"), &OPTIONS).unwrap();
     let f = frame(32620);
     let mut seed = 7u64;
     for case in 0..6 {
@@ -208,7 +215,7 @@ fn heatmap_png_is_north_up_with_the_cell_pixel_size_and_epsg() {
         return;
     }
     let tmp = tempfile::tempdir().unwrap();
-    let dir = OutputDir::create(tmp.path(), false).unwrap();
+    let dir = OutputDir::create(&tmp.path().join("out"), &OPTIONS).unwrap();
     for (epsg, west, north, rows, cols) in [
         (32620, 480_000.0, 4_900_000.0, 40, 55),
         (32733, 200_000.0, 8_000_000.0, 3, 2),
@@ -234,7 +241,7 @@ fn heatmap_png_is_north_up_with_the_cell_pixel_size_and_epsg() {
         .unwrap();
         let stem = format!("heatmap-{epsg}");
         write_png_set(&dir, &stem, &png).unwrap();
-        let p = tmp.path().join(format!("{stem}.png"));
+        let p = dir.path().join(format!("{stem}.png"));
         let p = p.to_str().unwrap();
 
         let r = run("gdalsrsinfo", &["-e", "-o", "epsg", p], None);

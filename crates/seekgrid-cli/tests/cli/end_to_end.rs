@@ -126,7 +126,9 @@ fn an_existing_output_folder_is_refused_without_force() {
         "--force",
     ]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
-    assert!(dir.path().join("keep.txt").exists());
+    // --force replaces the whole folder: nothing of what was there stays.
+    assert!(!dir.path().join("keep.txt").exists());
+    assert!(dir.path().join("summary.json").exists());
 }
 
 #[test]

@@ -6,7 +6,8 @@
 //! ("computed"). They freeze behaviour; they are not a check of correctness against the world,
 //! which the other modules and the library tests do.
 //!
-//! Nothing is normalised: these files hold no path, run time, host or version, and they are
+//! Only the run id (UTC time and process id of the run, read from `summary.json`) is
+//! normalised, to `RUN-ID`: these files hold no path, host or version, and they are otherwise
 //! byte-identical between runs, from any working folder and at any thread count
 //! (`RAYON_NUM_THREADS=1`, `2`, `4` checked when the files were frozen). Every number is compared
 //! as written.
@@ -45,11 +46,13 @@ fn check_golden(produced: &Path, part: &str, names: &[&str]) {
         !(bless && std::env::var("CI").is_ok_and(|v| v == "true")),
         "SEEKGRID_BLESS=1 is refused under CI=true: bless on a developer machine and commit"
     );
+    let run_id = run_id_of(produced);
     let mut mismatches = Vec::new();
     for name in names {
         let got_path = produced.join(name);
         let got = std::fs::read_to_string(&got_path)
-            .unwrap_or_else(|e| panic!("{} was not written: {e}", got_path.display()));
+            .unwrap_or_else(|e| panic!("{} was not written: {e}", got_path.display()))
+            .replace(&run_id, "RUN-ID");
         let want_path = expected.join(name);
         if bless {
             std::fs::create_dir_all(&expected).unwrap();
@@ -72,6 +75,17 @@ fn check_golden(produced: &Path, part: &str, names: &[&str]) {
         "output differs from fixtures/golden/tiny/expected (if the change is intended, rerun with SEEKGRID_BLESS=1 and review the diff):\n{}",
         mismatches.join("\n")
     );
+}
+
+/// The run id that `summary.json` in `produced` carries (every file of a run carries the same).
+fn run_id_of(produced: &Path) -> String {
+    let text = std::fs::read_to_string(produced.join("summary.json")).unwrap();
+    let summary: serde_json::Value = serde_json::from_str(&text).unwrap();
+    let id = summary["run_id"]
+        .as_str()
+        .expect("summary.json carries a run_id");
+    assert!(!id.is_empty(), "the run id is empty");
+    id.to_owned()
 }
 
 /// A unified-style excerpt around the first differing line: three lines of context, then up to

@@ -5,3 +5,4 @@ mod end_to_end;
 mod external;
 mod frame_vs_proj;
 mod golden;
+mod output_folder;
