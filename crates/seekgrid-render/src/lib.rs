@@ -52,6 +52,7 @@ pub mod output;
 pub mod outputs;
 pub mod plan_outputs;
 mod probability;
+pub mod record;
 pub mod review;
 pub mod summary;
 pub mod vector;

@@ -361,7 +361,10 @@ fn row_json(r: &Review, row: &TimelineRow) -> RowJson {
         pos_cumulative: row.pos_cumulative,
         effort: (&row.effort).into(),
         effort_by_unit: named(r.units.iter().map(|u| u.unit.clone()), &row.effort_by_unit),
-        effort_by_period: named(r.periods.iter().map(|p| p.id.clone()), &row.effort_by_period),
+        effort_by_period: named(
+            r.periods.iter().map(|p| p.id.clone()),
+            &row.effort_by_period,
+        ),
         truth: row.truth.map(|t| TruthAtJson {
             poc: t.poc,
             density_per_km2: t.density_per_km2,
