@@ -1,9 +1,10 @@
-//! `seekgrid demo`: writes the bundled invented incidents into a folder and maps each one.
+//! `seekgrid demo`: writes the bundled invented incidents into a folder, maps them, plans for
+//! them, and reports the credibility of their analysts from an invented track record.
 //!
 //! The incidents live in `scenarios/` at the workspace root and are compiled into the binary,
 //! so the demo runs from any folder.
 
-use crate::{Failure, commit, map_incident, open_output, plan_incident};
+use crate::{Failure, commit, credibility_report, map_incident, open_output, plan_incident};
 use seekgrid_render::OutputDir;
 use seekgrid_render::outputs::OutputSelection;
 use std::path::Path;
@@ -56,6 +57,32 @@ const LAND: &[Bundled] = &[
         include_str!("../../../scenarios/land/tracks/team-bravo.gpx"),
     ),
 ];
+
+/// The invented track record of the demo analysts.
+const RECORD: &str = include_str!("../../../scenarios/credibility-record.csv");
+
+/// Writes the invented track record into `credibility/input/` and its credibility report
+/// (`credibility.md`, `credibility.json`) into `credibility/`.
+fn credibility(dir: &OutputDir, out: &Path) -> Result<(), Failure> {
+    let failed = |e: seekgrid_render::RenderError| Failure::failed(e.to_string());
+    let folder = dir.subdir("credibility").map_err(failed)?;
+    let input = folder.subdir("input").map_err(failed)?;
+    let record = input
+        .write("credibility-record.csv", RECORD.as_bytes())
+        .map_err(failed)?;
+    let report = credibility_report(
+        &record,
+        &seekgrid_prior::credibility::CredibilityOptions::default(),
+    )?;
+    seekgrid_render::credibility::write(&report, "input/credibility-record.csv", &folder)
+        .map_err(failed)?;
+    eprintln!(
+        "credibility: invented record of {} incident(s) -> {}",
+        report.incidents,
+        out.join("credibility").display()
+    );
+    Ok(())
+}
 
 /// Writes the bundled files into `input`, making the subfolders they name.
 fn write_inputs(input: &OutputDir, files: &[Bundled]) -> Result<(), Failure> {
@@ -115,9 +142,10 @@ pub(crate) fn run(out: &Path, force: bool, run_id: &str) -> Result<(), Failure> 
             plan.pos_optimal_bound.unwrap_or(0.0)
         );
     }
+    credibility(&dir, out)?;
     commit(dir)?;
     eprintln!(
-        "wrote {} as run {run_id}. The demo incidents are invented. {}",
+        "wrote {} as run {run_id}. The demo incidents and the track record are invented. {}",
         out.display(),
         seekgrid_render::summary::CAUTION
     );

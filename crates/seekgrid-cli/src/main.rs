@@ -83,6 +83,29 @@ enum Command {
         #[arg(long)]
         force: bool,
     },
+    /// Read a track record across incidents: each analyst's mean log score and suggested
+    /// credibility weight, whether the analysts' biases share a direction, and whether the pooled
+    /// map beat the best single analyst. Prints a table; with --out also writes credibility.md
+    /// and credibility.json
+    #[command(after_help = AFTER_HELP)]
+    Credibility {
+        /// The track record (CSV, as appended by `seekgrid review ... --record FILE`)
+        record: PathBuf,
+        /// Also write credibility.md and credibility.json into this folder (created; an
+        /// existing non-empty folder needs --force)
+        #[arg(long)]
+        out: Option<PathBuf>,
+        /// Shrinkage constant k, in incidents: an analyst with n incidents keeps n/(n+k) of
+        /// the weight Bayes' rule gives them and takes the rest from the equal share
+        #[arg(long, default_value_t = seekgrid_prior::credibility::DEFAULT_SHRINKAGE_INCIDENTS)]
+        shrinkage_incidents: f64,
+        /// Print the report as JSON on standard output instead of the table
+        #[arg(long)]
+        json: bool,
+        /// Replace an existing output folder whole
+        #[arg(long)]
+        force: bool,
+    },
     /// Write the bundled invented demo incidents into a folder, map them and plan for them
     #[command(after_help = AFTER_HELP)]
     Demo {
@@ -210,8 +233,60 @@ fn run(cli: Cli) -> Result<(), Failure> {
             }
             Ok(())
         }
+        Command::Credibility {
+            record,
+            out,
+            shrinkage_incidents,
+            json,
+            force,
+        } => {
+            let options = seekgrid_prior::credibility::CredibilityOptions {
+                shrinkage_incidents,
+            };
+            let report = credibility_report(&record, &options)?;
+            let name = record.display().to_string();
+            if let Some(out) = &out {
+                let dir = open_output(out, force, &run_id, std::slice::from_ref(&record))?;
+                seekgrid_render::credibility::write(&report, &name, &dir)
+                    .map_err(|e| Failure::failed(e.to_string()))?;
+                commit(dir)?;
+                eprintln!("wrote {} as run {run_id}", out.display());
+            }
+            if json {
+                let doc = seekgrid_render::credibility::credibility_json(&report, &name, None);
+                println!(
+                    "{}",
+                    serde_json::to_string_pretty(&doc)
+                        .map_err(|e| Failure::failed(e.to_string()))?
+                );
+            } else {
+                print!(
+                    "{}",
+                    seekgrid_render::credibility::credibility_table(&report, &name)
+                );
+            }
+            Ok(())
+        }
         Command::Demo { out, force } => demo::run(&out, force, &run_id),
     }
+}
+
+/// Reads a track record and builds its credibility report; shared by `credibility` and `demo`.
+fn credibility_report(
+    record: &Path,
+    options: &seekgrid_prior::credibility::CredibilityOptions,
+) -> Result<seekgrid_engine::credibility::CredibilityReport, Failure> {
+    if !(options.shrinkage_incidents.is_finite() && options.shrinkage_incidents >= 0.0) {
+        return Err(Failure::bad_input(format!(
+            "--shrinkage-incidents {} must be a number of incidents, 0 or more, such as 3",
+            options.shrinkage_incidents
+        )));
+    }
+    let lines = seekgrid_incident::record::read_record(record)
+        .map_err(|e| Failure::bad_input(e.to_string()))?;
+    let rows: Vec<_> = lines.into_iter().map(|l| l.row).collect();
+    seekgrid_engine::credibility::credibility(&rows, options)
+        .map_err(|e| Failure::bad_input(format!("{}: {e}", record.display())))
 }
 
 fn one_line(s: &seekgrid_render::summary::Summary, out: &Path, run_id: &str) -> String {

@@ -190,6 +190,9 @@ pub enum RenderError {
     /// PNG encoding failed.
     #[error("cannot encode the PNG picture: {0}")]
     Png(String),
+    /// Drawing a chart failed.
+    #[error("cannot draw the chart: {0}")]
+    Chart(String),
     /// JSON serialisation failed.
     #[error("cannot serialise GeoJSON: {0}")]
     Json(String),

@@ -43,7 +43,9 @@
 #![deny(missing_docs)]
 
 mod canvas;
+pub mod charts;
 mod containment;
+pub mod credibility;
 pub mod error;
 pub mod georef;
 pub mod gpx;

@@ -942,5 +942,6 @@ pub fn write(r: &Review, dir: &OutputDir) -> Result<ReviewJson, RenderError> {
     dir.write("review-searches.geojson", &searches)?;
     dir.write("review.md", md.as_bytes())?;
     dir.write("review.json", &json)?;
+    crate::charts::write_review_charts(r, dir)?;
     Ok(doc)
 }

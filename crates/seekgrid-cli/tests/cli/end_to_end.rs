@@ -51,6 +51,7 @@ fn help_carries_the_caution_on_every_command() {
         vec!["map", "--help"],
         vec!["check", "--help"],
         vec!["demo", "--help"],
+        vec!["credibility", "--help"],
     ] {
         let o = seekgrid(&args);
         assert!(o.status.success());
@@ -455,4 +456,18 @@ fn gpx_tracks_read_like_gdal_reads_them() {
             assert!((ours - gdal).abs() < 1e-9, "{f}: ours {ours}, GDAL {gdal}");
         }
     }
+}
+
+#[test]
+fn demo_writes_the_credibility_report_of_the_invented_record() {
+    let demo = demo_once();
+    let folder = demo.join("credibility");
+    let record = std::fs::read_to_string(folder.join("input/credibility-record.csv")).unwrap();
+    assert!(record.starts_with("# INVENTED"), "{record}");
+    let report: Value =
+        serde_json::from_str(&std::fs::read_to_string(folder.join("credibility.json")).unwrap())
+            .unwrap();
+    assert_eq!(report["record"], "input/credibility-record.csv");
+    assert_eq!(report["analysts"].as_array().unwrap().len(), 6);
+    assert!(folder.join("credibility.md").is_file());
 }
