@@ -40,6 +40,10 @@ pub struct AnalystCredibility {
     pub suggested_weight: f64,
     /// Mean of the weights used in the pools of their incidents (normalised), where recorded.
     pub mean_weight_used: Option<f64>,
+    /// Mean over their incidents with a pool row of (their log score − the pool's): positive
+    /// when they placed the truth better than the pooled map. Unlike the mean log score, this
+    /// compares like with like across incidents of different kinds.
+    pub mean_score_minus_pool: Option<f64>,
 }
 
 /// Whether the analysts' bias bearings share a direction.
@@ -58,8 +62,8 @@ pub struct BiasDirection {
 pub struct PoolComparison {
     /// The comparison over the incidents with a pool row.
     pub result: PoolVersusAnalysts,
-    /// Whether the pool's mean log score beat the best analyst's (by mean log score) over the
-    /// incidents both took part in.
+    /// Whether the pool did better on average than the best single analyst over the incidents
+    /// that analyst took part in, so better than every analyst on their own incidents.
     pub pool_beat_best_analyst: bool,
 }
 
@@ -186,7 +190,7 @@ pub fn credibility(
     };
     let score_list: Vec<IncidentScores> = scored.iter().map(|(_, s)| s.clone()).collect();
     let suggestion = suggest_weights(&analyst_ids, &score_list, options)?;
-    let analysts = suggestion
+    let mut analysts = suggestion
         .analysts
         .iter()
         .map(|s| {
@@ -206,9 +210,10 @@ pub fn credibility(
                 bayes_weight: s.bayes_weight,
                 suggested_weight: s.weight,
                 mean_weight_used: mean(mine.iter().filter_map(|r| r.weight_used)),
+                mean_score_minus_pool: None,
             }
         })
-        .collect();
+        .collect::<Vec<_>>();
     let uninformative_incidents = suggestion
         .uninformative_incidents
         .iter()
@@ -244,7 +249,14 @@ pub fn credibility(
 
     let pool = if score_list.iter().any(|s| s.pool_log_score.is_some()) {
         let result = pool_versus_analysts(&score_list)?;
-        let pool_beat_best_analyst = result.mean_gain_over_best_mean > 0.0;
+        for a in &mut analysts {
+            a.mean_score_minus_pool = result
+                .analysts
+                .iter()
+                .find(|v| v.analyst == a.analyst)
+                .map(|v| -v.mean_gain_of_pool);
+        }
+        let pool_beat_best_analyst = result.best().mean_gain_of_pool > 0.0;
         Some(PoolComparison {
             result,
             pool_beat_best_analyst,

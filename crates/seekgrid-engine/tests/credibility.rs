@@ -61,7 +61,9 @@ fn a_small_record_gives_the_hand_computed_weights_scores_and_pool_comparison() {
     // Mean log scores: A ln(0.02)/2 = -1.956011503, B ln(0.015)/2 = -2.099852539,
     //     C ln(0.01)/2 = -2.302585093. Mean bias distance: A 650, B 1150, C 1050 m.
     // Pool against the best of each incident: ln 0.75, ln 0.8, ln(2/3), mean -0.305430244.
-    // Best mean analyst A (I1, I2): ln 0.75, ln 0.8, mean -0.255412812, pool never better.
+    // Pool against each analyst on their own incidents: A ln 0.75, ln 0.8, mean
+    // -0.255412812; B ln 3, ln(2/3), mean 0.346573590; C ln 0.8, ln 2, mean 0.235001815.
+    // The pool gained least over A: A is the best analyst, and the pool never beat them.
     let r = credibility(&record(), &CredibilityOptions::default()).unwrap();
     assert_eq!(r.incidents, 3);
     let ids: Vec<&str> = r.analysts.iter().map(|a| a.analyst.as_str()).collect();
@@ -85,13 +87,28 @@ fn a_small_record_gives_the_hand_computed_weights_scores_and_pool_comparison() {
         -0.305430244,
         epsilon = 1e-9
     );
-    assert_eq!(pool.result.best_mean_analyst, "A");
+    assert_eq!(pool.result.best().analyst, "A");
     assert_abs_diff_eq!(
-        pool.result.mean_gain_over_best_mean,
+        pool.result.best().mean_gain_of_pool,
         -0.255412812,
         epsilon = 1e-9
     );
-    assert_eq!(pool.result.pool_better_than_best_mean, 0);
+    assert_eq!(pool.result.best().pool_better, 0);
+    assert_abs_diff_eq!(
+        w("A").mean_score_minus_pool.unwrap(),
+        0.255412812,
+        epsilon = 1e-9
+    );
+    assert_abs_diff_eq!(
+        w("B").mean_score_minus_pool.unwrap(),
+        -0.346573590,
+        epsilon = 1e-9
+    );
+    assert_abs_diff_eq!(
+        w("C").mean_score_minus_pool.unwrap(),
+        -0.235001815,
+        epsilon = 1e-9
+    );
     assert!(!pool.pool_beat_best_analyst);
     assert!(r.not_computed.is_empty());
 }

@@ -151,7 +151,11 @@ pub fn parse_record(file: &Path, text: &str) -> Result<Vec<RecordLine>, Incident
         .headers()
         .map_err(|e| error(file, Some(1), format!("unreadable header: {e}")))?
         .clone();
-    let header_line = headers.position().map(|p| p.line() as usize);
+    // The header's own position is not reliable after comment lines: count them here.
+    let header_line = text
+        .lines()
+        .position(|l| !l.trim().is_empty() && !l.starts_with('#'))
+        .map(|i| i + 1);
     check_header(file, header_line, &headers)?;
     let mut rows: Vec<RecordLine> = Vec::new();
     let mut raw = csv::StringRecord::new();
@@ -395,8 +399,8 @@ mod tests {
     #[test]
     fn a_header_that_differs_is_refused_naming_the_column() {
         let text = write(&[row("a", Role::Analyst, Some(-2.0))]).replacen("log_score", "score", 1);
-        let e = parse_record(Path::new("r.csv"), &text).unwrap_err();
-        assert_eq!(e.line, Some(1));
+        let e = parse_record(Path::new("r.csv"), &format!("# note\n\n{text}")).unwrap_err();
+        assert_eq!(e.line, Some(3));
         assert!(
             e.message.starts_with(
                 "header column 6 is \"score\" but a seekgrid record has \"log_score\""

@@ -452,6 +452,22 @@ fn log_sum_exp(logs: impl Iterator<Item = f64> + Clone) -> f64 {
     max + neumaier_sum(logs.map(|l| (l - max).exp())).ln()
 }
 
+/// One analyst against the pool, over the incidents compared that they took part in (see
+/// [`pool_versus_analysts`]).
+#[derive(Debug, Clone, PartialEq)]
+pub struct AnalystVersusPool {
+    /// Analyst id.
+    pub analyst: String,
+    /// Incidents compared that the analyst took part in.
+    pub incidents: usize,
+    /// Mean log score of the analyst over those incidents.
+    pub mean_log_score: f64,
+    /// Mean over those incidents of (pool − analyst): positive when the pool did better.
+    pub mean_gain_of_pool: f64,
+    /// Incidents where the pool scored strictly higher than the analyst.
+    pub pool_better: usize,
+}
+
 /// Whether the pool scored better than single analysts (see [`pool_versus_analysts`]).
 ///
 /// Differences are pool minus analyst, in natural-log units of density: +0.69 means the pool
@@ -467,23 +483,29 @@ pub struct PoolVersusAnalysts {
     pub pool_better_than_best_each: usize,
     /// Mean over incidents of (pool − best analyst of that incident).
     pub mean_gain_over_best_each: f64,
-    /// The analyst with the highest mean log score over the incidents they took part in (the
-    /// first in order of appearance on a tie).
-    pub best_mean_analyst: String,
-    /// That analyst's mean log score.
-    pub best_mean_analyst_mean_log_score: f64,
-    /// Incidents that analyst took part in.
-    pub best_mean_analyst_incidents: usize,
-    /// Of those, incidents where the pool scored strictly better than that analyst.
-    pub pool_better_than_best_mean: usize,
-    /// Mean over those incidents of (pool − that analyst).
-    pub mean_gain_over_best_mean: f64,
+    /// Every analyst against the pool, in order of first appearance.
+    pub analysts: Vec<AnalystVersusPool>,
+    /// Index into `analysts` of the best single analyst: the one with the lowest mean gain of
+    /// the pool over them (the first on a tie), that is the analyst who did best against the
+    /// pool on the incidents they took part in.
+    pub best_analyst: usize,
+}
+
+impl PoolVersusAnalysts {
+    /// The best single analyst (see [`PoolVersusAnalysts::best_analyst`]).
+    #[must_use]
+    pub fn best(&self) -> &AnalystVersusPool {
+        &self.analysts[self.best_analyst]
+    }
 }
 
 /// Did the pool beat the best single analyst: compares the pool's log score with the best
-/// analyst's of each incident (a hindsight benchmark that the pool rarely beats) and with the
-/// analyst who has the best mean log score over the incidents they took part in (a fair
-/// benchmark: would trusting that one analyst alone have done better?).
+/// analyst's of each incident (a hindsight benchmark that a linear pool never beats, a mix
+/// being never denser than its densest part) and, analyst by analyst, over the incidents each
+/// took part in. The best single analyst is the one who did best against the pool on their own
+/// incidents, so that analysts are compared incident by incident, never across different
+/// incidents (whose densities can differ by orders of magnitude, a land search area being far
+/// smaller than a sea one): would trusting that one analyst alone have done better?
 ///
 /// Source: comparing mean logarithmic scores of forecasts over the same outcomes, common
 /// practice (Gneiting and Raftery 2007, JASA 102:359-378; from memory).
@@ -508,11 +530,10 @@ pub fn pool_versus_analysts(
     for (i, inc) in incidents.iter().enumerate() {
         check_incident(i, inc)?;
     }
-    // Incidents with the pool's score: (position, pool score, incident).
-    let compared: Vec<(usize, f64, &IncidentScores)> = incidents
+    // Incidents with the pool's score: (pool score, incident).
+    let compared: Vec<(f64, &IncidentScores)> = incidents
         .iter()
-        .enumerate()
-        .filter_map(|(i, inc)| inc.pool_log_score.map(|p| (i, p, inc)))
+        .filter_map(|inc| inc.pool_log_score.map(|p| (p, inc)))
         .collect();
     if compared.is_empty() {
         return Err(PriorError::EmptyCredibilityInput {
@@ -523,7 +544,7 @@ pub fn pool_versus_analysts(
     // Scores of each analyst, in order of first appearance: (id, [(pool, score)]).
     let mut by_analyst: Vec<(&str, Vec<(f64, f64)>)> = Vec::new();
     let mut gains_each = Vec::with_capacity(compared.len());
-    for &(_, pool, inc) in &compared {
+    for &(pool, inc) in &compared {
         for (id, s) in &inc.analyst_log_scores {
             match by_analyst.iter_mut().find(|e| e.0 == id) {
                 Some(e) => e.1.push((pool, *s)),
@@ -537,27 +558,33 @@ pub fn pool_versus_analysts(
             .fold(f64::NEG_INFINITY, f64::max);
         gains_each.push(gain(pool, best));
     }
-    let means: Vec<f64> = by_analyst
+    let analysts: Vec<AnalystVersusPool> = by_analyst
         .iter()
-        .map(|(_, s)| mean_log(&s.iter().map(|x| x.1).collect::<Vec<_>>()))
+        .map(|(id, scores)| {
+            let gains: Vec<f64> = scores.iter().map(|&(pool, s)| gain(pool, s)).collect();
+            AnalystVersusPool {
+                analyst: (*id).to_string(),
+                incidents: scores.len(),
+                mean_log_score: mean_log(&scores.iter().map(|x| x.1).collect::<Vec<_>>()),
+                mean_gain_of_pool: mean_extended(&gains),
+                pool_better: gains.iter().filter(|g| **g > 0.0).count(),
+            }
+        })
         .collect();
+    // The lowest mean gain of the pool; NaN (undefined) ranks last.
     let mut best = 0;
-    for (j, m) in means.iter().enumerate() {
-        if *m > means[best] {
+    for (j, a) in analysts.iter().enumerate() {
+        let current = analysts[best].mean_gain_of_pool;
+        if a.mean_gain_of_pool < current || (current.is_nan() && !a.mean_gain_of_pool.is_nan()) {
             best = j;
         }
     }
-    let (best_id, best_scores) = &by_analyst[best];
-    let gains_best: Vec<f64> = best_scores.iter().map(|&(pool, s)| gain(pool, s)).collect();
     Ok(PoolVersusAnalysts {
         incidents: compared.len(),
         pool_better_than_best_each: gains_each.iter().filter(|g| **g > 0.0).count(),
         mean_gain_over_best_each: mean_extended(&gains_each),
-        best_mean_analyst: (*best_id).to_string(),
-        best_mean_analyst_mean_log_score: means[best],
-        best_mean_analyst_incidents: best_scores.len(),
-        pool_better_than_best_mean: gains_best.iter().filter(|g| **g > 0.0).count(),
-        mean_gain_over_best_mean: mean_extended(&gains_best),
+        analysts,
+        best_analyst: best,
     })
 }
 

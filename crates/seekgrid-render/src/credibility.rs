@@ -16,7 +16,10 @@ use std::fmt::Write as _;
 pub const CREDIBILITY_FILES: [&str; 2] = ["credibility.json", "credibility.md"];
 
 /// How the suggested weights are made, in words (written into every report).
-pub const WEIGHT_METHOD: &str = "Suggested weights: start from equal weights; then, incident by incident in order of outcome time, apply Bayes' rule among the analysts who took part: they share the weight they brought in proportion to weight x density at the place where the object was found (analysts absent from an incident keep theirs). Each analyst's result is then moved toward the equal share, keeping the fraction n/(n+k) of it, with n their number of incidents and k the shrinkage constant, so that a short record counts for little; the weights are scaled to add up to 1. A log score is ln(density at the truth per km²): higher is better, and a difference of 0.69 means twice the density.";
+pub const WEIGHT_METHOD: &str = "Suggested weights: start from equal weights; then, incident by incident in order of outcome time, apply Bayes' rule among the analysts who took part: they share the weight they brought in proportion to weight x density at the place where the object was found (analysts absent from an incident keep theirs). Each analyst's result is then moved toward the equal share, keeping the fraction n/(n+k) of it, with n their number of incidents and k the shrinkage constant, so that a short record counts for little; the weights are scaled to add up to 1. For the next incident, take the weights of the analysts who take part and scale them to add up to 1 (analysts who never shared an incident keep, as a group, the share they started with, so only weights within a group compare). A log score is ln(density at the truth per km²): higher is better, and a difference of 0.69 means twice the density.";
+
+/// What the columns of the analysts' table mean, in words.
+pub const COLUMNS_NOTE: &str = "Columns: incidents with a log score; the mean log score over the analyst's own incidents (not comparable between analysts who took part in different kinds of incidents: a land search area is far smaller than a sea one, so its densities are higher); minus pool's: the mean of (analyst's log score - the pooled map's) over those incidents, comparable between analysts, positive when the analyst placed the truth better than the pool; the mean distance from the centre of the analyst's map to the found position; the mean weight the analyst had in the pools; the weight after Bayes' rule alone; the suggested weight.";
 
 /// How the bias directions are tested, in words.
 pub const BIAS_METHOD: &str = "Shared bias: each analyst's bias is the line from the mean of their map to the place where the object was found. The Rayleigh test asks whether the bearings of these lines, over every analyst and incident in the record, scatter in random directions (errors a crowd of analysts averages out) or share one (an error that pooling cannot remove). R-bar is the length of the mean of the bearings as unit vectors: 0 when they cancel out, 1 when they all agree.";
@@ -46,6 +49,10 @@ pub struct AnalystJson {
     pub mean_bias_distance_m: Option<f64>,
     /// Mean weight used in the pools of their incidents (normalised).
     pub mean_weight_used: Option<f64>,
+    /// Mean of (their log score − the pool's) over their incidents with a pool row: positive
+    /// when they placed the truth better than the pooled map; `null` when not computed or
+    /// infinite.
+    pub mean_score_minus_pool: Option<f64>,
     /// Weight after Bayes' rule alone.
     pub bayes_weight: f64,
     /// Suggested credibility weight (the weights add up to 1).
@@ -80,26 +87,33 @@ pub struct BiasDirectionJson {
     pub verdict: String,
 }
 
+/// One analyst against the pool in `credibility.json`.
+#[derive(Debug, Clone, Serialize)]
+pub struct AnalystVersusPoolJson {
+    /// Analyst id.
+    pub analyst: String,
+    /// Incidents compared (with a pool row) that the analyst took part in.
+    pub incidents: usize,
+    /// Mean of (pool − analyst) log score over them; `null` when infinite or undefined.
+    pub mean_gain_of_pool: Option<f64>,
+    /// Of those incidents, where the pool scored higher.
+    pub pool_better: usize,
+}
+
 /// The pool against the best analyst in `credibility.json`.
 #[derive(Debug, Clone, Serialize)]
 pub struct PoolJson {
     /// Incidents with the pool's log score.
     pub incidents: usize,
-    /// The analyst with the best mean log score.
-    pub best_mean_analyst: String,
-    /// That analyst's mean log score (`null` for −∞).
-    pub best_mean_analyst_mean_log_score: Option<f64>,
-    /// Incidents that analyst took part in.
-    pub best_mean_analyst_incidents: usize,
-    /// Of those, incidents where the pool scored higher.
-    pub pool_better_than_best_mean: usize,
-    /// Mean of (pool − that analyst) over those incidents; `null` when infinite or undefined.
-    pub mean_gain_over_best_mean: Option<f64>,
+    /// The best single analyst: the one who did best against the pool on their incidents.
+    pub best_analyst: String,
+    /// Every analyst against the pool.
+    pub analysts: Vec<AnalystVersusPoolJson>,
     /// Incidents where the pool beat the best analyst of that incident (hindsight).
     pub pool_better_than_best_each: usize,
     /// Mean of (pool − best analyst of each incident).
     pub mean_gain_over_best_each: Option<f64>,
-    /// Whether the pool beat the best analyst on average.
+    /// Whether the pool beat the best single analyst on average (and so every analyst).
     pub pool_beat_best_analyst: bool,
     /// The verdict in words.
     pub verdict: String,
@@ -201,10 +215,11 @@ pub fn bias_verdict(d: &BiasDirection) -> String {
 #[must_use]
 pub fn pool_verdict(p: &PoolComparison) -> String {
     let r = &p.result;
-    let gain = r.mean_gain_over_best_mean;
+    let best = r.best();
+    let gain = best.mean_gain_of_pool;
     let gain_text = if gain.is_finite() {
         format!(
-            "{gain:+.2} in log score, the pool giving the truth {:.2} times the density",
+            "the pool's log score was {gain:+.2} against theirs on average (the pool giving the truth {:.2} times their density)",
             gain.exp()
         )
     } else if gain == f64::INFINITY {
@@ -212,22 +227,17 @@ pub fn pool_verdict(p: &PoolComparison) -> String {
     } else if gain == f64::NEG_INFINITY {
         "the pool gave the truth zero density at least once".to_owned()
     } else {
-        "undefined (both gave the truth zero density in different incidents)".to_owned()
+        "the difference is undefined (both gave the truth zero density, in different incidents)"
+            .to_owned()
+    };
+    let verdict = if p.pool_beat_best_analyst {
+        "The pooled map beat every single analyst on average over the incidents each took part in."
+    } else {
+        "The pooled map did not beat the best single analyst on average."
     };
     format!(
-        "Over the {} incident(s) {} took part in, the pooled map {} the best single analyst ({}, best mean log score) on average: {gain_text}; it scored higher in {} of {}. Against the best analyst of each incident, chosen with hindsight, it scored higher in {} of {} incident(s).",
-        r.best_mean_analyst_incidents,
-        r.best_mean_analyst,
-        if p.pool_beat_best_analyst {
-            "beat"
-        } else {
-            "did not beat"
-        },
-        r.best_mean_analyst,
-        r.pool_better_than_best_mean,
-        r.best_mean_analyst_incidents,
-        r.pool_better_than_best_each,
-        r.incidents,
+        "{verdict} The best single analyst, the one who did best against the pool on their own incidents, is {} ({} incident(s)): {gain_text}; the pool scored higher in {} of them. Against the best analyst of each incident, chosen with hindsight, the pool scored higher in {} of {} incident(s) (a linear pool never can: a mix is never denser than its densest part).",
+        best.analyst, best.incidents, best.pool_better, r.pool_better_than_best_each, r.incidents,
     )
 }
 
@@ -239,6 +249,7 @@ fn analyst_json(a: &AnalystCredibility) -> AnalystJson {
         zero_density_incidents: a.zero_density_incidents,
         mean_bias_distance_m: a.mean_bias_distance_m,
         mean_weight_used: a.mean_weight_used,
+        mean_score_minus_pool: a.mean_score_minus_pool.and_then(finite),
         bayes_weight: a.bayes_weight,
         suggested_weight: a.suggested_weight,
     }
@@ -281,11 +292,18 @@ pub fn credibility_json(
         }),
         pool_versus_best_analyst: r.pool.as_ref().map(|p| PoolJson {
             incidents: p.result.incidents,
-            best_mean_analyst: p.result.best_mean_analyst.clone(),
-            best_mean_analyst_mean_log_score: finite(p.result.best_mean_analyst_mean_log_score),
-            best_mean_analyst_incidents: p.result.best_mean_analyst_incidents,
-            pool_better_than_best_mean: p.result.pool_better_than_best_mean,
-            mean_gain_over_best_mean: finite(p.result.mean_gain_over_best_mean),
+            best_analyst: p.result.best().analyst.clone(),
+            analysts: p
+                .result
+                .analysts
+                .iter()
+                .map(|a| AnalystVersusPoolJson {
+                    analyst: a.analyst.clone(),
+                    incidents: a.incidents,
+                    mean_gain_of_pool: finite(a.mean_gain_of_pool),
+                    pool_better: a.pool_better,
+                })
+                .collect(),
             pool_better_than_best_each: p.result.pool_better_than_best_each,
             mean_gain_over_best_each: finite(p.result.mean_gain_over_best_each),
             pool_beat_best_analyst: p.pool_beat_best_analyst,
@@ -311,6 +329,17 @@ fn score_text(s: Option<f64>) -> String {
     }
 }
 
+/// A signed difference of log scores, or its infinity in words.
+fn signed(v: Option<f64>) -> String {
+    match v {
+        None => "-".into(),
+        Some(x) if x == f64::NEG_INFINITY => "-inf".into(),
+        Some(x) if x == f64::INFINITY => "+inf".into(),
+        Some(x) if x.is_nan() => "undefined".into(),
+        Some(x) => format!("{x:+.2}"),
+    }
+}
+
 fn opt(v: Option<f64>, decimals: usize) -> String {
     v.map_or("-".into(), |x| format!("{x:.decimals$}"))
 }
@@ -321,6 +350,7 @@ fn table_cells(r: &CredibilityReport) -> Vec<Vec<String>> {
         "analyst".to_owned(),
         "incidents".to_owned(),
         "mean log score".to_owned(),
+        "minus pool's".to_owned(),
         "mean bias (m)".to_owned(),
         "mean weight used".to_owned(),
         "Bayes weight".to_owned(),
@@ -331,6 +361,7 @@ fn table_cells(r: &CredibilityReport) -> Vec<Vec<String>> {
             a.analyst.clone(),
             a.incidents.to_string(),
             score_text(a.mean_log_score),
+            signed(a.mean_score_minus_pool),
             opt(a.mean_bias_distance_m, 0),
             opt(a.mean_weight_used, 3),
             format!("{:.3}", a.bayes_weight),
@@ -381,6 +412,7 @@ pub fn credibility_table(r: &CredibilityReport, record: &str) -> String {
             let _ = writeln!(out, "{}", "-".repeat(total));
         }
     }
+    let _ = writeln!(out, "\n{COLUMNS_NOTE}");
     let _ = writeln!(
         out,
         "\n{WEIGHT_METHOD} Here k = {} incidents.",
@@ -453,6 +485,7 @@ pub fn credibility_markdown(r: &CredibilityReport, record: &str) -> String {
             let _ = writeln!(md, "|---|{}", "---:|".repeat(row.len() - 1));
         }
     }
+    let _ = writeln!(md, "\n{COLUMNS_NOTE}");
     let _ = writeln!(
         md,
         "\n{WEIGHT_METHOD} Here k = {} incidents. The suggested weights are a starting point for the next incident's analyst weights, not a verdict on anyone: a few incidents say little.\n",

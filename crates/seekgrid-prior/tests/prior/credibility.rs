@@ -652,8 +652,9 @@ fn pool_against_best_analysts_matches_hand_arithmetic() {
     // incident 2: pool -2.5, A -4.0, B -2.8 -> best B, gain +0.3
     // incident 3: pool -1.0, A -1.2         -> best A, gain +0.2
     // Against the best of each incident: 2 better, mean (-0.5 + 0.3 + 0.2)/3 = 0.
-    // Means: A (-1.5 - 4.0 - 1.2)/3 = -2.233333, B (-3.0 - 2.8)/2 = -2.9 -> best mean A.
-    // Against A: gains -0.5, +1.5, +0.2 -> 2 better, mean 1.2/3 = 0.4.
+    // Pool against A: gains -0.5, +1.5, +0.2 -> 2 better, mean 1.2/3 = 0.4; A's mean score
+    // (-1.5 - 4.0 - 1.2)/3 = -2.233333. Against B: +1.0, +0.3 -> mean 0.65. The pool gained
+    // least over A: A is the best single analyst.
     let r = pool_versus_analysts(&[
         incident(-2.0, &[("A", -1.5), ("B", -3.0)]),
         incident(-2.5, &[("B", -2.8), ("A", -4.0)]),
@@ -663,15 +664,15 @@ fn pool_against_best_analysts_matches_hand_arithmetic() {
     assert_eq!(r.incidents, 3);
     assert_eq!(r.pool_better_than_best_each, 2);
     assert_abs_diff_eq!(r.mean_gain_over_best_each, 0.0, epsilon = 1e-12);
-    assert_eq!(r.best_mean_analyst, "A");
-    assert_abs_diff_eq!(
-        r.best_mean_analyst_mean_log_score,
-        -6.7 / 3.0,
-        epsilon = 1e-12
-    );
-    assert_eq!(r.best_mean_analyst_incidents, 3);
-    assert_eq!(r.pool_better_than_best_mean, 2);
-    assert_abs_diff_eq!(r.mean_gain_over_best_mean, 0.4, epsilon = 1e-12);
+    let best = r.best();
+    assert_eq!(best.analyst, "A");
+    assert_abs_diff_eq!(best.mean_log_score, -6.7 / 3.0, epsilon = 1e-12);
+    assert_eq!(best.incidents, 3);
+    assert_eq!(best.pool_better, 2);
+    assert_abs_diff_eq!(best.mean_gain_of_pool, 0.4, epsilon = 1e-12);
+    assert_eq!(r.analysts[1].analyst, "B");
+    assert_abs_diff_eq!(r.analysts[1].mean_gain_of_pool, 0.65, epsilon = 1e-12);
+    assert_eq!(r.analysts[1].pool_better, 2);
 }
 
 #[test]
@@ -690,14 +691,14 @@ fn zero_densities_give_ties_or_infinite_gains_as_documented() {
         incident(-1.0, &[("A", -2.0)]),
     ])
     .unwrap();
-    assert_eq!(r.mean_gain_over_best_mean, f64::NEG_INFINITY);
+    assert_eq!(r.best().mean_gain_of_pool, f64::NEG_INFINITY);
 }
 
 #[test]
 fn incidents_without_the_pools_score_are_left_out_of_the_comparison() {
     // Incident 2 has no pool score: the comparison is over incidents 1 and 3 (computed):
     // gains against the best of each, -0.5 and +0.2, mean -0.15; A's mean over those two
-    // incidents (-1.5 - 1.2)/2 = -1.35.
+    // incidents (-1.5 - 1.2)/2 = -1.35, the pool's mean gain over A -0.15, over B +1.0.
     let r = pool_versus_analysts(&[
         incident(-2.0, &[("A", -1.5), ("B", -3.0)]),
         scores(&[("B", -0.5), ("A", -4.0)]),
@@ -706,9 +707,10 @@ fn incidents_without_the_pools_score_are_left_out_of_the_comparison() {
     .unwrap();
     assert_eq!(r.incidents, 2);
     assert_abs_diff_eq!(r.mean_gain_over_best_each, -0.15, epsilon = 1e-12);
-    assert_eq!(r.best_mean_analyst, "A");
-    assert_abs_diff_eq!(r.best_mean_analyst_mean_log_score, -1.35, epsilon = 1e-12);
-    assert_eq!(r.best_mean_analyst_incidents, 2);
+    assert_eq!(r.best().analyst, "A");
+    assert_abs_diff_eq!(r.best().mean_log_score, -1.35, epsilon = 1e-12);
+    assert_abs_diff_eq!(r.best().mean_gain_of_pool, -0.15, epsilon = 1e-12);
+    assert_eq!(r.best().incidents, 2);
     assert!(matches!(
         pool_versus_analysts(&[scores(&[("A", -1.0)])]),
         Err(PriorError::EmptyCredibilityInput {
@@ -716,6 +718,23 @@ fn incidents_without_the_pools_score_are_left_out_of_the_comparison() {
             ..
         })
     ));
+}
+
+#[test]
+fn the_best_analyst_is_chosen_incident_by_incident_not_by_raw_mean_score() {
+    // Computed: L did land incidents, whose densities are high (scores near 0), S sea ones
+    // (scores near -5). By raw mean score L would be best; against the pool of their own
+    // incidents, S beat it (+0.5 each time) and L did not (-0.2), so S is the best analyst
+    // and the pool did not beat every analyst.
+    let r = pool_versus_analysts(&[
+        incident(-0.8, &[("L", -1.0), ("M", -0.9)]),
+        incident(-5.5, &[("S", -5.0), ("T", -6.5)]),
+        incident(-4.5, &[("S", -4.0), ("T", -5.5)]),
+    ])
+    .unwrap();
+    assert_eq!(r.best().analyst, "S");
+    assert_abs_diff_eq!(r.best().mean_gain_of_pool, -0.5, epsilon = 1e-12);
+    assert_abs_diff_eq!(r.analysts[0].mean_gain_of_pool, 0.2, epsilon = 1e-12);
 }
 
 #[test]
