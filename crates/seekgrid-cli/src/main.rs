@@ -83,6 +83,23 @@ enum Command {
         #[arg(long)]
         force: bool,
     },
+    /// Review an ended incident against its outcome: POS and effort over time, the searches
+    /// that passed over the found position, each analyst's and scenario's score, and what the
+    /// same effort could have achieved allocated optimally (review.json, review.md and GeoJSON
+    /// layers)
+    #[command(after_help = AFTER_HELP)]
+    Review {
+        /// The incident file (TOML), with its [outcome] when the incident has ended
+        file: PathBuf,
+        /// Output folder (created; an existing non-empty folder needs --force). Written as one
+        /// unit: it appears whole when the run ends, never half-written
+        #[arg(long)]
+        out: PathBuf,
+        /// Replace an existing output folder: the whole earlier folder goes when this run is
+        /// complete, no file of it stays
+        #[arg(long)]
+        force: bool,
+    },
     /// Write the bundled invented demo incidents into a folder, map them and plan for them
     #[command(after_help = AFTER_HELP)]
     Demo {
@@ -210,6 +227,25 @@ fn run(cli: Cli) -> Result<(), Failure> {
             }
             Ok(())
         }
+        Command::Review { file, out, force } => {
+            let incident = seekgrid_incident::load(&file)?;
+            let dir = open_output(&out, force, &run_id, &incident.input_files())?;
+            let doc = review_incident(&incident, &dir)?;
+            commit(dir)?;
+            eprintln!(
+                "wrote {} as run {run_id} (review to {}, {} search(es), cumulative POS {:.4}{})\n{}",
+                out.display(),
+                doc.end,
+                doc.searches.len(),
+                doc.pos_cumulative,
+                doc.pod_at_truth_cumulative
+                    .map_or(String::new(), |p| format!(
+                        ", POD at the found position {p:.4}"
+                    )),
+                CAUTION
+            );
+            Ok(())
+        }
         Command::Demo { out, force } => demo::run(&out, force, &run_id),
     }
 }
@@ -272,6 +308,31 @@ fn plan_incident(
     let run = result.map_err(|e| located(incident, &e.to_string()))?;
     seekgrid_render::plan_outputs::write(incident, &run, dir)
         .map_err(|e| Failure::failed(e.to_string()))
+}
+
+/// The incident's outcome as the review reads it. The incident model does not carry an
+/// `[outcome]` yet: until it does, the review ends at the last logged search.
+fn outcome_of(_incident: &Incident) -> Option<seekgrid_engine::review::Outcome> {
+    None
+}
+
+/// Reviews an incident into `dir`.
+fn review_incident(
+    incident: &Incident,
+    dir: &OutputDir,
+) -> Result<seekgrid_render::review::ReviewJson, Failure> {
+    use seekgrid_engine::review::ReviewError;
+    let outcome = outcome_of(incident);
+    let result = with_progress(|progress| {
+        seekgrid_engine::review::review(incident, outcome.as_ref(), progress)
+    });
+    let r = result.map_err(|e| match e {
+        ReviewError::Belief(_) | ReviewError::Map(MapError::Belief(_)) => {
+            Failure::failed(format!("{}: {e}", incident.path.display()))
+        }
+        other => located(incident, &other.to_string()),
+    })?;
+    seekgrid_render::review::write(&r, dir).map_err(|e| Failure::failed(e.to_string()))
 }
 
 /// This run's id: the UTC time to the second and the process id, e.g. `20260614T213000Z-4242`.

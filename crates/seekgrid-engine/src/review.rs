@@ -244,6 +244,9 @@ pub struct Period {
     /// Whether every search of the period used the exponential law (only then is the optimum a
     /// bound on what was done).
     pub all_exponential: bool,
+    /// Whether its time (start to end) overlaps another period's; the counterfactual is then
+    /// not an exact comparison.
+    pub overlaps_other_period: bool,
     /// POS achieved by its searches, `1 - Π(1 - POS_k)` with each search's conditional POS.
     pub pos: f64,
     /// Cumulative POS of every search ended by the period's end.
@@ -892,6 +895,7 @@ fn group_periods(defs: &[&SearchDef]) -> Vec<Period> {
                 all_exponential: members
                     .iter()
                     .all(|m| m.detection == seekgrid_incident::model::DetectionName::Exponential),
+                overlaps_other_period: false,
                 pos: 0.0,
                 pos_cumulative: 0.0,
                 pod_at_truth: None,
@@ -900,6 +904,13 @@ fn group_periods(defs: &[&SearchDef]) -> Vec<Period> {
         })
         .collect();
     periods.sort_by(|a, b| a.start.cmp(&b.start).then(a.id.cmp(&b.id)));
+    for k in 0..periods.len() {
+        let (s, e) = (periods[k].start, periods[k].end);
+        periods[k].overlaps_other_period = periods
+            .iter()
+            .enumerate()
+            .any(|(j, o)| j != k && o.start < e && s < o.end);
+    }
     periods
 }
 

@@ -51,6 +51,7 @@ fn help_carries_the_caution_on_every_command() {
         vec!["map", "--help"],
         vec!["check", "--help"],
         vec!["demo", "--help"],
+        vec!["review", "--help"],
     ] {
         let o = seekgrid(&args);
         assert!(o.status.success());

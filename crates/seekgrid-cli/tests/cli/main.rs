@@ -6,3 +6,4 @@ mod external;
 mod frame_vs_proj;
 mod golden;
 mod output_folder;
+mod review;
