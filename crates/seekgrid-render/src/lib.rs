@@ -54,6 +54,7 @@ pub mod plan_outputs;
 mod probability;
 pub mod review;
 pub mod summary;
+pub mod tasking;
 pub mod vector;
 
 pub use containment::containment_geojson;

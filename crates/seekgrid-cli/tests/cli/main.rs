@@ -1,9 +1,11 @@
 //! Tests of the `seekgrid` binary and of the working frame against the outside world, as one
 //! test binary with a module per topic.
 
+mod catalogue;
 mod end_to_end;
 mod external;
 mod frame_vs_proj;
 mod golden;
+mod log;
 mod output_folder;
 mod review;
