@@ -517,7 +517,7 @@ pub fn review(
     }
     let grid = replay.grid;
     let frame = replay.prepared.frame.clone();
-    let cell_km2 = grid.cell_area_m2() / 1e6;
+    let cell_km2 = grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
     let clouds = particle_clouds(&replay.drift_runs);
 
     let truth = match outcome {
@@ -716,7 +716,8 @@ pub fn review(
             }
             TimelineRow {
                 time: r.time,
-                hours_since_reference: (r.time - reference).as_seconds_f64() / 3600.0,
+                hours_since_reference: (r.time - reference).as_seconds_f64()
+                    / seekgrid_core::units::SECONDS_PER_HOUR,
                 whole_hour: hours.contains(&r.time),
                 searches_ended: r.ended,
                 searches_applied: r.applied,
@@ -1107,7 +1108,7 @@ fn score(
 ) -> Result<Scores, ReviewError> {
     let grid = &replay.grid;
     let frame = &replay.prepared.frame;
-    let cell_km2 = grid.cell_area_m2() / 1e6;
+    let cell_km2 = grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
     let within = within_weights(replay);
 
     // Each scenario, by id.

@@ -308,7 +308,7 @@ fn the_rank_of_the_truth_matches_a_plain_sort_of_the_map_at_the_end() {
     )
     .unwrap();
     let cell = r.truth.as_ref().unwrap().cell.unwrap();
-    let area_km2 = m.grid.cell_area_m2() / 1e6;
+    let area_km2 = m.grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
     let truth_density = m.poc[cell] / area_km2;
     let mut d: Vec<f64> = m.poc.iter().copied().collect();
     d.sort_by(|a, b| b.total_cmp(a));
@@ -677,7 +677,7 @@ fn a_drift_scenario_is_scored_with_the_maps_kernel_at_the_found_time() {
     )
     .unwrap();
     let cell = r.truth.as_ref().unwrap().cell.unwrap();
-    let area_km2 = m.grid.cell_area_m2() / 1e6;
+    let area_km2 = m.grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
     let pool = r.pool.unwrap().density_per_km2;
     assert!(
         (pool - m.poc[cell] / area_km2).abs() < 1e-9 * pool,

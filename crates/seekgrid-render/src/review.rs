@@ -25,6 +25,9 @@ pub const REVIEW_FILES: [&str; 5] = [
     "review-searches.geojson",
 ];
 
+/// Metres in a kilometre (for km in the report).
+const METRES_PER_KM: f64 = 1000.0;
+
 fn time(t: Time) -> String {
     t.to_rfc3339_opts(chrono::SecondsFormat::AutoSi, true)
 }
@@ -592,7 +595,7 @@ pub fn review_markdown(r: &Review) -> String {
         "- {applied} of {} logged search(es) applied, in {} period(s); effort {:.1} km² swept (W·L); cumulative POS **{:.3}**.",
         r.searches.len(),
         r.periods.len(),
-        total / 1e6,
+        total / seekgrid_core::units::M2_PER_KM2,
         r.pos_cumulative
     );
     if let Some(pod) = r.pod_at_truth_cumulative {
@@ -656,8 +659,8 @@ pub fn review_markdown(r: &Review) -> String {
             row.searches_ended.join(", "),
             row.searches_applied,
             row.pos_cumulative,
-            row.effort.area_swept_m2 / 1e6,
-            row.effort.track_length_m / 1e3,
+            row.effort.area_swept_m2 / seekgrid_core::units::M2_PER_KM2,
+            row.effort.track_length_m / METRES_PER_KM,
         );
         if with_truth {
             let t = row.truth;
@@ -684,8 +687,8 @@ pub fn review_markdown(r: &Review) -> String {
                 "| {} | {} | {:.1} | {:.1} |",
                 u.unit,
                 u.effort.searches,
-                u.effort.area_swept_m2 / 1e6,
-                u.effort.track_length_m / 1e3
+                u.effort.area_swept_m2 / seekgrid_core::units::M2_PER_KM2,
+                u.effort.track_length_m / METRES_PER_KM
             );
         }
         let _ = writeln!(
@@ -748,7 +751,7 @@ pub fn review_markdown(r: &Review) -> String {
             log_text(a.log_score),
             a.pool_scored_higher
                 .map_or("–", |b| if b { "yes" } else { "no" }),
-            opt(a.bias.map(|b| b.distance_m / 1e3), 2),
+            opt(a.bias.map(|b| b.distance_m / METRES_PER_KM), 2),
             a.bias
                 .and_then(|b| b.bearing_deg)
                 .map_or_else(|| "–".into(), |b| format!("{b:03.0}°")),
@@ -812,7 +815,7 @@ pub fn review_markdown(r: &Review) -> String {
                     ""
                 },
                 p.searches.join(", "),
-                p.effort.area_swept_m2 / 1e6,
+                p.effort.area_swept_m2 / seekgrid_core::units::M2_PER_KM2,
                 if p.all_exponential { "yes" } else { "no" },
                 p.pos,
                 opt(o.map(|o| o.pos_same_belief), 3),
