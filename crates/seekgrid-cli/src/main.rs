@@ -2,9 +2,11 @@
 //! message per error, and exits 0 (ok), 1 (failure) or 2 (bad input).
 
 mod demo;
+mod log;
 
 use clap::{Parser, Subcommand};
 use seekgrid_engine::timeline::{MapError, MapOptions};
+use seekgrid_incident::model::Item;
 use seekgrid_incident::{Incident, IncidentErrors};
 use seekgrid_render::outputs::OutputSelection;
 use seekgrid_render::summary::CAUTION;
@@ -106,6 +108,29 @@ enum Command {
         #[arg(long)]
         force: bool,
     },
+    /// Review an ended incident against its outcome: POS and effort over time, the searches
+    /// that passed over the found position, each analyst's and scenario's score, and what the
+    /// same effort could have achieved allocated optimally (review.json, review.md and GeoJSON
+    /// layers)
+    #[command(after_help = AFTER_HELP)]
+    Review {
+        /// The incident file (TOML), with its [outcome] when the incident has ended (without
+        /// one the review ends at the last logged search and scores no analyst)
+        file: PathBuf,
+        /// Output folder (created; an existing non-empty folder needs --force). Written as one
+        /// unit: it appears whole when the run ends, never half-written
+        #[arg(long)]
+        out: PathBuf,
+        /// Replace an existing output folder: the whole earlier folder goes when this run is
+        /// complete, no file of it stays
+        #[arg(long)]
+        force: bool,
+    },
+    /// Record a completed search in the incident file: as planned (--plan), as followed
+    /// (--track) or as flown (--pattern). The file keeps its comments, the new text is
+    /// validated before it replaces the old, and the old is kept as FILE.bak-TIME
+    #[command(after_help = AFTER_HELP, allow_negative_numbers = true)]
+    Log(Box<log::LogArgs>),
     /// Write the bundled invented demo incidents into a folder, map them and plan for them
     #[command(after_help = AFTER_HELP)]
     Demo {
@@ -165,14 +190,16 @@ fn run(cli: Cli) -> Result<(), Failure> {
             let incident = seekgrid_incident::load(&file)?;
             // Preparing projects every position and validates every shape and search.
             seekgrid_engine::prepare::prepare(&incident)
-                .map_err(|e| located(&incident, &e.to_string()))?;
+                .map_err(|e| located(&incident, Some(e.item()), &e.to_string()))?;
+            let size = sized(&incident)?;
             println!(
-                "{}: ok ({} analyst(s), {} scenario(s), {} search(es), {} unit(s))",
+                "{}: ok ({} analyst(s), {} scenario(s), {} search(es), {} unit(s)); {}",
                 file.display(),
                 incident.analysts.len(),
                 incident.scenarios.len(),
                 incident.searches.len(),
-                incident.units.len()
+                incident.units.len(),
+                describe_size(&size)
             );
             Ok(())
         }
@@ -188,8 +215,9 @@ fn run(cli: Cli) -> Result<(), Failure> {
                 Some(list) => OutputSelection::parse(&list).map_err(Failure::bad_input)?,
                 None => OutputSelection::all(),
             };
-            let at = at.map(|t| parse_time(&t)).transpose()?;
+            let at = at.map(|t| parse_time(&t, "--at")).transpose()?;
             let incident = seekgrid_incident::load(&file)?;
+            sized(&incident)?;
             let dir = open_output(&out, force, &run_id, &incident.input_files())?;
             let summary = map_incident(&incident, &dir, at, &selection)?;
             commit(dir)?;
@@ -211,8 +239,9 @@ fn run(cli: Cli) -> Result<(), Failure> {
             json,
             force,
         } => {
-            let start = parse_time(&start)?;
+            let start = parse_time(&start, "--start")?;
             let incident = seekgrid_incident::load(&file)?;
+            sized(&incident)?;
             let dir = open_output(&out, force, &run_id, &incident.input_files())?;
             let summary = plan_incident(&incident, &dir, start)?;
             commit(dir)?;
@@ -267,6 +296,31 @@ fn run(cli: Cli) -> Result<(), Failure> {
             }
             Ok(())
         }
+        Command::Review { file, out, force } => {
+            let incident = seekgrid_incident::load(&file)?;
+            sized(&incident)?;
+            let dir = open_output(&out, force, &run_id, &incident.input_files())?;
+            let doc = review_incident(&incident, &dir)?;
+            commit(dir)?;
+            eprintln!(
+                "wrote {} as run {run_id} (review to {}, {} search(es), cumulative POS {:.4}{})\n{}",
+                out.display(),
+                doc.end,
+                doc.searches.len(),
+                doc.pos_cumulative,
+                doc.pod_at_truth_cumulative
+                    .map_or(String::new(), |p| format!(
+                        ", POD at the found position {p:.4}"
+                    )),
+                CAUTION
+            );
+            Ok(())
+        }
+        Command::Log(args) => {
+            let message = log::run(&args, chrono::Utc::now())?;
+            eprintln!("{message}\n{CAUTION}");
+            Ok(())
+        }
         Command::Demo { out, force } => demo::run(&out, force, &run_id),
     }
 }
@@ -304,18 +358,61 @@ fn one_line(s: &seekgrid_render::summary::Summary, out: &Path, run_id: &str) -> 
     )
 }
 
-fn parse_time(t: &str) -> Result<chrono::DateTime<chrono::Utc>, Failure> {
+/// Parses the time given to the command-line option `name` (named in the message).
+fn parse_time(t: &str, name: &str) -> Result<chrono::DateTime<chrono::Utc>, Failure> {
     chrono::DateTime::parse_from_rfc3339(t.trim())
         .map(|d| d.with_timezone(&chrono::Utc))
         .map_err(|_| {
             Failure::bad_input(format!(
-                "--at \"{t}\" is not an RFC 3339 time; write it as 2026-06-14T21:00:00Z"
+                "{name} \"{t}\" is not an RFC 3339 time; write it as 2026-06-14T21:00:00Z"
             ))
         })
 }
 
-fn located(incident: &Incident, message: &str) -> Failure {
-    Failure::bad_input(format!("{}: {message}", incident.path.display()))
+/// A bad-input failure at the place in the incident file of the item it concerns
+/// (`FILE:LINE:COL: message`), or at the file when no item is named.
+fn located(incident: &Incident, item: Option<Item>, message: &str) -> Failure {
+    match item {
+        Some(item) => Failure::bad_input(incident.error_at(&item, message).to_string()),
+        None => Failure::bad_input(format!("{}: {message}", incident.path.display())),
+    }
+}
+
+/// The memory a run may plan to use, bytes: refused above this before anything is allocated.
+const MEMORY_LIMIT_BYTES: u64 = 8 << 30;
+
+/// Sizes the incident's computation and refuses, at the line and column of the input that
+/// drives the size, one that would exceed `[grid] max_cells` or [`MEMORY_LIMIT_BYTES`].
+fn sized(incident: &Incident) -> Result<seekgrid_engine::sizing::SizeEstimate, Failure> {
+    seekgrid_engine::sizing::estimate(incident, MEMORY_LIMIT_BYTES).map_err(|e| {
+        let place = seekgrid_incident::locate::span_of(&incident.text, e.field()).map(|span| {
+            let (line, col) = seekgrid_incident::locate::line_col(&incident.text, span.start);
+            format!(":{line}:{col}")
+        });
+        Failure::bad_input(format!(
+            "{}{}: {e}",
+            incident.path.display(),
+            place.unwrap_or_default()
+        ))
+    })
+}
+
+/// One line saying how large the computation will be.
+fn describe_size(s: &seekgrid_engine::sizing::SizeEstimate) -> String {
+    let mut line = format!(
+        "grid {} x {} cells of {} m, about {} MB",
+        s.rows,
+        s.cols,
+        s.cell_m,
+        s.bytes.div_ceil(1_000_000)
+    );
+    if s.particles > 0 {
+        line.push_str(&format!(
+            "; drift {} particles x {} records",
+            s.particles, s.records
+        ));
+    }
+    line
 }
 
 /// Maps an incident into `dir`; shared by `map` and `demo`.
@@ -330,7 +427,7 @@ fn map_incident(
     });
     let m = result.map_err(|e| match e {
         MapError::Belief(_) => Failure::failed(format!("{}: {e}", incident.path.display())),
-        other => located(incident, &other.to_string()),
+        other => located(incident, other.item(), &other.to_string()),
     })?;
     seekgrid_render::outputs::write(incident, &m, dir, selection)
         .map_err(|e| Failure::failed(e.to_string()))
@@ -344,9 +441,29 @@ fn plan_incident(
 ) -> Result<seekgrid_render::summary::Summary, Failure> {
     let result =
         with_progress(|progress| seekgrid_engine::planning::plan_at(incident, start, progress));
-    let run = result.map_err(|e| located(incident, &e.to_string()))?;
+    let run = result.map_err(|e| located(incident, e.item(), &e.to_string()))?;
     seekgrid_render::plan_outputs::write(incident, &run, dir)
         .map_err(|e| Failure::failed(e.to_string()))
+}
+
+/// Reviews an incident into `dir`.
+fn review_incident(
+    incident: &Incident,
+    dir: &OutputDir,
+) -> Result<seekgrid_render::review::ReviewJson, Failure> {
+    use seekgrid_engine::review::ReviewError;
+    let result = with_progress(|progress| {
+        seekgrid_engine::review::review(incident, incident.outcome.as_ref(), progress)
+    });
+    let r = result.map_err(|e| match e {
+        ReviewError::Belief(_)
+        | ReviewError::Counterfactual { .. }
+        | ReviewError::Map(MapError::Belief(_)) => {
+            Failure::failed(format!("{}: {e}", incident.path.display()))
+        }
+        other => located(incident, other.item(), &other.to_string()),
+    })?;
+    seekgrid_render::review::write(&r, dir).map_err(|e| Failure::failed(e.to_string()))
 }
 
 /// This run's id: the UTC time to the second and the process id, e.g. `20260614T213000Z-4242`.

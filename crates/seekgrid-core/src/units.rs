@@ -24,6 +24,30 @@ pub fn knots_to_mps(speed_kn: f64) -> f64 {
     speed_kn * MPS_PER_KNOT
 }
 
+/// Converts kilometres per hour to metres per second.
+#[must_use]
+pub fn kmh_to_mps(speed_kmh: f64) -> f64 {
+    speed_kmh * MPS_PER_KMH
+}
+
+/// Converts metres per second to knots.
+#[must_use]
+pub fn mps_to_knots(speed_mps: f64) -> f64 {
+    speed_mps / MPS_PER_KNOT
+}
+
+/// Converts hours to seconds.
+#[must_use]
+pub fn hours_to_s(duration_h: f64) -> f64 {
+    duration_h * SECONDS_PER_HOUR
+}
+
+/// Converts seconds to hours.
+#[must_use]
+pub fn s_to_hours(duration_s: f64) -> f64 {
+    duration_s / SECONDS_PER_HOUR
+}
+
 /// Converts nautical miles to metres.
 #[must_use]
 pub fn nm_to_m(distance_nm: f64) -> f64 {
@@ -58,9 +82,21 @@ mod tests {
 
     #[test]
     fn one_knot_is_1852_metres_per_hour() {
-        // Definition of the international nautical mile (common practice).
+        // Definition of the international nautical mile (common practice): the literals 3600
+        // and 1852 are the published values this test checks the constants against.
         assert_relative_eq!(knots_to_mps(1.0) * 3600.0, 1852.0, epsilon = 1e-9);
         assert_relative_eq!(m_to_nm(nm_to_m(7.25)), 7.25, epsilon = 1e-12);
+        assert_relative_eq!(mps_to_knots(knots_to_mps(3.5)), 3.5, epsilon = 1e-12);
+    }
+
+    #[test]
+    fn hours_and_kilometres_per_hour_convert_by_their_definitions() {
+        // 1 h = 3600 s and 1 km/h = 1000 m per 3600 s (SI definitions, common practice): the
+        // literals are the published values this test checks against.
+        assert_eq!(hours_to_s(2.5), 9000.0);
+        assert_eq!(s_to_hours(5400.0), 1.5);
+        assert_relative_eq!(kmh_to_mps(36.0), 10.0, epsilon = 1e-12);
+        assert_relative_eq!(kmh_to_mps(1.0) * 3600.0, 1000.0, epsilon = 1e-9);
     }
 
     #[test]

@@ -7,6 +7,7 @@
 use chrono::{Duration, TimeZone, Utc};
 use criterion::{Criterion, Throughput, criterion_group, criterion_main};
 use seekgrid_core::Frame;
+use seekgrid_core::units::{SECONDS_PER_HOUR, nm_to_m};
 use seekgrid_drift::*;
 use std::hint::black_box;
 
@@ -34,7 +35,7 @@ fn scenario() -> DriftScenario {
     };
     DriftScenario {
         lkp_lon_lat: (-30.5, 20.2),
-        position_sigma_m: 1852.0,
+        position_sigma_m: nm_to_m(1.0),
         adrift_earliest: t0,
         adrift_latest: t0 + Duration::hours(3),
         current: Environment::Series(series(
@@ -64,8 +65,8 @@ fn bench(c: &mut Criterion) {
     let frame = Frame::for_position(s.lkp_lon_lat.0, s.lkp_lon_lat.1).unwrap();
     let options = SimulationOptions {
         end: s.adrift_earliest + Duration::hours(STEPS as i64),
-        record_every_s: 3600.0,
-        step_s: Some(3600.0),
+        record_every_s: SECONDS_PER_HOUR,
+        step_s: Some(SECONDS_PER_HOUR),
         also_record_at: Vec::new(),
     };
     let mut group = c.benchmark_group("drift");

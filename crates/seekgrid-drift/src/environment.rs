@@ -39,7 +39,7 @@ impl VectorEstimate {
     }
 
     /// The nominal velocity (no error) as (east, north) metres per second in the direction of
-    /// motion: [`VectorEstimate::velocity_kn`] times 1852/3600.
+    /// motion: [`VectorEstimate::velocity_kn`] times [`MPS_PER_KNOT`].
     #[must_use]
     pub fn velocity_mps(&self, convention: Convention) -> (f64, f64) {
         let (e, n) = self.velocity_kn(convention);

@@ -15,12 +15,24 @@ pub enum DriftError {
         value: f64,
     },
     /// A standard deviation, rate or diffusivity that is negative.
-    #[error("{field} is {value} but cannot be negative; give 0 for no error or a positive value")]
+    #[error(
+        "{field} is {value} but cannot be negative; give zero or a positive value (0 for no error)"
+    )]
     Negative {
         /// The field, e.g. `position_sigma_m`.
         field: String,
         /// The value given.
         value: f64,
+    },
+    /// A number outside the range its meaning allows.
+    #[error("{field} is {value}; {fix}")]
+    OutOfRange {
+        /// The field, e.g. `leeway.jibe_per_h`.
+        field: String,
+        /// The value given.
+        value: f64,
+        /// The range and how to fix it.
+        fix: &'static str,
     },
     /// The adrift window ends before it starts.
     #[error(
@@ -61,8 +73,18 @@ pub enum DriftError {
         what: String,
     },
     /// Zero particles requested.
-    #[error("particles is 0; ask for at least one particle (10 000 or more for a smooth cloud)")]
+    #[error(
+        "particles is 0; ask for between 1 and 20 000 000 particles (10 000 or more for a smooth cloud)"
+    )]
     NoParticles,
+    /// More particles than [`crate::MAX_PARTICLES`].
+    #[error(
+        "particles is {particles}, over the limit of 20 000 000; ask for between 1 and 20 000 000 particles"
+    )]
+    TooManyParticles {
+        /// The number asked for.
+        particles: usize,
+    },
     /// The last known position is not a valid WGS84 position.
     #[error(
         "lkp_lon_lat [{lon}, {lat}] is not a valid WGS84 lon, lat; give longitude in -180..180 and latitude in -80..84, lon first"

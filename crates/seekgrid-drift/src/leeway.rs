@@ -20,9 +20,15 @@ use crate::error::DriftError;
 ///
 /// seekgrid ships no table of objects: the coefficients are the planner's input, and the slopes
 /// are dimensionless (knots of leeway per knot of wind).
+///
+/// Signs: the downwind slope is zero or positive (the wind pushes a drifting object downwind;
+/// a fit that drifts upwind at zero wind does so through a negative offset). The crosswind
+/// slope and both offsets are signed: the side is drawn at random, so only the sign of the
+/// crosswind slope relative to its offset matters (Allen & Plourde fit each side's crosswind
+/// line separately, the left one with negative coefficients).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Leeway {
-    /// Downwind leeway per knot of wind (dimensionless), e.g. 0.03 for 3 % of U10.
+    /// Downwind leeway per knot of wind (dimensionless, >= 0), e.g. 0.03 for 3 % of U10.
     pub downwind_slope: f64,
     /// Downwind leeway at zero wind, knots.
     pub downwind_offset_kn: f64,
@@ -34,9 +40,13 @@ pub struct Leeway {
     pub crosswind_offset_kn: f64,
     /// 1-sigma error of the crosswind leeway, knots (>= 0).
     pub crosswind_sigma_kn: f64,
-    /// Rate at which an object changes side (jibes), events per hour (>= 0).
+    /// Rate at which an object changes side (jibes), events per hour, in 0..=[`MAX_JIBE_PER_H`].
     pub jibe_per_h: f64,
 }
+
+/// Most side changes per hour a leeway may state: about one an hour (at this rate 63 % of
+/// objects have jibed within the hour); published jibing rates are a few percent per hour.
+pub const MAX_JIBE_PER_H: f64 = 1.0;
 
 impl Leeway {
     /// No leeway at all (a drogued object moving with the water).
@@ -50,9 +60,15 @@ impl Leeway {
         jibe_per_h: 0.0,
     };
 
-    pub(crate) fn validate(&self) -> Result<(), DriftError> {
+    /// Checks every coefficient: finite; the downwind slope and both sigmas zero or positive;
+    /// the jibe rate in 0..=[`MAX_JIBE_PER_H`].
+    ///
+    /// # Errors
+    /// [`DriftError::NotFinite`], [`DriftError::Negative`] or [`DriftError::OutOfRange`],
+    /// naming the field as `leeway.<name>`.
+    pub fn validate(&self) -> Result<(), DriftError> {
         for (name, value, signed) in [
-            ("downwind_slope", self.downwind_slope, true),
+            ("downwind_slope", self.downwind_slope, false),
             ("downwind_offset_kn", self.downwind_offset_kn, true),
             ("downwind_sigma_kn", self.downwind_sigma_kn, false),
             ("crosswind_slope", self.crosswind_slope, true),
@@ -72,6 +88,13 @@ impl Leeway {
                     value,
                 });
             }
+        }
+        if self.jibe_per_h > MAX_JIBE_PER_H {
+            return Err(DriftError::OutOfRange {
+                field: "leeway.jibe_per_h".to_owned(),
+                value: self.jibe_per_h,
+                fix: "give the chance of changing side per hour, between 0 and 1 (published rates are a few percent)",
+            });
         }
         Ok(())
     }
@@ -153,9 +176,29 @@ mod tests {
             ..Leeway::NONE
         };
         assert!(matches!(lw.validate(), Err(DriftError::NotFinite { .. })));
-        // A negative slope is a legitimate fit (objects that sail upwind are not excluded).
+        // A negative crosswind slope is a legitimate fit (the left side's line, or a side
+        // that changes with the wind); a negative downwind slope is not.
         let lw = Leeway {
             crosswind_slope: -0.01,
+            ..Leeway::NONE
+        };
+        assert!(lw.validate().is_ok());
+        let lw = Leeway {
+            downwind_slope: -0.01,
+            ..Leeway::NONE
+        };
+        assert!(
+            matches!(lw.validate(), Err(DriftError::Negative { field, .. }) if field == "leeway.downwind_slope")
+        );
+        let lw = Leeway {
+            jibe_per_h: 1.5,
+            ..Leeway::NONE
+        };
+        assert!(
+            matches!(lw.validate(), Err(DriftError::OutOfRange { field, .. }) if field == "leeway.jibe_per_h")
+        );
+        let lw = Leeway {
+            jibe_per_h: MAX_JIBE_PER_H,
             ..Leeway::NONE
         };
         assert!(lw.validate().is_ok());

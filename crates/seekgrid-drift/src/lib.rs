@@ -39,16 +39,16 @@
 //! let frame = Frame::for_position(-30.5, 20.2).unwrap();
 //! let options = SimulationOptions {
 //!     end: t0 + chrono::Duration::hours(2),
-//!     record_every_s: 3600.0,
+//!     record_every_s: seekgrid_core::units::SECONDS_PER_HOUR,
 //!     step_s: None,
 //!     also_record_at: Vec::new(),
 //! };
 //! let run = simulate(&scenario, &frame, None, &options, &|_done, _total| {}).unwrap();
 //! let spread = run.spread_at(options.end, &run.initial_weights()).unwrap();
 //! let lkp = frame.to_xy(-30.5, 20.2);
-//! // Two hours at one knot: 3704 m, almost all of it along grid east near the LKP.
+//! // Two hours at one knot: 2 NM (3704 m), almost all of it along grid east near the LKP.
 //! let moved = (spread.mean.x - lkp.x).hypot(spread.mean.y - lkp.y);
-//! assert!((moved - 3704.0).abs() < 5.0);
+//! assert!((moved - seekgrid_core::units::nm_to_m(2.0)).abs() < 5.0);
 //! ```
 
 // A pure library: it prints nothing (results go back to the caller) and reads no files,
@@ -69,6 +69,8 @@ pub type Time = chrono::DateTime<chrono::Utc>;
 pub use environment::{Convention, Environment, GridSample, GriddedField, VectorEstimate};
 pub use error::DriftError;
 pub use land::LandMask;
-pub use leeway::Leeway;
-pub use simulate::{DriftRun, DriftScenario, ParticleSnapshot, SimulationOptions, simulate};
+pub use leeway::{Leeway, MAX_JIBE_PER_H};
+pub use simulate::{
+    DriftRun, DriftScenario, MAX_PARTICLES, ParticleSnapshot, SimulationOptions, simulate,
+};
 pub use spread::{Ellipse, Spread, containment_radius_factor};

@@ -33,8 +33,8 @@ pub const MAX_STEPS: f64 = 5.0e7;
 /// Particles used to choose the automatic time step (the first ones of the run).
 pub const PILOT_PARTICLES: usize = 512;
 
-/// Longest automatic time step, seconds.
-pub const MAX_AUTO_STEP_S: f64 = 3600.0;
+/// Longest automatic time step, seconds (one hour).
+pub const MAX_AUTO_STEP_S: f64 = SECONDS_PER_HOUR;
 
 /// Halvings the automatic step may take from its first try.
 pub const MAX_AUTO_HALVINGS: u32 = 9;
@@ -112,6 +112,16 @@ impl ParticleSnapshot {
             }
         })
     }
+}
+
+/// Whether a particle's run adds the scenario's random walk (diffusion) to its motion.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum RandomWalk {
+    /// The scenario's diffusion, when it has one (the simulation).
+    Included,
+    /// No diffusion (the pilot run that sizes the time step); the walk's random stream is
+    /// not drawn from.
+    Omitted,
 }
 
 #[derive(Debug, Clone, Copy, Default)]
@@ -361,7 +371,7 @@ struct Model<'a> {
     leeway: Leeway,
     frame: &'a Frame,
     lkp: Coord<f64>,
-    /// True (east, north) knots to grid metres per second: scale * 1852/3600 * rotation.
+    /// True (east, north) knots to grid metres per second: scale * [`MPS_PER_KNOT`] * rotation.
     to_grid: [[f64; 2]; 2],
     position_sigma_grid_m: f64,
     window_s: f64,
@@ -499,7 +509,7 @@ impl<'a> Model<'a> {
         lattice: &Lattice,
         out: &mut [f64],
         land: Option<&LandMask>,
-        diffusion: bool,
+        random_walk: RandomWalk,
     ) -> ParticleMeta {
         let (mut rng, mut walk) = self.rngs(i);
         let init = self.draw_init(&mut rng);
@@ -515,7 +525,7 @@ impl<'a> Model<'a> {
             // Drawn ashore: it never moves.
             strand_s = 0.0;
         }
-        let diffusion = diffusion && self.diffusion_grid > 0.0;
+        let diffusion = random_walk == RandomWalk::Included && self.diffusion_grid > 0.0;
         out[0] = pos.x;
         out[1] = pos.y;
         let adrift_s = init.adrift_s;
@@ -605,7 +615,7 @@ impl<'a> Model<'a> {
         let r = lattice.record_s.len();
         let mut out = vec![0.0; n * r * 2];
         out.par_chunks_mut(r * 2).enumerate().for_each(|(i, o)| {
-            self.run_particle(i, lattice, o, None, false);
+            self.run_particle(i, lattice, o, None, RandomWalk::Omitted);
         });
         let w = vec![1.0; n];
         (0..r)
@@ -672,6 +682,9 @@ fn point_scale(frame: &Frame, lon_deg: f64, lat_deg: f64) -> f64 {
     grid / (m * (2.0 * d).to_radians())
 }
 
+/// Most particles a drift scenario may ask for (20 000 000: 16 bytes each per record time).
+pub const MAX_PARTICLES: usize = 20_000_000;
+
 fn check_finite_non_negative(field: &str, value: f64) -> Result<(), DriftError> {
     if !value.is_finite() {
         return Err(DriftError::NotFinite {
@@ -726,6 +739,11 @@ impl DriftScenario {
         check_finite_non_negative("diffusivity_m2_s", self.diffusivity_m2_s)?;
         if self.particles == 0 {
             return Err(DriftError::NoParticles);
+        }
+        if self.particles > MAX_PARTICLES {
+            return Err(DriftError::TooManyParticles {
+                particles: self.particles,
+            });
         }
         Ok(())
     }
@@ -849,7 +867,13 @@ pub fn simulate(
                 .zip(meta_chunk.iter_mut())
                 .enumerate()
             {
-                *m = model.run_particle(c * CHUNK_PARTICLES + j, &lattice, out, land, true);
+                *m = model.run_particle(
+                    c * CHUNK_PARTICLES + j,
+                    &lattice,
+                    out,
+                    land,
+                    RandomWalk::Included,
+                );
             }
             let count = meta_chunk.len() as u64;
             let now = done.fetch_add(count, Ordering::Relaxed) + count;
@@ -869,6 +893,7 @@ pub fn simulate(
 mod tests {
     use super::*;
     use approx::assert_abs_diff_eq;
+    use seekgrid_core::units::hours_to_s;
 
     #[test]
     fn the_working_frame_map_turns_true_north_onto_the_projected_meridian() {
@@ -936,15 +961,15 @@ mod tests {
         let model = Model::new(&scenario, &frame);
         let mut breaks = model.current.breaks();
         breaks.extend(model.wind.breaks());
-        let record_s = Lattice::record_times(6.0 * 3600.0, 3600.0, &[]);
+        let record_s = Lattice::record_times(hours_to_s(6.0), SECONDS_PER_HOUR, &[]);
         let plain = Lattice::with_step(record_s, 1200.0, &breaks);
         let table = plain.clone().tabulate(&model.current, &model.wind);
         assert!(plain.nominal.is_none() && table.nominal.is_some());
         let r = plain.record_s.len();
         for i in 0..scenario.particles {
             let (mut a, mut b) = (vec![0.0; 2 * r], vec![0.0; 2 * r]);
-            let ma = model.run_particle(i, &plain, &mut a, None, true);
-            let mb = model.run_particle(i, &table, &mut b, None, true);
+            let ma = model.run_particle(i, &plain, &mut a, None, RandomWalk::Included);
+            let mb = model.run_particle(i, &table, &mut b, None, RandomWalk::Included);
             assert_eq!(a, b, "particle {i}");
             assert_eq!(ma.strand_s, mb.strand_s);
         }
@@ -952,6 +977,8 @@ mod tests {
 
     #[test]
     fn record_times_end_at_the_end_and_steps_end_at_kinks() {
+        // Plain times in seconds (no unit conversion): the literals are the checked record
+        // and step times, worked out by hand (computed).
         assert_eq!(
             Lattice::record_times(7200.0, 3600.0, &[]),
             vec![0.0, 3600.0, 7200.0]

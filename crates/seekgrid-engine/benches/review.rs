@@ -29,7 +29,7 @@ fn t0() -> DateTime<Utc> {
 /// leeway 0.02 x 10 kn = 0.2 kn downwind (wind from 250), in frame metres from the last known
 /// position (grid and true north differ by well under a degree here; placement only).
 fn drift_offset(h: f64) -> (f64, f64) {
-    let knot_h = 1852.0;
+    let knot_h = seekgrid_core::units::METRES_PER_NM; // one knot for an hour
     let (c, l) = (45f64.to_radians(), 70f64.to_radians());
     (
         h * knot_h * (0.4 * c.sin() + 0.2 * l.sin()),

@@ -12,14 +12,19 @@
 //!   log score and suggested weight, whether their biases share a direction, and whether the
 //!   pooled map beat the best single analyst.
 //!
+//! Every error of the engine can name the part of the incident file it concerns
+//! ([`MapError::item`], [`PlanRunError::item`], [`prepare::PrepareError::item`]).
+//!
 //! The engine knows the incident model (`seekgrid-incident`) and the search theory crates; it
 //! knows no output format (no GeoJSON, no JSON, no pictures) and does no I/O: every file a user
 //! receives is written by `seekgrid-render` from the values returned here.
 
 pub mod credibility;
+mod located;
 pub mod planning;
 pub mod prepare;
 pub mod review;
+pub mod sizing;
 pub mod slices;
 pub mod timeline;
 

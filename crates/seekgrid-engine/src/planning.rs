@@ -1,7 +1,6 @@
 //! Planning the next search period: the belief at the plan's start, the units available,
 //! and the plan with its bound.
 
-use crate::prepare::law;
 use crate::timeline::{IncidentMap, MapError, MapOptions, Progress, map};
 use seekgrid_incident::model::{Incident, Time, UnitDef};
 use seekgrid_plan as plan;
@@ -58,7 +57,7 @@ fn unit_spec(u: &UnitDef) -> plan::UnitSpec {
         hours_on_scene: u.hours_on_scene,
         sweep_width_m: u.sweep_width_m,
         track_spacing_min_m: u.track_spacing_min_m,
-        law: law(u.detection),
+        law: u.detection,
         kind,
     }
 }

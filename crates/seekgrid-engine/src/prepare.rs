@@ -1,12 +1,17 @@
 //! From a validated incident (lon/lat) to values in the working frame: the frame, the
 //! projected scenarios of the prior, drift scenarios and search geometry.
+//!
+//! [`prepare`] is a short sequence of named steps, one per section of the incident: the frame,
+//! the pool weights, the scenarios, the pool, the land, the searches. The conversions
+//! themselves (scenario to prior shape, pattern to search pattern, drift definition to drift
+//! scenario) belong to the incident model, which the loader also uses to run the libraries'
+//! checks; this module only supplies the projection.
 
-use geo::{Coord, LineString, MultiPolygon, Polygon};
+use geo::{Coord, MultiPolygon};
 use seekgrid_core::{Frame, ProjectedBox};
 use seekgrid_drift as drift;
 use seekgrid_incident::model::{
-    DetectionName, DriftDef, Incident, PatternDef, PoolChoice, RingMode, ScenarioKind,
-    SearchGeometry, Time, VectorDef, VectorSample,
+    Incident, Item, ScenarioDef, ScenarioKind, SearchDef, SearchGeometry, Time, place_polygons,
 };
 use seekgrid_prior as prior;
 use seekgrid_search as search;
@@ -24,23 +29,36 @@ pub struct PreparedDrift {
     pub scenario: drift::DriftScenario,
 }
 
+/// What a completed search covered, in the working frame.
+#[derive(Debug, Clone)]
+pub enum PreparedGeometry {
+    /// The tasked pattern, flown in full.
+    Pattern(search::Pattern),
+    /// A followed track, or the flown part of a pattern cut short (`done_fraction` < 1),
+    /// scored along its points with the search's law and sweep width.
+    Track {
+        /// The points, working frame.
+        points: Vec<Coord<f64>>,
+        /// The time of every point, when the track file gave one for each.
+        times: Option<Vec<Time>>,
+        /// For a pattern cut short: the pattern as tasked.
+        cut_from: Option<search::Pattern>,
+    },
+}
+
 /// A completed search in the working frame.
 #[derive(Debug, Clone)]
 pub struct PreparedSearch {
     /// Index in the incident's search list.
     pub index: usize,
     /// What the incident says.
-    pub def: seekgrid_incident::model::SearchDef,
+    pub def: SearchDef,
     /// Detection law.
     pub law: search::DetectionLaw,
     /// Sweep width with its correction factors.
     pub sweep_width: search::SweepWidth,
-    /// The pattern (rectangles and datum patterns) in the frame.
-    pub pattern: Option<search::Pattern>,
-    /// The followed track in the frame.
-    pub track: Option<Vec<Coord<f64>>>,
-    /// The time of every fix of the followed track, when the file gave one for each.
-    pub track_times: Option<Vec<Time>>,
+    /// The pattern or the track, in the frame.
+    pub geometry: PreparedGeometry,
 }
 
 /// An incident in the working frame.
@@ -70,14 +88,17 @@ pub struct Prepared {
     pub pool: prior::Pool,
 }
 
-/// Why an incident cannot be prepared.
+/// Why an incident cannot be prepared. [`PrepareError::item`] names the part of the incident
+/// file at fault, for `FILE:LINE:COL` messages.
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum PrepareError {
     /// A position cannot be projected.
     #[error("{what}: {source}")]
     Frame {
-        /// Which input.
+        /// Which part of the file.
+        item: Item,
+        /// Which input, in words.
         what: String,
         /// Why.
         source: Box<seekgrid_core::CoreError>,
@@ -90,6 +111,14 @@ pub enum PrepareError {
         /// Why.
         source: Box<prior::PriorError>,
     },
+    /// A drift scenario the drift crate refuses.
+    #[error("drift scenario \"{id}\": {source}")]
+    Drift {
+        /// Scenario id.
+        id: String,
+        /// Why.
+        source: Box<drift::DriftError>,
+    },
     /// A search the search crate refuses.
     #[error("search \"{id}\": {source}")]
     Search {
@@ -98,11 +127,25 @@ pub enum PrepareError {
         /// Why.
         source: Box<search::SearchError>,
     },
-    /// The logarithmic pool cannot mix particles and cells.
+    /// The logarithmic pool cannot mix particles and cells (the loader refuses such a file;
+    /// this guards incidents built in code).
     #[error(
         "the logarithmic pool cannot combine drift scenarios (particles) with cell maps; use pool = \"linear\" in [prior], or remove the drift scenarios"
     )]
     LogPoolWithDrift,
+}
+
+impl PrepareError {
+    /// The part of the incident file this error concerns.
+    #[must_use]
+    pub fn item(&self) -> Item {
+        match self {
+            Self::Frame { item, .. } => item.clone(),
+            Self::Prior { id, .. } | Self::Drift { id, .. } => Item::Scenario(id.clone()),
+            Self::Search { id, .. } => Item::Search(id.clone()),
+            Self::LogPoolWithDrift => Item::Prior,
+        }
+    }
 }
 
 /// The first position named anywhere in the incident, to choose the UTM zone.
@@ -136,18 +179,49 @@ pub fn frame_for(incident: &Incident) -> Result<Frame, PrepareError> {
     }
     let [lon, lat] = first_position(incident).unwrap_or([0.0, 0.0]);
     Frame::for_position(lon, lat).map_err(|source| PrepareError::Frame {
+        item: Item::Header,
         what: "first position".into(),
         source: Box::new(source),
     })
 }
 
-fn xy(frame: &Frame, what: &str, p: [f64; 2]) -> Result<Coord<f64>, PrepareError> {
-    frame
-        .checked_to_xy(p[0], p[1])
-        .map_err(|source| PrepareError::Frame {
-            what: what.to_owned(),
-            source: Box::new(source),
-        })
+/// The projection into the frame, for one item of the incident (named in its errors).
+struct Place<'a> {
+    frame: &'a Frame,
+    item: Item,
+    what: String,
+}
+
+impl Place<'_> {
+    fn xy(&self, p: [f64; 2]) -> Result<Coord<f64>, PrepareError> {
+        self.frame
+            .checked_to_xy(p[0], p[1])
+            .map_err(|source| PrepareError::Frame {
+                item: self.item.clone(),
+                what: self.what.clone(),
+                source: Box::new(source),
+            })
+    }
+
+    fn bearing(&self, true_deg: f64, at: [f64; 2]) -> f64 {
+        self.frame.true_to_grid_bearing_deg(true_deg, at[0], at[1])
+    }
+
+    fn of_scenario<'a>(frame: &'a Frame, s: &ScenarioDef) -> Place<'a> {
+        Place {
+            frame,
+            item: Item::Scenario(s.id.clone()),
+            what: format!("scenario \"{}\"", s.id),
+        }
+    }
+
+    fn of_search<'a>(frame: &'a Frame, s: &SearchDef) -> Place<'a> {
+        Place {
+            frame,
+            item: Item::Search(s.id.clone()),
+            what: format!("search \"{}\"", s.id),
+        }
+    }
 }
 
 /// Projects lon/lat polygons into the frame (vertex by vertex; at seekgrid's cell sizes the
@@ -160,358 +234,235 @@ pub fn project_polygons(
     what: &str,
     mp: &MultiPolygon<f64>,
 ) -> Result<MultiPolygon<f64>, PrepareError> {
-    let ring = |ls: &LineString<f64>| -> Result<LineString<f64>, PrepareError> {
-        ls.0.iter()
-            .map(|c| xy(frame, what, [c.x, c.y]))
-            .collect::<Result<Vec<_>, _>>()
-            .map(LineString)
+    let place = Place {
+        frame,
+        item: Item::Coastline,
+        what: what.to_owned(),
     };
-    mp.0.iter()
-        .map(|p| {
-            Ok(Polygon::new(
-                ring(p.exterior())?,
-                p.interiors()
-                    .iter()
-                    .map(ring)
-                    .collect::<Result<Vec<_>, _>>()?,
-            ))
-        })
-        .collect::<Result<Vec<_>, _>>()
-        .map(MultiPolygon)
-}
-
-fn grid_bearing(frame: &Frame, bearing_deg: f64, at: [f64; 2]) -> f64 {
-    frame.true_to_grid_bearing_deg(bearing_deg, at[0], at[1])
-}
-
-/// The detection law of the search crate for a name in the file.
-#[must_use]
-pub fn law(name: DetectionName) -> search::DetectionLaw {
-    match name {
-        DetectionName::InverseCube => search::DetectionLaw::InverseCube,
-        DetectionName::Exponential => search::DetectionLaw::Exponential,
-        DetectionName::DefiniteRange => search::DetectionLaw::DefiniteRange,
-    }
+    place_polygons(mp, &|p| place.xy(p))
 }
 
 /// A pattern of the incident in the working frame (bearings turned from true to grid).
 ///
 /// # Errors
 /// [`PrepareError::Frame`] for a centre out of range.
-pub fn pattern(frame: &Frame, what: &str, p: &PatternDef) -> Result<search::Pattern, PrepareError> {
-    Ok(match p {
-        PatternDef::ParallelSweep(r) | PatternDef::CreepingLine(r) => {
-            let center = xy(frame, what, r.center)?;
-            let major_grid_bearing_deg = grid_bearing(frame, r.major_bearing_deg, r.center);
-            if matches!(p, PatternDef::ParallelSweep(_)) {
-                search::Pattern::ParallelSweep {
-                    center,
-                    length_m: r.length_m,
-                    width_m: r.width_m,
-                    major_grid_bearing_deg,
-                    track_spacing_m: r.track_spacing_m,
-                }
-            } else {
-                search::Pattern::CreepingLine {
-                    center,
-                    length_m: r.length_m,
-                    width_m: r.width_m,
-                    major_grid_bearing_deg,
-                    track_spacing_m: r.track_spacing_m,
-                }
-            }
-        }
-        PatternDef::ExpandingSquare {
-            center,
-            track_spacing_m,
-            legs,
-            first_leg_bearing_deg,
-        } => search::Pattern::ExpandingSquare {
-            center: xy(frame, what, *center)?,
-            track_spacing_m: *track_spacing_m,
-            legs: *legs,
-            first_leg_grid_bearing_deg: grid_bearing(frame, *first_leg_bearing_deg, *center),
-        },
-        PatternDef::SectorSearch {
-            center,
-            radius_m,
-            first_leg_bearing_deg,
-            sectors,
-        } => search::Pattern::SectorSearch {
-            center: xy(frame, what, *center)?,
-            radius_m: *radius_m,
-            first_leg_grid_bearing_deg: grid_bearing(frame, *first_leg_bearing_deg, *center),
-            sectors: *sectors,
-        },
-    })
+pub fn pattern(
+    frame: &Frame,
+    s: &SearchDef,
+    p: &seekgrid_incident::model::PatternDef,
+) -> Result<search::Pattern, PrepareError> {
+    let place = Place::of_search(frame, s);
+    p.to_search(&|q| place.xy(q), &|b, at| place.bearing(b, at))
 }
 
-fn vector_estimate(s: &VectorSample) -> drift::VectorEstimate {
-    drift::VectorEstimate {
-        speed_kn: s.speed_kn,
-        direction_deg: s.direction_deg,
-        speed_sigma_kn: s.speed_sigma_kn,
-        direction_sigma_deg: s.direction_sigma_deg,
-    }
+/// Each analyst's weight and each scenario's share within its analyst, normalised.
+struct Weights {
+    analysts: Vec<(String, f64)>,
 }
 
-fn environment(id: &str, v: &VectorDef) -> Result<drift::Environment, PrepareError> {
-    Ok(match v {
-        VectorDef::Constant(s) => drift::Environment::Constant(vector_estimate(s)),
-        VectorDef::Series { samples, .. } => drift::Environment::Series(
-            samples
+impl Weights {
+    fn of(incident: &Incident) -> Self {
+        let total: f64 = incident.analysts.iter().map(|a| a.weight).sum();
+        Self {
+            analysts: incident
+                .analysts
                 .iter()
-                .map(|(t, s)| (*t, vector_estimate(s)))
+                .map(|a| (a.id.clone(), a.weight / total))
                 .collect(),
-        ),
-        VectorDef::Field {
-            samples,
-            speed_sigma_kn,
-            direction_sigma_deg,
-            ..
-        } => {
-            let grid_samples: Vec<drift::GridSample> = samples
-                .iter()
-                .map(|s| drift::GridSample {
-                    lon_deg: s.lon,
-                    lat_deg: s.lat,
-                    time: s.time,
-                    u_kn: s.u_kn,
-                    v_kn: s.v_kn,
-                })
-                .collect();
-            drift::Environment::Gridded(
-                drift::GriddedField::from_samples(
-                    &grid_samples,
-                    *speed_sigma_kn,
-                    *direction_sigma_deg,
-                )
-                .map_err(|e| PrepareError::Frame {
-                    what: format!("scenario \"{id}\" gridded field"),
-                    source: Box::new(seekgrid_core::CoreError::BadMass {
-                        what: e.to_string(),
-                    }),
-                })?,
-            )
         }
-    })
-}
+    }
 
-fn drift_scenario(d: &DriftDef, id: &str) -> Result<drift::DriftScenario, PrepareError> {
-    Ok(drift::DriftScenario {
-        lkp_lon_lat: (d.position[0], d.position[1]),
-        position_sigma_m: d.position_sigma_m,
-        adrift_earliest: d.adrift_earliest,
-        adrift_latest: d.adrift_latest,
-        current: environment(id, &d.current)?,
-        wind: environment(id, &d.wind)?,
-        leeway: drift::Leeway {
-            downwind_slope: d.leeway.downwind_slope,
-            downwind_offset_kn: d.leeway.downwind_offset_kn,
-            downwind_sigma_kn: d.leeway.downwind_sigma_kn,
-            crosswind_slope: d.leeway.crosswind_slope,
-            crosswind_offset_kn: d.leeway.crosswind_offset_kn,
-            crosswind_sigma_kn: d.leeway.crosswind_sigma_kn,
-            jibe_per_h: d.leeway.jibe_per_h,
-        },
-        diffusivity_m2_s: d.diffusivity_m2_s,
-        particles: d.particles,
-        seed: d.seed,
-    })
-}
-
-/// Projects an incident into its working frame.
-///
-/// # Errors
-/// A position out of range, a scenario the prior refuses, a search the search crate refuses,
-/// or a logarithmic pool with drift scenarios.
-pub fn prepare(incident: &Incident) -> Result<Prepared, PrepareError> {
-    let frame = frame_for(incident)?;
-    let total_a: f64 = incident.analysts.iter().map(|a| a.weight).sum();
-    let analyst_weights: Vec<(String, f64)> = incident
-        .analysts
-        .iter()
-        .map(|a| (a.id.clone(), a.weight / total_a))
-        .collect();
-    let weight_of = |id: &str| {
-        analyst_weights
+    /// A scenario's mass in the pool: its analyst's weight times its share of that analyst.
+    fn mass(&self, incident: &Incident, s: &ScenarioDef) -> f64 {
+        let analyst = self
+            .analysts
             .iter()
-            .find(|(a, _)| a == id)
-            .map_or(0.0, |(_, w)| *w)
-    };
-    let scenario_total = |analyst: &str| -> f64 {
-        incident
+            .find(|(a, _)| *a == s.analyst)
+            .map_or(0.0, |(_, w)| *w);
+        let of_analyst: f64 = incident
             .scenarios
             .iter()
-            .filter(|s| s.analyst == analyst)
-            .map(|s| s.weight)
-            .sum()
-    };
-
-    let mut stationary = Vec::new();
-    let mut drift = Vec::new();
-    let mut scenario_weights = Vec::new();
-    let mut segments = None;
-    let mut stationary_share: Vec<(String, f64)> = Vec::new();
-    for s in &incident.scenarios {
-        let within = s.weight / scenario_total(&s.analyst);
-        let mass = weight_of(&s.analyst) * within;
-        scenario_weights.push((s.id.clone(), s.analyst.clone(), mass));
-        let what = format!("scenario \"{}\"", s.id);
-        let shape = match &s.kind {
-            ScenarioKind::Point {
-                position,
-                sigma_major_m,
-                sigma_minor_m,
-                major_bearing_deg,
-            } => prior::Shape::Point {
-                center: xy(&frame, &what, *position)?,
-                sigma_major_m: *sigma_major_m,
-                sigma_minor_m: *sigma_minor_m,
-                major_grid_bearing_deg: grid_bearing(&frame, *major_bearing_deg, *position),
-            },
-            ScenarioKind::Route {
-                waypoints,
-                cross_track_sigma_m,
-            } => prior::Shape::Route {
-                waypoints: waypoints
-                    .iter()
-                    .map(|w| xy(&frame, &what, *w))
-                    .collect::<Result<_, _>>()?,
-                cross_track_sigma_m: *cross_track_sigma_m,
-            },
-            ScenarioKind::Area { polygons, .. } => prior::Shape::Area {
-                polygons: project_polygons(&frame, &what, polygons)?,
-            },
-            ScenarioKind::Segments {
-                segments: segs,
-                poa,
-                ..
-            } => {
-                let projected = segs
-                    .iter()
-                    .map(|(id, mp)| {
-                        Ok(prior::Segment {
-                            id: id.clone(),
-                            polygons: project_polygons(&frame, &what, mp)?,
-                        })
-                    })
-                    .collect::<Result<Vec<_>, PrepareError>>()?;
-                if segments.is_none() {
-                    segments = Some(projected.clone());
-                }
-                prior::Shape::Segments {
-                    segments: projected,
-                    poa: poa.clone(),
-                }
-            }
-            ScenarioKind::Rings {
-                position,
-                quantiles,
-                mode,
-            } => prior::Shape::Rings {
-                center: xy(&frame, &what, *position)?,
-                quantiles: quantiles.clone(),
-                interpolation: match mode {
-                    RingMode::UniformPerRing => prior::RingInterpolation::UniformPerRing,
-                    RingMode::MonotoneCubic => prior::RingInterpolation::MonotoneCubic,
-                },
-            },
-            ScenarioKind::Drift(d) => {
-                drift.push(PreparedDrift {
-                    id: s.id.clone(),
-                    analyst: s.analyst.clone(),
-                    mass,
-                    scenario: drift_scenario(d, &s.id)?,
-                });
-                continue;
-            }
-        };
-        shape.validate().map_err(|source| PrepareError::Prior {
-            id: s.id.clone(),
-            source: Box::new(source),
-        })?;
-        match stationary_share.iter_mut().find(|(a, _)| *a == s.analyst) {
-            Some((_, w)) => *w += mass,
-            None => stationary_share.push((s.analyst.clone(), mass)),
-        }
-        stationary.push(prior::Scenario {
-            id: s.id.clone(),
-            analyst: s.analyst.clone(),
-            weight: s.weight,
-            shape,
-        });
+            .filter(|t| t.analyst == s.analyst)
+            .map(|t| t.weight)
+            .sum();
+        analyst * (s.weight / of_analyst)
     }
-    let stationary_mass: f64 = stationary_share.iter().map(|(_, w)| *w).sum();
-    let stationary_analysts = stationary_share
-        .into_iter()
-        .map(|(id, weight)| prior::Analyst { id, weight })
-        .collect();
-    let pool = match incident.pool {
-        PoolChoice::Linear => prior::Pool::Linear,
-        PoolChoice::Logarithmic => prior::Pool::Logarithmic,
+}
+
+/// The scenarios in the frame: the stationary part for the prior, the drift part for the
+/// simulation.
+#[derive(Default)]
+struct Scenarios {
+    stationary: Vec<prior::Scenario>,
+    /// Each analyst's share of the pool held by stationary scenarios, in order of appearance.
+    stationary_share: Vec<(String, f64)>,
+    drift: Vec<PreparedDrift>,
+    scenario_weights: Vec<(String, String, f64)>,
+    segments: Option<Vec<prior::Segment>>,
+}
+
+fn scenarios(
+    incident: &Incident,
+    frame: &Frame,
+    weights: &Weights,
+) -> Result<Scenarios, PrepareError> {
+    let mut out = Scenarios::default();
+    for s in &incident.scenarios {
+        let mass = weights.mass(incident, s);
+        out.scenario_weights
+            .push((s.id.clone(), s.analyst.clone(), mass));
+        match &s.kind {
+            ScenarioKind::Drift(d) => out.drift.push(PreparedDrift {
+                id: s.id.clone(),
+                analyst: s.analyst.clone(),
+                mass,
+                scenario: d.scenario().map_err(|source| PrepareError::Drift {
+                    id: s.id.clone(),
+                    source: Box::new(source),
+                })?,
+            }),
+            _ => stationary(&mut out, frame, s, mass)?,
+        }
+    }
+    Ok(out)
+}
+
+/// One stationary scenario projected, checked by the prior crate and added with its share.
+fn stationary(
+    out: &mut Scenarios,
+    frame: &Frame,
+    s: &ScenarioDef,
+    mass: f64,
+) -> Result<(), PrepareError> {
+    let place = Place::of_scenario(frame, s);
+    let Some(shape) = s
+        .kind
+        .shape(&|p| place.xy(p), &|b, at| place.bearing(b, at))?
+    else {
+        return Ok(());
     };
-    if pool == prior::Pool::Logarithmic && !drift.is_empty() {
+    shape.validate().map_err(|source| PrepareError::Prior {
+        id: s.id.clone(),
+        source: Box::new(source),
+    })?;
+    if let (None, prior::ScenarioShape::Segments { segments, .. }) = (&out.segments, &shape) {
+        out.segments = Some(segments.clone());
+    }
+    match out
+        .stationary_share
+        .iter_mut()
+        .find(|(a, _)| *a == s.analyst)
+    {
+        Some((_, w)) => *w += mass,
+        None => out.stationary_share.push((s.analyst.clone(), mass)),
+    }
+    out.stationary.push(prior::Scenario {
+        id: s.id.clone(),
+        analyst: s.analyst.clone(),
+        weight: s.weight,
+        shape,
+    });
+    Ok(())
+}
+
+/// The pool, refused when logarithmic with drift scenarios.
+fn pool(incident: &Incident, drift: &[PreparedDrift]) -> Result<prior::Pool, PrepareError> {
+    if incident.pool == prior::Pool::Logarithmic && !drift.is_empty() {
         return Err(PrepareError::LogPoolWithDrift);
     }
+    Ok(incident.pool)
+}
 
-    let land = incident
+fn land(incident: &Incident, frame: &Frame) -> Result<Option<MultiPolygon<f64>>, PrepareError> {
+    incident
         .coastline
         .as_ref()
-        .map(|c| project_polygons(&frame, "coastline", c))
-        .transpose()?;
+        .map(|c| project_polygons(frame, "coastline", c))
+        .transpose()
+}
 
-    let mut searches = Vec::new();
-    for (index, s) in incident.searches.iter().enumerate() {
-        let what = format!("search \"{}\"", s.id);
-        let sweep_width = search::SweepWidth::new(s.sweep_width_m, &s.sweep_width_factors)
-            .map_err(|source| PrepareError::Search {
-                id: s.id.clone(),
-                source: Box::new(source),
-            })?;
-        let track_times = match &s.geometry {
-            SearchGeometry::Track { times, .. } => times.iter().copied().collect(),
-            SearchGeometry::Pattern(_) => None,
-        };
-        let (pattern, track) = match &s.geometry {
-            SearchGeometry::Pattern(p) => (Some(pattern(&frame, &what, p)?), None),
-            SearchGeometry::Track { points, .. } => (
-                None,
-                Some(
-                    points
-                        .0
-                        .iter()
-                        .map(|c| xy(&frame, &what, [c.x, c.y]))
-                        .collect::<Result<Vec<_>, _>>()?,
-                ),
-            ),
-        };
-        if let Some(p) = &pattern {
-            p.validate().map_err(|source| PrepareError::Search {
-                id: s.id.clone(),
-                source: Box::new(source),
-            })?;
+fn searches(incident: &Incident, frame: &Frame) -> Result<Vec<PreparedSearch>, PrepareError> {
+    incident
+        .searches
+        .iter()
+        .enumerate()
+        .map(|(index, s)| prepared_search(frame, index, s))
+        .collect()
+}
+
+/// One completed search in the frame: its sweep width, its pattern (cut to the share flown)
+/// or its track.
+fn prepared_search(
+    frame: &Frame,
+    index: usize,
+    s: &SearchDef,
+) -> Result<PreparedSearch, PrepareError> {
+    let refused = |source| PrepareError::Search {
+        id: s.id.clone(),
+        source: Box::new(source),
+    };
+    let sweep_width =
+        search::SweepWidth::new(s.sweep_width_m, &s.sweep_width_factors).map_err(refused)?;
+    let place = Place::of_search(frame, s);
+    let geometry = match &s.geometry {
+        SearchGeometry::Pattern(p) => {
+            let pattern = pattern(frame, s, p)?;
+            pattern.validate().map_err(refused)?;
+            if s.done_fraction < 1.0 {
+                PreparedGeometry::Track {
+                    points: pattern.truncated_tracks(s.done_fraction).0,
+                    times: None,
+                    cut_from: Some(pattern),
+                }
+            } else {
+                PreparedGeometry::Pattern(pattern)
+            }
         }
-        searches.push(PreparedSearch {
-            index,
-            def: s.clone(),
-            law: law(s.detection),
-            sweep_width,
-            pattern,
-            track,
-            track_times,
-        });
-    }
+        SearchGeometry::Track { points, times, .. } => PreparedGeometry::Track {
+            points: points
+                .0
+                .iter()
+                .map(|c| place.xy([c.x, c.y]))
+                .collect::<Result<_, _>>()?,
+            times: times.iter().copied().collect(),
+            cut_from: None,
+        },
+    };
+    Ok(PreparedSearch {
+        index,
+        def: s.clone(),
+        law: s.detection,
+        sweep_width,
+        geometry,
+    })
+}
 
+/// Projects an incident into its working frame, section by section.
+///
+/// # Errors
+/// A position out of range, a scenario the prior or drift crate refuses, a search the search
+/// crate refuses, or a logarithmic pool with drift scenarios; [`PrepareError::item`] says
+/// which part of the file.
+pub fn prepare(incident: &Incident) -> Result<Prepared, PrepareError> {
+    let frame = frame_for(incident)?;
+    let weights = Weights::of(incident);
+    let scenarios = scenarios(incident, &frame, &weights)?;
+    let pool = pool(incident, &scenarios.drift)?;
+    let land = land(incident, &frame)?;
+    let searches = searches(incident, &frame)?;
     Ok(Prepared {
         frame,
-        stationary_analysts,
-        stationary,
-        stationary_mass,
-        drift,
-        analyst_weights,
-        scenario_weights,
-        segments,
+        stationary_mass: scenarios.stationary_share.iter().map(|(_, w)| *w).sum(),
+        stationary_analysts: scenarios
+            .stationary_share
+            .into_iter()
+            .map(|(id, weight)| prior::Analyst { id, weight })
+            .collect(),
+        stationary: scenarios.stationary,
+        drift: scenarios.drift,
+        analyst_weights: weights.analysts,
+        scenario_weights: scenarios.scenario_weights,
+        segments: scenarios.segments,
         land,
         searches,
         pool,
@@ -519,15 +470,41 @@ pub fn prepare(incident: &Incident) -> Result<Prepared, PrepareError> {
 }
 
 impl PreparedSearch {
+    /// The pattern, when the search flew it in full (a pattern cut short is scored as a
+    /// track; see [`PreparedGeometry`]).
+    #[must_use]
+    pub fn pattern(&self) -> Option<&search::Pattern> {
+        match &self.geometry {
+            PreparedGeometry::Pattern(p) => Some(p),
+            PreparedGeometry::Track { .. } => None,
+        }
+    }
+
+    /// Whether the search's area or track comes within one sweep width of the box `b` (e.g. a
+    /// grid's extent): false when it lies wholly outside, where it can find nothing.
+    #[must_use]
+    pub fn reaches(&self, b: &ProjectedBox) -> bool {
+        use geo::Intersects;
+        let grown = b.expanded(self.sweep_width.metres()).to_polygon();
+        match &self.geometry {
+            PreparedGeometry::Pattern(p) => p.area_polygon().intersects(&grown),
+            PreparedGeometry::Track { points: t, .. } if t.len() == 1 => {
+                grown.intersects(&geo::Point(t[0]))
+            }
+            PreparedGeometry::Track { points: t, .. } => {
+                geo::LineString(t.clone()).intersects(&grown)
+            }
+        }
+    }
+
     /// The box in the frame that this search touches (its area, or its track), grown by a
     /// margin of two sweep widths on every side.
     #[must_use]
     pub fn extent(&self) -> Option<ProjectedBox> {
         let margin = self.sweep_width.metres() * 2.0;
-        let pts: Vec<Coord<f64>> = match (&self.pattern, &self.track) {
-            (Some(p), _) => p.area_polygon().exterior().0.clone(),
-            (None, Some(t)) => t.clone(),
-            (None, None) => Vec::new(),
+        let pts: Vec<Coord<f64>> = match &self.geometry {
+            PreparedGeometry::Pattern(p) => p.area_polygon().exterior().0.clone(),
+            PreparedGeometry::Track { points, .. } => points.clone(),
         };
         ProjectedBox::of_points(pts).map(|b| b.expanded(margin))
     }

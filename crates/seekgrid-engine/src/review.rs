@@ -55,55 +55,20 @@
 
 mod kernel;
 
-use crate::prepare::PreparedSearch;
+use crate::prepare::{PreparedGeometry, PreparedSearch};
 use crate::timeline::{
-    MapError, Progress, Replay, SEARCHED_POD_THRESHOLD, law_name, particle_clouds,
+    MapError, Progress, Replay, SEARCHED_POD_THRESHOLD, SearchLog, particle_clouds,
 };
 use geo::{Coord, LineString, Polygon};
 use ndarray::Array2;
 use seekgrid_core::rank::{TruthRank, truth_rank};
 use seekgrid_core::{Belief, CoreError, Frame, GridSpec, Particles, neumaier_sum};
-use seekgrid_incident::model::{Incident, ScenarioKind, SearchDef, Time};
+use seekgrid_incident::model::{Incident, Item, ScenarioKind, SearchDef, Time};
 use seekgrid_prior as prior;
 use seekgrid_search as search;
 use std::collections::BTreeMap;
 
-/// How an incident ended, as the review reads it.
-///
-/// The incident file's `[outcome]` table becomes this value; a review can also be asked for
-/// an outcome given separately (for instance to compare what-ifs).
-#[derive(Debug, Clone, PartialEq)]
-pub enum Outcome {
-    /// The object was found.
-    Found {
-        /// Where, `[lon, lat]` in WGS84 degrees.
-        position: [f64; 2],
-        /// When.
-        time: Time,
-        /// The stated error of the position, metres. It is reported, not used: the scores are
-        /// taken at the position itself.
-        position_error_m: Option<f64>,
-        /// Free text.
-        note: Option<String>,
-    },
-    /// The search was suspended without finding the object.
-    Suspended {
-        /// When.
-        time: Time,
-        /// Free text.
-        note: Option<String>,
-    },
-}
-
-impl Outcome {
-    /// The time of the outcome.
-    #[must_use]
-    pub fn time(&self) -> Time {
-        match self {
-            Self::Found { time, .. } | Self::Suspended { time, .. } => *time,
-        }
-    }
-}
+pub use seekgrid_incident::model::Outcome;
 
 /// Why the review ends where it does.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -244,6 +209,9 @@ pub struct Period {
     /// Whether every search of the period used the exponential law (only then is the optimum a
     /// bound on what was done).
     pub all_exponential: bool,
+    /// Whether its time (start to end) overlaps another period's; the counterfactual is then
+    /// not an exact comparison.
+    pub overlaps_other_period: bool,
     /// POS achieved by its searches, `1 - Π(1 - POS_k)` with each search's conditional POS.
     pub pos: f64,
     /// Cumulative POS of every search ended by the period's end.
@@ -433,11 +401,19 @@ pub enum ReviewError {
         /// Why.
         source: Box<CoreError>,
     },
-    /// A search's POD at the truth, or the counterfactual update, failed.
+    /// A search's POD at the truth failed.
     #[error("search \"{id}\": {source}")]
     Search {
-        /// Search id or period id.
+        /// Search id.
         id: String,
+        /// Why.
+        source: Box<search::SearchError>,
+    },
+    /// The optimal allocation of a period could not be applied to the counterfactual belief.
+    #[error("the optimal allocation of period {period}: {source}")]
+    Counterfactual {
+        /// Period id.
+        period: String,
         /// Why.
         source: Box<search::SearchError>,
     },
@@ -454,12 +430,23 @@ pub enum ReviewError {
     Belief(CoreError),
 }
 
+impl ReviewError {
+    /// The part of the incident file at fault, when one is.
+    #[must_use]
+    pub fn item(&self) -> Option<Item> {
+        match self {
+            Self::Map(e) => e.item(),
+            Self::OutcomeBeforeReference { .. } | Self::Position { .. } => Some(Item::Outcome),
+            Self::Search { id, .. } => Some(Item::Search(id.clone())),
+            Self::Scenario { id, .. } => Some(Item::Scenario(id.clone())),
+            Self::Counterfactual { .. } | Self::Belief(_) => None,
+        }
+    }
+}
+
 /// The period a search belongs to, by `tasked_in`; `None` for a search without it.
-///
-/// The incident model does not carry `tasked_in` yet; until it does, every search is grouped
-/// by its start and end.
-fn tasked_in(_def: &SearchDef) -> Option<&str> {
-    None
+fn tasked_in(def: &SearchDef) -> Option<&str> {
+    def.tasked_in.as_deref()
 }
 
 /// Reviews an incident against its outcome (see the module docs).
@@ -530,7 +517,7 @@ pub fn review(
     }
     let grid = replay.grid;
     let frame = replay.prepared.frame.clone();
-    let cell_km2 = grid.cell_area_m2() / 1e6;
+    let cell_km2 = grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
     let clouds = particle_clouds(&replay.drift_runs);
 
     let truth = match outcome {
@@ -569,37 +556,24 @@ pub fn review(
 
     // One pass: searches applied in order, the belief read at every checkpoint, the
     // counterfactual chain advanced at every period start.
-    let mut belief = replay.belief_before_searches.clone();
-    let mut chain = (!periods.is_empty()).then(|| belief.clone());
+    let drifting = replay.drifting();
+    let mut log = SearchLog::new(replay.belief_before_searches.clone());
+    let mut chain = (!periods.is_empty()).then(|| replay.belief_before_searches.clone());
     let mut miss_chain = 1.0;
-    let mut reports = Vec::new();
-    let mut miss = 1.0;
-    let mut next = 0;
+    let mut applied = replay.to_apply().peekable();
     let mut rows = Vec::new();
     for (&t, cp) in &checkpoints {
-        while let Some(&k) = replay.to_apply.get(next) {
-            let s = &replay.prepared.searches[k];
-            if s.def.end > t {
-                break;
-            }
-            let applied = replay.apply(&mut belief, s)?;
-            miss *= 1.0 - applied.report.pos;
-            reports.push(applied.report);
-            next += 1;
+        while let Some(s) = applied.next_if(|s| s.def.end <= t) {
+            log.apply(s, &drifting)?;
         }
-        let (x, y, st) = replay.place(t);
+        drifting.move_particles(&mut log.belief, t)?;
         if let Some(chain) = chain.as_mut().filter(|_| !cp.period_starts.is_empty()) {
-            chain
-                .move_particles(x.clone(), y.clone(), st.clone())
-                .map_err(ReviewError::Belief)?;
+            drifting.move_particles(chain, t)?;
         }
-        belief
-            .move_particles(x, y, st)
-            .map_err(ReviewError::Belief)?;
         for &k in &cp.period_starts {
             let p = &mut periods[k];
             let effort = p.effort.area_swept_m2;
-            let same = optimum(&belief, effort, truth_cell);
+            let same = optimum(&log.belief, effort, truth_cell);
             let chained = match chain.as_mut() {
                 Some(c) => optimum_applied(c, effort, truth_cell, &p.id)?,
                 None => None,
@@ -623,18 +597,20 @@ pub fn review(
         }
         if cp.row {
             let truth_at = match truth_cell {
-                Some(cell) => Some(truth_at(&belief, &grid, &clouds, cell, cell_km2)?),
+                Some(cell) => Some(truth_at(&log.belief, &grid, &clouds, cell, cell_km2)?),
                 None => None,
             };
             rows.push(RowDraft {
                 time: t,
                 ended: cp.ended.clone(),
-                applied: next,
-                pos_cumulative: 1.0 - miss,
+                applied: log.reports.len(),
+                pos_cumulative: 1.0 - log.miss_all,
                 truth: truth_at,
             });
         }
     }
+    let miss = log.miss_all;
+    let reports = log.reports;
 
     // Every logged search, with its POD at the truth.
     let mut searches = Vec::new();
@@ -657,7 +633,7 @@ pub fn review(
             end: s.def.end,
             period: periods.iter().position(|p| p.searches.contains(&s.def.id)),
             applied: report.is_some(),
-            detection: law_name(s.law),
+            detection: s.law.name(),
             sweep_width_m,
             effort: Effort {
                 area_swept_m2: sweep_width_m * length,
@@ -740,7 +716,8 @@ pub fn review(
             }
             TimelineRow {
                 time: r.time,
-                hours_since_reference: (r.time - reference).as_seconds_f64() / 3600.0,
+                hours_since_reference: (r.time - reference).as_seconds_f64()
+                    / seekgrid_core::units::SECONDS_PER_HOUR,
                 whole_hour: hours.contains(&r.time),
                 searches_ended: r.ended,
                 searches_applied: r.applied,
@@ -891,7 +868,8 @@ fn group_periods(defs: &[&SearchDef]) -> Vec<Period> {
                 effort: Effort::default(),
                 all_exponential: members
                     .iter()
-                    .all(|m| m.detection == seekgrid_incident::model::DetectionName::Exponential),
+                    .all(|m| m.detection == search::DetectionLaw::Exponential),
+                overlaps_other_period: false,
                 pos: 0.0,
                 pos_cumulative: 0.0,
                 pod_at_truth: None,
@@ -900,15 +878,21 @@ fn group_periods(defs: &[&SearchDef]) -> Vec<Period> {
         })
         .collect();
     periods.sort_by(|a, b| a.start.cmp(&b.start).then(a.id.cmp(&b.id)));
+    for k in 0..periods.len() {
+        let (s, e) = (periods[k].start, periods[k].end);
+        periods[k].overlaps_other_period = periods
+            .iter()
+            .enumerate()
+            .any(|(j, o)| j != k && o.start < e && s < o.end);
+    }
     periods
 }
 
 /// Legs or track, area and track length of a prepared search (as the timeline reports them).
 fn geometry(s: &PreparedSearch) -> (LineString<f64>, Option<Polygon<f64>>, f64) {
-    let (track, area) = match (&s.pattern, &s.track) {
-        (Some(p), _) => (p.tracks(), Some(p.area_polygon())),
-        (None, Some(t)) => (LineString(t.clone()), None),
-        (None, None) => (LineString(Vec::new()), None),
+    let (track, area) = match &s.geometry {
+        PreparedGeometry::Pattern(p) => (p.tracks(), Some(p.area_polygon())),
+        PreparedGeometry::Track { points, .. } => (LineString(points.clone()), None),
     };
     let length = track
         .0
@@ -922,7 +906,7 @@ fn geometry(s: &PreparedSearch) -> (LineString<f64>, Option<Polygon<f64>>, f64) 
 /// over the whole area at coverage W/S), else the drawn length of its legs or track.
 fn effort_length(s: &PreparedSearch, drawn_m: f64) -> f64 {
     use geo::Area;
-    match &s.pattern {
+    match s.pattern() {
         Some(p) if p.is_rectangle() => {
             // coverage = W/S, so A·coverage/W = A/S.
             p.area_polygon().unsigned_area() * p.coverage(&s.sweep_width) / s.sweep_width.metres()
@@ -937,10 +921,13 @@ fn pod_at(s: &PreparedSearch, xy: Coord<f64>) -> Result<f64, ReviewError> {
         id: s.def.id.clone(),
         source: Box::new(source),
     };
-    let pod = match (&s.pattern, &s.track) {
-        (Some(p), _) => search::pattern_pod_at(&[xy], p, s.law, &s.sweep_width).map_err(err)?,
-        (None, Some(t)) => search::track_pod_at(&[xy], t, s.law, &s.sweep_width).map_err(err)?,
-        (None, None) => vec![0.0],
+    let pod = match &s.geometry {
+        PreparedGeometry::Pattern(p) => {
+            search::pattern_pod_at(&[xy], p, s.law, &s.sweep_width).map_err(err)?
+        }
+        PreparedGeometry::Track { points, .. } => {
+            search::track_pod_at(&[xy], points, s.law, &s.sweep_width).map_err(err)?
+        }
     };
     Ok(pod.first().copied().unwrap_or(0.0))
 }
@@ -983,8 +970,8 @@ fn optimum_applied(
     let Ok(a) = search::optimal_allocation(&cells, grid.cell_area_m2(), effort_m2) else {
         return Ok(None);
     };
-    let err = |source| ReviewError::Search {
-        id: format!("optimal allocation of period {period}"),
+    let err = |source| ReviewError::Counterfactual {
+        period: period.to_owned(),
         source: Box::new(source),
     };
     let pod = a.coverage.mapv(|z| -(-z).exp_m1());
@@ -1051,11 +1038,10 @@ fn kind_name(k: &ScenarioKind) -> &'static str {
     }
 }
 
-fn log_score(density: f64) -> Result<f64, ReviewError> {
-    prior::credibility::log_score(density).map_err(|e| ReviewError::Scenario {
-        id: "density at the truth".into(),
-        source: Box::new(e),
-    })
+/// ln(density); the densities here are finite and non-negative by construction, so the
+/// credibility crate's check cannot fail (a NaN would come out as NaN).
+fn log_score(density: f64) -> f64 {
+    prior::credibility::log_score(density).unwrap_or(f64::NAN)
 }
 
 /// Weight of each scenario within its analyst, from the pool masses.
@@ -1122,7 +1108,7 @@ fn score(
 ) -> Result<Scores, ReviewError> {
     let grid = &replay.grid;
     let frame = &replay.prepared.frame;
-    let cell_km2 = grid.cell_area_m2() / 1e6;
+    let cell_km2 = grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
     let within = within_weights(replay);
 
     // Each scenario, by id.
@@ -1191,13 +1177,13 @@ fn score(
             weight_within_analyst: *w,
             weight_in_pool: *mass,
             density_per_km2: d,
-            log_score: d.map(log_score).transpose()?,
+            log_score: d.map(log_score),
         });
     }
 
     // The pool: the belief before any search, at the found time.
     let pool_density = replay.belief_before_searches.cells()[cell] / cell_km2 + drift_part;
-    let pool_log = log_score(pool_density)?;
+    let pool_log = log_score(pool_density);
 
     let mut analysts = Vec::new();
     for (id, w) in &replay.prepared.analyst_weights {
@@ -1219,7 +1205,7 @@ fn score(
             }
         }
         let density = neumaier_sum(f);
-        let score = log_score(density)?;
+        let score = log_score(density);
         let mass = neumaier_sum(m);
         let bias = (mass > 0.0).then(|| {
             let mean = Coord {

@@ -10,7 +10,7 @@
 //! the rectangle patterns (scored by coverage, not along a track), are evaluated once at the
 //! search's mid-time.
 
-use crate::prepare::PreparedSearch;
+use crate::prepare::{PreparedGeometry, PreparedSearch};
 use geo::Coord;
 use seekgrid_incident::model::Time;
 
@@ -37,11 +37,10 @@ pub fn slices(s: &PreparedSearch) -> Option<Vec<Slice>> {
     if parts.is_nan() || parts <= 1.0 {
         return None;
     }
-    let (track, times) = match (&s.pattern, &s.track) {
-        (Some(p), _) if p.is_rectangle() => return None,
-        (Some(p), _) => (p.tracks().0, None),
-        (None, Some(t)) => (t.clone(), s.track_times.clone()),
-        (None, None) => return None,
+    let (track, times) = match &s.geometry {
+        PreparedGeometry::Pattern(p) if p.is_rectangle() => return None,
+        PreparedGeometry::Pattern(p) => (p.tracks().0, None),
+        PreparedGeometry::Track { points, times, .. } => (points.clone(), times.clone()),
     };
     let offsets = match times {
         Some(t) if t.len() == track.len() => t

@@ -1,10 +1,11 @@
 //! The timeline of an incident: the prior at the reference time, drift carried forward, and
 //! every completed search applied in time order as a Bayesian update.
 
-use crate::prepare::{PrepareError, Prepared, PreparedSearch, prepare};
+use crate::prepare::{PrepareError, Prepared, PreparedGeometry, PreparedSearch, prepare};
 use crate::slices;
 use geo::Coord;
 use ndarray::Array2;
+use seekgrid_core::units::SECONDS_PER_HOUR;
 use seekgrid_core::{Belief, CoreError, Frame, GridSpec, Particles, ProjectedBox};
 use seekgrid_drift as drift;
 use seekgrid_incident::model::{Incident, Time};
@@ -13,7 +14,7 @@ use seekgrid_search as search;
 
 /// Regular interval of the stored drift positions, seconds, besides the times the map uses
 /// (see [`map`]).
-const DRIFT_RECORD_EVERY_S: f64 = 6.0 * 3600.0;
+const DRIFT_RECORD_EVERY_S: f64 = 6.0 * SECONDS_PER_HOUR;
 
 /// Options of one map computation.
 #[derive(Debug, Clone, Copy)]
@@ -41,7 +42,7 @@ pub struct SearchReport {
     pub evaluated_at: Time,
     /// Sweep width of the unit, metres.
     pub sweep_width_m: f64,
-    /// Detection law, as written in the incident file ([`law_name`]).
+    /// Detection law, as written in the incident file ([`search::DetectionLaw::name`]).
     pub detection: &'static str,
     /// Track spacing of a parallel sweep, creeping line or expanding square, metres; `None`
     /// for a sector search and for a followed track.
@@ -154,6 +155,295 @@ pub enum MapError {
 /// Progress of long steps (drift simulations): called with (done, total).
 pub type Progress<'a> = &'a (dyn Fn(&str, u64, u64) + Sync);
 
+/// Computes the map of an incident at a time, in named steps: choose the searches to apply,
+/// run the drift, choose the grid, put the stationary part on it where the object can be, make
+/// the belief at the reference time, apply each search in turn as a Bayesian update, and
+/// assemble the map at its time.
+///
+/// # Errors
+/// See [`MapError`].
+pub fn map(
+    incident: &Incident,
+    options: &MapOptions,
+    progress: Progress<'_>,
+) -> Result<IncidentMap, MapError> {
+    let replay = Replay::start(incident, options.at, &[], progress)?;
+    let drifting = replay.drifting();
+    let mut log = SearchLog::new(replay.belief_before_searches.clone());
+    for s in replay.to_apply() {
+        log.apply(s, &drifting)?;
+    }
+    drifting.move_particles(&mut log.belief, replay.at)?;
+    let poc = poc_cells(
+        &log.belief,
+        &replay.grid,
+        &particle_clouds(&replay.drift_runs),
+    );
+    Ok(IncidentMap {
+        poc,
+        prepared: replay.prepared,
+        grid: replay.grid,
+        grid_auto: replay.grid_auto,
+        at: replay.at,
+        declared_share_of_outside: replay.declared_share_of_outside,
+        prior: replay.prior,
+        belief: log.belief,
+        belief_before_searches: replay.belief_before_searches,
+        pod_cumulative: log.pod_cumulative,
+        searches: log.reports,
+        searches_pending: replay.pending,
+        drift_runs: replay.drift_runs,
+        pos_cumulative: 1.0 - log.miss_all,
+    })
+}
+
+/// An incident set up at its reference time, ready to be carried forward: the inputs in the
+/// frame, the drift simulated once, the grid, and the belief before any search. [`map`] and
+/// the review ([`crate::review`]) both start here; the review then reads the belief at many
+/// times in one pass over the same drift runs.
+pub(crate) struct Replay {
+    /// The inputs in the frame.
+    pub(crate) prepared: Prepared,
+    /// The grid.
+    pub(crate) grid: GridSpec,
+    /// Whether the grid extent was chosen automatically.
+    pub(crate) grid_auto: bool,
+    /// The last time the replay describes (the map's time).
+    pub(crate) at: Time,
+    /// The stationary prior, when there is one.
+    pub(crate) prior: Option<prior::Prior>,
+    /// The belief at the reference time, before any search.
+    pub(crate) belief_before_searches: Belief,
+    /// See [`IncidentMap::declared_share_of_outside`].
+    pub(crate) declared_share_of_outside: f64,
+    /// Drift simulations, one per drift scenario.
+    pub(crate) drift_runs: Vec<(String, drift::DriftRun)>,
+    /// Positions in `prepared.searches` of the searches ended by `at`, in the order applied.
+    to_apply: Vec<usize>,
+    /// Ids of the searches ending after `at`, in file order.
+    pub(crate) pending: Vec<String>,
+}
+
+impl Replay {
+    /// The steps of [`map`] up to the belief at the reference time: the searches to apply by
+    /// `at` (default as [`MapOptions::at`]), the drift (its positions stored at the times the
+    /// map uses and at `extra_record_at`), the grid, and the stationary part where the object
+    /// can be.
+    pub(crate) fn start(
+        incident: &Incident,
+        at: Option<Time>,
+        extra_record_at: &[Time],
+        progress: Progress<'_>,
+    ) -> Result<Self, MapError> {
+        let prepared = prepare(incident)?;
+        let mut schedule = Schedule::new(incident, &prepared, &MapOptions { at });
+        schedule.extra_record_at = extra_record_at.to_vec();
+        let drift_runs = run_drift(&prepared, &schedule, progress)?;
+        let drifting = Drifting { runs: &drift_runs };
+        let (grid, grid_auto) = choose_grid(incident, &prepared, &schedule, &drifting)?;
+        let prior = build_prior(&prepared, &grid)?;
+        let stationary =
+            StationaryPart::where_the_object_can_be(prior.as_ref(), incident, &prepared, &grid)?;
+        let declared_share_of_outside = stationary.declared_share_of_outside();
+        let belief_before_searches =
+            stationary.into_belief(&prepared, &drifting, schedule.reference_time)?;
+        let to_apply = schedule
+            .to_apply
+            .iter()
+            .filter_map(|s| prepared.searches.iter().position(|p| p.index == s.index))
+            .collect();
+        let (at, pending) = (schedule.at, schedule.pending);
+        Ok(Self {
+            prepared,
+            grid,
+            grid_auto,
+            at,
+            prior,
+            belief_before_searches,
+            declared_share_of_outside,
+            drift_runs,
+            to_apply,
+            pending,
+        })
+    }
+
+    /// The searches ended by `at`, in the order they are applied.
+    pub(crate) fn to_apply(&self) -> impl Iterator<Item = &PreparedSearch> {
+        self.to_apply.iter().map(|&k| &self.prepared.searches[k])
+    }
+
+    /// The drift runs, to place the belief's particles.
+    pub(crate) fn drifting(&self) -> Drifting<'_> {
+        Drifting {
+            runs: &self.drift_runs,
+        }
+    }
+}
+
+/// The time a map describes and the logged searches it applies by then.
+struct Schedule<'p> {
+    /// The reference time of the incident.
+    reference_time: Time,
+    /// The time the map describes.
+    at: Time,
+    /// The searches ended by `at`, in order of end time, then start, then id.
+    to_apply: Vec<&'p PreparedSearch>,
+    /// Ids of the searches ending after `at`, in file order.
+    pending: Vec<String>,
+    /// Further times at which the drift runs store positions (the review's times).
+    extra_record_at: Vec<Time>,
+}
+
+impl<'p> Schedule<'p> {
+    fn new(incident: &Incident, prepared: &'p Prepared, options: &MapOptions) -> Self {
+        let last_search_end = incident.searches.iter().map(|s| s.end).max();
+        let at = options.at.unwrap_or_else(|| {
+            last_search_end
+                .unwrap_or(incident.reference_time)
+                .max(incident.reference_time)
+        });
+        let mut to_apply: Vec<&PreparedSearch> = prepared
+            .searches
+            .iter()
+            .filter(|s| s.def.end <= at)
+            .collect();
+        to_apply.sort_by(|a, b| {
+            a.def
+                .end
+                .cmp(&b.def.end)
+                .then(a.def.start.cmp(&b.def.start))
+                .then(a.def.id.cmp(&b.def.id))
+        });
+        let pending = prepared
+            .searches
+            .iter()
+            .filter(|s| s.def.end > at)
+            .map(|s| s.def.id.clone())
+            .collect();
+        Self {
+            reference_time: incident.reference_time,
+            at,
+            to_apply,
+            pending,
+            extra_record_at: Vec::new(),
+        }
+    }
+
+    /// The times the map places the drifting particles at: the reference time, the map's
+    /// time and the middle of each applied search.
+    fn placement_times(&self) -> Vec<Time> {
+        let mut times = vec![self.reference_time, self.at];
+        times.extend(self.to_apply.iter().map(|s| mid_time(s)));
+        times
+    }
+
+    /// The times a drift run stores positions at: exactly where they are used (the placement
+    /// times, the extra times asked for, the middle of each part of a search cut into parts,
+    /// and every whole hour from going adrift to `end`, the drift layer's track). 16 bytes per
+    /// particle per record.
+    fn drift_record_times(&self, adrift_earliest: Time, end: Time) -> Vec<Time> {
+        let mut record_at = self.placement_times();
+        record_at.extend_from_slice(&self.extra_record_at);
+        for s in &self.to_apply {
+            record_at.extend(slices::slices(s).into_iter().flatten().map(|p| p.mid));
+        }
+        let hour = chrono::TimeDelta::hours(1);
+        if let Ok(first) = chrono::DurationRound::duration_trunc(adrift_earliest, hour) {
+            let mut t = first + hour;
+            while t < end {
+                record_at.push(t);
+                t += hour;
+            }
+        }
+        record_at
+    }
+}
+
+/// Runs every drift scenario (its cloud is part of the grid extent, so the drift comes first)
+/// to the later of the map's time and the scenario's latest adrift time.
+fn run_drift(
+    prepared: &Prepared,
+    schedule: &Schedule<'_>,
+    progress: Progress<'_>,
+) -> Result<Vec<(String, drift::DriftRun)>, MapError> {
+    let land = prepared.land.clone().map(drift::LandMask::new);
+    let mut drift_runs = Vec::new();
+    for d in &prepared.drift {
+        let end = schedule
+            .at
+            .max(schedule.reference_time)
+            .max(d.scenario.adrift_latest);
+        // A record every six hours besides the times used keeps interpolated positions close
+        // for other readers.
+        let options = drift::SimulationOptions {
+            end,
+            record_every_s: DRIFT_RECORD_EVERY_S,
+            step_s: None,
+            also_record_at: schedule.drift_record_times(d.scenario.adrift_earliest, end),
+        };
+        let report = |done: u64, total: u64| progress(&d.id, done, total);
+        let run = drift::simulate(
+            &d.scenario,
+            &prepared.frame,
+            land.as_ref(),
+            &options,
+            &report,
+        )
+        .map_err(|source| MapError::Drift {
+            id: d.id.clone(),
+            source: Box::new(source),
+        })?;
+        drift_runs.push((d.id.clone(), run));
+    }
+    Ok(drift_runs)
+}
+
+/// The grid: over the `[grid]` bounds when given (`false`: not chosen automatically),
+/// otherwise over everything the map holds (`true`).
+fn choose_grid(
+    incident: &Incident,
+    prepared: &Prepared,
+    schedule: &Schedule<'_>,
+    drifting: &Drifting<'_>,
+) -> Result<(GridSpec, bool), MapError> {
+    let (grid_box, grid_auto) = match incident.grid.bounds {
+        Some(b) => (lon_lat_box(&prepared.frame, b)?, false),
+        None => (
+            automatic_extent(incident, prepared, schedule, drifting)?,
+            true,
+        ),
+    };
+    let grid = GridSpec::covering(&grid_box, incident.grid.cell_m, incident.grid.max_cells)
+        .map_err(MapError::Grid)?;
+    Ok((grid, grid_auto))
+}
+
+/// The box holding the stationary scenarios, every drift cloud at each placement time (grown
+/// by one cell) and every applied search's extent.
+fn automatic_extent(
+    incident: &Incident,
+    prepared: &Prepared,
+    schedule: &Schedule<'_>,
+    drifting: &Drifting<'_>,
+) -> Result<ProjectedBox, MapError> {
+    let mut b = prior::auto_extent(&prepared.stationary);
+    let times = schedule.placement_times();
+    for (_, run) in drifting.runs {
+        for t in &times {
+            if let Some(sb) = snapshot_box(&run.positions_at(*t)) {
+                let sb = sb.expanded(incident.grid.cell_m);
+                b = Some(b.map_or(sb, |x| x.union(&sb)));
+            }
+        }
+    }
+    for s in &schedule.to_apply {
+        if let Some(sb) = s.extent() {
+            b = Some(b.map_or(sb, |x| x.union(&sb)));
+        }
+    }
+    b.ok_or(MapError::NoExtent)
+}
+
 fn lon_lat_box(frame: &Frame, b: [f64; 4]) -> Result<ProjectedBox, MapError> {
     // Sample the edges: a lon/lat box is not a rectangle in UTM.
     let [w, s, e, n] = b;
@@ -181,359 +471,294 @@ fn snapshot_box(snap: &drift::ParticleSnapshot) -> Option<ProjectedBox> {
     )
 }
 
-/// Computes the map of an incident at a time.
-///
-/// # Errors
-/// See [`MapError`].
-pub fn map(
-    incident: &Incident,
-    options: &MapOptions,
-    progress: Progress<'_>,
-) -> Result<IncidentMap, MapError> {
-    let replay = Replay::start(incident, options.at, &[], progress)?;
-    let grid = replay.grid;
-    let mut belief = replay.belief_before_searches.clone();
-    let mut pod_cumulative: Option<Array2<f64>> = None;
-    let mut reports = Vec::new();
-    let mut miss_all = 1.0;
-    for &k in &replay.to_apply {
-        let s = &replay.prepared.searches[k];
-        let applied = replay.apply(&mut belief, s)?;
-        let err = |source| MapError::Search {
-            id: s.def.id.clone(),
-            source: Box::new(source),
-        };
-        let cumulative =
-            pod_cumulative.get_or_insert_with(|| Array2::zeros((grid.rows(), grid.cols())));
-        applied.layer.combine_into(cumulative).map_err(err)?;
-        miss_all *= 1.0 - applied.report.pos;
-        reports.push(applied.report);
+/// The stationary prior on the grid (conditional on the stationary part); `None` when no
+/// scenario is stationary.
+fn build_prior(prepared: &Prepared, grid: &GridSpec) -> Result<Option<prior::Prior>, MapError> {
+    if prepared.stationary.is_empty() {
+        return Ok(None);
     }
-    let (x, y, st) = replay.place(replay.at);
-    belief.move_particles(x, y, st).map_err(MapError::Belief)?;
-
-    let poc = poc_cells(&belief, &grid, &particle_clouds(&replay.drift_runs));
-    Ok(IncidentMap {
-        poc,
-        prepared: replay.prepared,
+    prior::combine(
+        &prepared.stationary_analysts,
+        &prepared.stationary,
         grid,
-        grid_auto: replay.grid_auto,
-        at: replay.at,
-        prior: replay.prior,
-        belief,
-        belief_before_searches: replay.belief_before_searches,
-        declared_share_of_outside: replay.declared_share_of_outside,
-        pod_cumulative,
-        searches: reports,
-        searches_pending: replay.searches_pending,
-        drift_runs: replay.drift_runs,
-        pos_cumulative: 1.0 - miss_all,
-    })
+        prepared.pool,
+    )
+    .map(Some)
+    .map_err(|e| MapError::Prior(Box::new(e)))
 }
 
-/// An incident set up at its reference time, ready to be carried forward: the inputs in the
-/// frame, the drift simulated once, the grid, and the belief before any search. [`map`] and
-/// the review ([`crate::review`]) both start here; the review then visits many times in one
-/// pass over the same drift runs.
-pub(crate) struct Replay {
-    /// The inputs in the frame.
-    pub(crate) prepared: Prepared,
-    /// The grid.
-    pub(crate) grid: GridSpec,
-    /// Whether the grid extent was chosen automatically.
-    pub(crate) grid_auto: bool,
-    /// The last time the replay describes (the map time).
-    pub(crate) at: Time,
-    /// The stationary prior, when there is one.
-    pub(crate) prior: Option<prior::Prior>,
-    /// The belief at the reference time, before any search.
-    pub(crate) belief_before_searches: Belief,
-    /// See [`IncidentMap::declared_share_of_outside`].
-    pub(crate) declared_share_of_outside: f64,
-    /// Drift simulations, one per drift scenario.
-    pub(crate) drift_runs: Vec<(String, drift::DriftRun)>,
-    /// Indices into `prepared.searches` of the searches ended by `at`, in the order applied
-    /// (end time, then start, then id).
-    pub(crate) to_apply: Vec<usize>,
-    /// Ids of the searches ending after `at`.
-    pub(crate) searches_pending: Vec<String>,
+/// The stationary part of the belief on the grid, scaled to its pool mass.
+struct StationaryPart {
+    grid: GridSpec,
+    /// Cell masses, kept only where the object can be.
+    cells: Array2<f64>,
+    /// Mass the analysts declared as rest of world.
+    declared: f64,
+    /// Mass that fell outside the grid.
+    outside: f64,
 }
 
-/// One search applied by [`Replay::apply`].
-pub(crate) struct Applied {
-    /// Its report.
-    pub(crate) report: SearchReport,
-    /// Its POD on the cells.
-    pub(crate) layer: search::PodLayer,
-}
-
-impl Replay {
-    /// Prepares the incident, simulates the drift to `at` (default as [`MapOptions::at`])
-    /// with positions stored exactly at the times the map uses and at `extra_record_at`, chooses
-    /// the grid and builds the belief at the reference time.
-    pub(crate) fn start(
+impl StationaryPart {
+    /// The prior scaled to the stationary pool mass, its cells' mass kept where the object can
+    /// be (afloat or ashore) when the incident says which and has a coastline.
+    fn where_the_object_can_be(
+        prior: Option<&prior::Prior>,
         incident: &Incident,
-        at: Option<Time>,
-        extra_record_at: &[Time],
-        progress: Progress<'_>,
+        prepared: &Prepared,
+        grid: &GridSpec,
     ) -> Result<Self, MapError> {
-        let prepared = prepare(incident)?;
-        let frame = prepared.frame.clone();
-
-        let last_search_end = incident.searches.iter().map(|s| s.end).max();
-        let at = at.unwrap_or_else(|| {
-            last_search_end
-                .unwrap_or(incident.reference_time)
-                .max(incident.reference_time)
-        });
-        let mut to_apply: Vec<&PreparedSearch> = prepared
-            .searches
-            .iter()
-            .filter(|s| s.def.end <= at)
-            .collect();
-        to_apply.sort_by(|a, b| {
-            a.def
-                .end
-                .cmp(&b.def.end)
-                .then(a.def.start.cmp(&b.def.start))
-                .then(a.def.id.cmp(&b.def.id))
-        });
-        let searches_pending = prepared
-            .searches
-            .iter()
-            .filter(|s| s.def.end > at)
-            .map(|s| s.def.id.clone())
-            .collect();
-
-        // Drift first: its cloud is part of the grid extent.
-        let land = prepared.land.clone().map(drift::LandMask::new);
-        let mut drift_runs = Vec::new();
-        for d in &prepared.drift {
-            let end = at
-                .max(incident.reference_time)
-                .max(d.scenario.adrift_latest);
-            // Positions are stored exactly where they are used: the reference time, the map
-            // time, each search's mid-time and every whole hour (the drift layer's track), and
-            // the caller's extra times; a record every six hours beyond that keeps
-            // interpolated positions close for other readers. 16 bytes per particle per record.
-            let mut record_at: Vec<Time> = vec![incident.reference_time, at];
-            record_at.extend_from_slice(extra_record_at);
-            record_at.extend(to_apply.iter().map(|s| mid_time(s)));
-            for s in &to_apply {
-                record_at.extend(slices::slices(s).into_iter().flatten().map(|p| p.mid));
-            }
-            let hour = chrono::TimeDelta::hours(1);
-            if let Ok(first) =
-                chrono::DurationRound::duration_trunc(d.scenario.adrift_earliest, hour)
-            {
-                let mut t = first + hour;
-                while t < end {
-                    record_at.push(t);
-                    t += hour;
-                }
-            }
-            let options = drift::SimulationOptions {
-                end,
-                record_every_s: DRIFT_RECORD_EVERY_S,
-                step_s: None,
-                also_record_at: record_at,
-            };
-            let report = |done: u64, total: u64| progress(&d.id, done, total);
-            let run = drift::simulate(&d.scenario, &frame, land.as_ref(), &options, &report)
-                .map_err(|source| MapError::Drift {
-                    id: d.id.clone(),
-                    source: Box::new(source),
-                })?;
-            drift_runs.push((d.id.clone(), run));
-        }
-
-        let (grid_box, grid_auto) = match incident.grid.bounds {
-            Some(b) => (lon_lat_box(&frame, b)?, false),
-            None => {
-                let mut b = prior::auto_extent(&prepared.stationary);
-                let mut times: Vec<Time> = vec![incident.reference_time, at];
-                times.extend(to_apply.iter().map(|s| mid_time(s)));
-                for (_, run) in &drift_runs {
-                    for t in &times {
-                        if let Some(sb) = snapshot_box(&run.positions_at(*t)) {
-                            let sb = sb.expanded(incident.grid.cell_m);
-                            b = Some(b.map_or(sb, |x| x.union(&sb)));
-                        }
-                    }
-                }
-                for s in &to_apply {
-                    if let Some(sb) = s.extent() {
-                        b = Some(b.map_or(sb, |x| x.union(&sb)));
-                    }
-                }
-                (b.ok_or(MapError::NoExtent)?, true)
-            }
-        };
-        let grid = GridSpec::covering(&grid_box, incident.grid.cell_m, incident.grid.max_cells)
-            .map_err(MapError::Grid)?;
-
-        // The stationary part on the grid.
         let m = prepared.stationary_mass;
-        let (prior, mut cells, declared, outside) = if prepared.stationary.is_empty() {
-            (None, Array2::zeros((grid.rows(), grid.cols())), 0.0, 0.0)
-        } else {
-            let p = prior::combine(
-                &prepared.stationary_analysts,
-                &prepared.stationary,
-                &grid,
-                prepared.pool,
-            )
-            .map_err(|e| MapError::Prior(Box::new(e)))?;
-            let cells = &p.cells * m;
-            let (declared, outside) = (p.rest_of_world * m, p.outside_grid * m);
-            (Some(p), cells, declared, outside)
+        let mut part = match prior {
+            None => Self {
+                grid: *grid,
+                cells: Array2::zeros((grid.rows(), grid.cols())),
+                declared: 0.0,
+                outside: 0.0,
+            },
+            Some(p) => Self {
+                grid: *grid,
+                cells: &p.cells * m,
+                declared: p.rest_of_world * m,
+                outside: p.outside_grid * m,
+            },
         };
         if let (Some(afloat), Some(land)) = (incident.object_afloat, &prepared.land) {
-            keep_where_the_object_can_be(&mut cells, &grid, land, afloat)?;
+            keep_where_the_object_can_be(&mut part.cells, grid, land, afloat)?;
         }
+        Ok(part)
+    }
 
-        // The drifting part: equal weights within each scenario, summing to its pool mass.
+    /// Of the rest of world, the share the analysts declared (1 when there is none).
+    fn declared_share_of_outside(&self) -> f64 {
+        let outside_total = self.declared + self.outside;
+        if outside_total > 0.0 {
+            self.declared / outside_total
+        } else {
+            1.0
+        }
+    }
+
+    /// The belief at the reference time: these cells, the drifting particles where they are
+    /// then (equal weights within each scenario, summing to its pool mass), and the rest of
+    /// world.
+    fn into_belief(
+        self,
+        prepared: &Prepared,
+        drifting: &Drifting<'_>,
+        reference_time: Time,
+    ) -> Result<Belief, MapError> {
         let mut weights = Vec::new();
-        for (d, (_, run)) in prepared.drift.iter().zip(&drift_runs) {
+        for (d, (_, run)) in prepared.drift.iter().zip(drifting.runs) {
             let n = run.len() as f64;
             weights.extend(std::iter::repeat_n(d.mass / n, run.len()));
         }
-        let (x, y, s) = place(&drift_runs, incident.reference_time);
-        let particles = Particles::new(x, y, weights, s).map_err(MapError::Belief)?;
-        let outside_total = declared + outside;
-        let declared_share_of_outside = if outside_total > 0.0 {
-            declared / outside_total
-        } else {
-            1.0
+        let start = drifting.placement(reference_time);
+        let particles = Particles::new(start.x_m, start.y_m, weights, start.stranded)
+            .map_err(MapError::Belief)?;
+        let rest_of_world = self.declared + self.outside;
+        Belief::new(self.grid, self.cells, particles, rest_of_world).map_err(MapError::Belief)
+    }
+}
+
+/// The drift runs in the order of the belief's particles.
+pub(crate) struct Drifting<'a> {
+    runs: &'a [(String, drift::DriftRun)],
+}
+
+/// Where every drifting particle is at one time, in the order of the belief's particles.
+pub(crate) struct Placement {
+    pub(crate) x_m: Vec<f64>,
+    pub(crate) y_m: Vec<f64>,
+    pub(crate) stranded: Vec<bool>,
+}
+
+impl Drifting<'_> {
+    /// Every run's particles at `t`.
+    pub(crate) fn placement(&self, t: Time) -> Placement {
+        let mut p = Placement {
+            x_m: Vec::new(),
+            y_m: Vec::new(),
+            stranded: Vec::new(),
         };
-        let belief_before_searches =
-            Belief::new(grid, cells, particles, outside_total).map_err(MapError::Belief)?;
-        let to_apply = to_apply.iter().map(|s| s.index).collect();
-        Ok(Self {
-            prepared,
-            grid,
-            grid_auto,
-            at,
-            prior,
-            belief_before_searches,
-            declared_share_of_outside,
-            drift_runs,
-            to_apply,
-            searches_pending,
-        })
+        for (_, run) in self.runs {
+            let snap = run.positions_at(t);
+            p.x_m.extend(snap.x_m);
+            p.y_m.extend(snap.y_m);
+            p.stranded.extend(snap.stranded);
+        }
+        p
     }
 
-    /// Every particle's position at `t` (all drift runs, in run order).
-    pub(crate) fn place(&self, t: Time) -> (Vec<f64>, Vec<f64>, Vec<bool>) {
-        place(&self.drift_runs, t)
+    /// Moves the belief's particles to where they are at `t`.
+    pub(crate) fn move_particles(&self, belief: &mut Belief, t: Time) -> Result<(), MapError> {
+        let p = self.placement(t);
+        belief
+            .move_particles(p.x_m, p.y_m, p.stranded)
+            .map_err(MapError::Belief)
+    }
+}
+
+/// The belief carried through the applied searches, with what each one did.
+pub(crate) struct SearchLog {
+    pub(crate) belief: Belief,
+    /// `1 - Π(1 - d_k)` per cell over the searches applied so far.
+    pub(crate) pod_cumulative: Option<Array2<f64>>,
+    pub(crate) reports: Vec<SearchReport>,
+    /// `Π(1 - POS_k)` over the searches applied so far.
+    pub(crate) miss_all: f64,
+}
+
+impl SearchLog {
+    pub(crate) fn new(belief: Belief) -> Self {
+        Self {
+            belief,
+            pod_cumulative: None,
+            reports: Vec::new(),
+            miss_all: 1.0,
+        }
     }
 
-    /// Applies one completed search to `belief` as a Bayesian update: the particles are placed
-    /// at the search's middle (or met part by part, see [`crate::slices`]) and left there.
+    /// Applies one completed search as a miss: the particles moved to its middle, its POD on
+    /// the cells and at the particles, the Bayesian update, and its report.
     pub(crate) fn apply(
-        &self,
-        belief: &mut Belief,
+        &mut self,
         s: &PreparedSearch,
-    ) -> Result<Applied, MapError> {
-        let grid = &self.grid;
-        let t = mid_time(s);
-        let (x, y, st) = self.place(t);
-        belief.move_particles(x, y, st).map_err(MapError::Belief)?;
-        let points: Vec<Coord<f64>> = (0..belief.particles().len())
-            .map(|i| belief.particles().position(i))
-            .collect();
-        let sw = &s.sweep_width;
-        let err = |source| MapError::Search {
+        drifting: &Drifting<'_>,
+    ) -> Result<(), MapError> {
+        let evaluated_at = mid_time(s);
+        drifting.move_particles(&mut self.belief, evaluated_at)?;
+        let failed = |source| MapError::Search {
             id: s.def.id.clone(),
             source: Box::new(source),
         };
-        // Drifting particles meet a long search part by part (see `slices`); otherwise they
-        // are scored where they are at its middle.
-        let parts = slices::slices(s);
-        let sliced = match &parts {
-            Some(parts) => {
-                Some(sliced_particle_pod(parts, &|t| self.place(t), s.law, sw).map_err(err)?)
-            }
+        let pod = SearchPod::of(s, &self.belief, drifting).map_err(failed)?;
+        let outcome = self.update(&pod).map_err(failed)?;
+        self.reports
+            .push(SearchReport::new(s, evaluated_at, outcome, pod));
+        Ok(())
+    }
+
+    /// The Bayesian update after a miss, its searched-area figures, and the cumulative POD and
+    /// POS carried on.
+    fn update(&mut self, pod: &SearchPod) -> Result<search::UpdateOutcome, search::SearchError> {
+        let grid = *self.belief.grid();
+        let before_cells = self.belief.cells().clone();
+        let before_weights = self.belief.particles().weights().to_vec();
+        let mut outcome =
+            search::update_after_miss(&mut self.belief, &pod.layer, &pod.particle_pod)?;
+        let searched = Searched {
+            cell_pod: &pod.layer.to_dense(&grid)?,
+            particle_pod: &pod.particle_pod,
+        };
+        searched.set_area_figures(
+            &mut outcome,
+            &Masses {
+                cells: &before_cells,
+                weights: &before_weights,
+            },
+            &Masses {
+                cells: self.belief.cells(),
+                weights: self.belief.particles().weights(),
+            },
+        );
+        let cumulative = self
+            .pod_cumulative
+            .get_or_insert_with(|| Array2::zeros((grid.rows(), grid.cols())));
+        pod.layer.combine_into(cumulative)?;
+        self.miss_all *= 1.0 - outcome.pos;
+        Ok(outcome)
+    }
+}
+
+/// One search's POD on the grid and at the particles, with the geometry it was scored on.
+struct SearchPod {
+    layer: search::PodLayer,
+    particle_pod: Vec<f64>,
+    /// The pattern's legs or the followed track.
+    track: geo::LineString<f64>,
+    /// The pattern's area; `None` for a followed track.
+    area: Option<geo::Polygon<f64>>,
+}
+
+impl SearchPod {
+    /// Scores the search's pattern or track on the belief's grid and at its particles.
+    /// Drifting particles meet a long search part by part (see [`slices`]); otherwise they are
+    /// scored where they are at its middle.
+    fn of(
+        s: &PreparedSearch,
+        belief: &Belief,
+        drifting: &Drifting<'_>,
+    ) -> Result<Self, search::SearchError> {
+        let (grid, sw) = (belief.grid(), &s.sweep_width);
+        let sliced = match slices::slices(s) {
+            Some(parts) => Some(sliced_particle_pod(&parts, drifting, s.law, sw)?),
             None => None,
         };
-        let (layer, particle_pod, track_line, area) = match (&s.pattern, &s.track) {
-            (Some(p), _) => (
-                search::pattern_pod(grid, p, s.law, sw).map_err(err)?,
-                match sliced {
-                    Some(pod) => pod,
-                    None => search::pattern_pod_at(&points, p, s.law, sw).map_err(err)?,
-                },
-                p.tracks(),
-                Some(p.area_polygon()),
-            ),
-            (None, Some(tr)) => (
-                search::track_pod(grid, tr, s.law, sw).map_err(err)?,
-                match sliced {
-                    Some(pod) => pod,
-                    None => search::track_pod_at(&points, tr, s.law, sw).map_err(err)?,
-                },
-                geo::LineString(tr.clone()),
-                None,
-            ),
-            (None, None) => unreachable!("a prepared search has a pattern or a track"),
+        let points = || -> Vec<Coord<f64>> {
+            let p = belief.particles();
+            (0..p.len()).map(|i| p.position(i)).collect()
         };
-        let before_cells = belief.cells().clone();
-        let before_weights = belief.particles().weights().to_vec();
-        let mut outcome = search::update_after_miss(belief, &layer, &particle_pod).map_err(err)?;
-        let searched = Searched {
-            cell_pod: &layer.to_dense(grid).map_err(err)?,
-            particle_pod: &particle_pod,
-        };
-        searched.report(
-            &mut outcome,
-            (&before_cells, &before_weights),
-            (belief.cells(), belief.particles().weights()),
-        );
-        let track_length_m = euclid_length(&track_line);
-        let (coverage, pod_pattern, track_spacing_m) = match &s.pattern {
+        match &s.geometry {
+            PreparedGeometry::Pattern(p) => Ok(Self {
+                layer: search::pattern_pod(grid, p, s.law, sw)?,
+                particle_pod: match sliced {
+                    Some(pod) => pod,
+                    None => search::pattern_pod_at(&points(), p, s.law, sw)?,
+                },
+                track: p.tracks(),
+                area: Some(p.area_polygon()),
+            }),
+            PreparedGeometry::Track { points: tr, .. } => Ok(Self {
+                layer: search::track_pod(grid, tr, s.law, sw)?,
+                particle_pod: match sliced {
+                    Some(pod) => pod,
+                    None => search::track_pod_at(&points(), tr, s.law, sw)?,
+                },
+                track: geo::LineString(tr.clone()),
+                area: None,
+            }),
+        }
+    }
+}
+
+impl SearchReport {
+    /// The report of a search applied at `evaluated_at` with this outcome and POD.
+    fn new(
+        s: &PreparedSearch,
+        evaluated_at: Time,
+        outcome: search::UpdateOutcome,
+        pod: SearchPod,
+    ) -> Self {
+        let sw = &s.sweep_width;
+        let (coverage, pod_pattern, track_spacing_m) = match s.pattern() {
             Some(p) => {
                 let c = p.coverage(sw);
                 (
                     Some(c),
                     Some(s.law.pod_from_coverage(c)),
-                    pattern_spacing(p),
+                    p.track_spacing_m(),
                 )
             }
             None => (None, None, None),
         };
-        Ok(Applied {
-            report: SearchReport {
-                id: s.def.id.clone(),
-                unit: s.def.unit.clone(),
-                start: s.def.start,
-                end: s.def.end,
-                evaluated_at: t,
-                sweep_width_m: sw.metres(),
-                detection: law_name(s.law),
-                track_spacing_m,
-                track_length_m,
-                coverage,
-                pod_pattern,
-                pos: outcome.pos,
-                outcome,
-                area_polygon: area,
-                track: track_line,
-            },
-            layer,
-        })
+        Self {
+            id: s.def.id.clone(),
+            unit: s.def.unit.clone(),
+            start: s.def.start,
+            end: s.def.end,
+            evaluated_at,
+            sweep_width_m: sw.metres(),
+            detection: s.law.name(),
+            track_spacing_m,
+            track_length_m: euclid_length(&pod.track),
+            coverage,
+            pod_pattern,
+            pos: outcome.pos,
+            outcome,
+            area_polygon: pod.area,
+            track: pod.track,
+        }
     }
-}
-
-/// Every particle's position at `t`, all drift runs in run order.
-fn place(drift_runs: &[(String, drift::DriftRun)], t: Time) -> (Vec<f64>, Vec<f64>, Vec<bool>) {
-    let (mut x, mut y, mut s) = (Vec::new(), Vec::new(), Vec::new());
-    for (_, run) in drift_runs {
-        let snap = run.positions_at(t);
-        x.extend(snap.x_m);
-        y.extend(snap.y_m);
-        s.extend(snap.stranded);
-    }
-    (x, y, s)
 }
 
 /// Conditions the stationary cell masses on where the object can be: afloat, each cell keeps
@@ -557,7 +782,7 @@ fn keep_where_the_object_can_be(
     }
     // The prior crate's exact polygon-cell overlap: a uniform Area scenario over the land puts
     // overlap_area / land_area into each cell.
-    let shape = prior::Shape::Area {
+    let shape = prior::ScenarioShape::Area {
         polygons: land.clone(),
     };
     let on_land = prior::scenario_mass(&shape, grid).map_err(|e| MapError::Prior(Box::new(e)))?;
@@ -587,15 +812,21 @@ struct Searched<'a> {
     particle_pod: &'a [f64],
 }
 
+/// The masses of a belief: its cells and its particles' weights.
+struct Masses<'a> {
+    cells: &'a Array2<f64>,
+    weights: &'a [f64],
+}
+
 impl Searched<'_> {
     /// Replaces the outcome's area figures by those over the places searched with a POD of at
     /// least [`SEARCHED_POD_THRESHOLD`]: POC there before and after, and the mass-weighted
     /// mean POD there.
-    fn report(
+    fn set_area_figures(
         &self,
         outcome: &mut search::UpdateOutcome,
-        before: (&Array2<f64>, &[f64]),
-        after: (&Array2<f64>, &[f64]),
+        before: &Masses<'_>,
+        after: &Masses<'_>,
     ) {
         let (mut b, mut a, mut found) = (Vec::new(), Vec::new(), Vec::new());
         let mut take = |d: f64, p0: f64, p1: f64| {
@@ -606,11 +837,11 @@ impl Searched<'_> {
             }
         };
         ndarray::Zip::from(self.cell_pod)
-            .and(before.0)
-            .and(after.0)
+            .and(before.cells)
+            .and(after.cells)
             .for_each(|d, p0, p1| take(*d, *p0, *p1));
         for (i, d) in self.particle_pod.iter().enumerate() {
-            take(*d, before.1[i], after.1[i]);
+            take(*d, before.weights[i], after.weights[i]);
         }
         let poc_before = seekgrid_core::neumaier_sum(b);
         outcome.poc_in_area_before = poc_before;
@@ -620,21 +851,6 @@ impl Searched<'_> {
         } else {
             0.0
         };
-    }
-}
-
-fn pattern_spacing(p: &search::Pattern) -> Option<f64> {
-    match p {
-        search::Pattern::ParallelSweep {
-            track_spacing_m, ..
-        }
-        | search::Pattern::CreepingLine {
-            track_spacing_m, ..
-        }
-        | search::Pattern::ExpandingSquare {
-            track_spacing_m, ..
-        } => Some(*track_spacing_m),
-        search::Pattern::SectorSearch { .. } => None,
     }
 }
 
@@ -650,18 +866,23 @@ fn euclid_length(l: &geo::LineString<f64>) -> f64 {
 /// detects nothing.
 fn sliced_particle_pod(
     parts: &[slices::Slice],
-    place: &impl Fn(Time) -> (Vec<f64>, Vec<f64>, Vec<bool>),
+    drifting: &Drifting<'_>,
     law: search::DetectionLaw,
     sw: &search::SweepWidth,
 ) -> Result<Vec<f64>, search::SearchError> {
     let mut miss: Option<Vec<f64>> = None;
     for part in parts {
-        let (x, y, _) = place(part.mid);
-        let miss = miss.get_or_insert_with(|| vec![1.0; x.len()]);
+        let at = drifting.placement(part.mid);
+        let miss = miss.get_or_insert_with(|| vec![1.0; at.x_m.len()]);
         if part.track.len() < 2 {
             continue;
         }
-        let points: Vec<Coord<f64>> = x.iter().zip(&y).map(|(&x, &y)| Coord { x, y }).collect();
+        let points: Vec<Coord<f64>> = at
+            .x_m
+            .iter()
+            .zip(&at.y_m)
+            .map(|(&x, &y)| Coord { x, y })
+            .collect();
         match search::track_pod_at(&points, &part.track, law, sw) {
             Ok(pod) => {
                 for (m, d) in miss.iter_mut().zip(pod) {
@@ -686,11 +907,7 @@ pub(crate) fn mid_time(s: &PreparedSearch) -> Time {
 }
 
 /// The grid part plus the particles spread by the kernel of [`seekgrid_core::particle_density`].
-pub(crate) fn poc_cells(
-    belief: &Belief,
-    grid: &GridSpec,
-    clouds: &[std::ops::Range<usize>],
-) -> Array2<f64> {
+fn poc_cells(belief: &Belief, grid: &GridSpec, clouds: &[std::ops::Range<usize>]) -> Array2<f64> {
     let mut cells = belief.cells().clone();
     seekgrid_core::particle_density::add_particles(&mut cells, grid, belief.particles(), clouds);
     cells
@@ -709,16 +926,6 @@ pub(crate) fn particle_clouds(
             r
         })
         .collect()
-}
-
-/// The name of a detection law as written in the incident file.
-#[must_use]
-pub fn law_name(law: search::DetectionLaw) -> &'static str {
-    match law {
-        search::DetectionLaw::InverseCube => "inverse-cube",
-        search::DetectionLaw::Exponential => "exponential",
-        search::DetectionLaw::DefiniteRange => "definite-range",
-    }
 }
 
 impl IncidentMap {

@@ -308,7 +308,7 @@ fn the_rank_of_the_truth_matches_a_plain_sort_of_the_map_at_the_end() {
     )
     .unwrap();
     let cell = r.truth.as_ref().unwrap().cell.unwrap();
-    let area_km2 = m.grid.cell_area_m2() / 1e6;
+    let area_km2 = m.grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
     let truth_density = m.poc[cell] / area_km2;
     let mut d: Vec<f64> = m.poc.iter().copied().collect();
     d.sort_by(|a, b| b.total_cmp(a));
@@ -677,7 +677,7 @@ fn a_drift_scenario_is_scored_with_the_maps_kernel_at_the_found_time() {
     )
     .unwrap();
     let cell = r.truth.as_ref().unwrap().cell.unwrap();
-    let area_km2 = m.grid.cell_area_m2() / 1e6;
+    let area_km2 = m.grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
     let pool = r.pool.unwrap().density_per_km2;
     assert!(
         (pool - m.poc[cell] / area_km2).abs() < 1e-9 * pool,
@@ -708,4 +708,58 @@ fn a_drift_scenario_is_scored_with_the_maps_kernel_at_the_found_time() {
     // about 10.2 km east of the last known position, where the object was found.
     let b = r.analysts[0].bias.unwrap();
     assert!(b.distance_m < 1_000.0, "{}", b.distance_m);
+}
+
+#[test]
+fn searches_tasked_in_one_plan_form_one_period_and_the_files_outcome_is_read() {
+    // Two searches with different windows but the same `tasked_in` (a plan's run id) are one
+    // period running from the earlier start to the later end; a third, untasked, is its own.
+    let (x0, y0) = origin();
+    let mut text = header(
+        "Tasked",
+        100.0,
+        &bounds(x0 - 10_000.0, y0 - 10_000.0, x0 + 10_000.0, y0 + 10_000.0),
+    );
+    text.push_str("[[analyst]]\nid = \"a\"\n");
+    text.push_str(&point("datum", "a", x0, y0, 1_500.0));
+    for (id, start, end, tasked) in [
+        ("s1", "11:00", "13:00", Some("20260614T103000Z-77")),
+        ("s2", "11:30", "14:00", Some("20260614T103000Z-77")),
+        ("s3", "15:00", "16:00", None),
+    ] {
+        text.push_str(&sweep(
+            id,
+            "boat",
+            &format!("2026-06-14T{start}:00Z"),
+            &format!("2026-06-14T{end}:00Z"),
+            x0,
+            y0,
+            2_000.0,
+            300.0,
+            500.0,
+            "exponential",
+        ));
+        if let Some(run) = tasked {
+            text.push_str(&format!("tasked_in = \"{run}\"\n"));
+        }
+    }
+    text.push_str(&format!(
+        "[outcome]\nstatus = \"found\"\ntime = \"2026-06-14T17:00:00Z\"\nposition = {}\n",
+        ll(x0 + 100.0, y0)
+    ));
+    let (_dir, inc) = load(&text);
+    let r = run(&inc, inc.outcome.as_ref());
+    assert_eq!(r.end_reason, ReviewEnd::Found);
+    assert_eq!(r.periods.len(), 2);
+    let p = &r.periods[0];
+    assert!(p.tasked);
+    assert_eq!(p.id, "20260614T103000Z-77");
+    assert_eq!(p.searches, vec!["s1".to_owned(), "s2".to_owned()]);
+    assert_eq!(p.start.format("%H:%M").to_string(), "11:00");
+    assert_eq!(p.end.format("%H:%M").to_string(), "14:00");
+    assert!(!r.periods[1].tasked);
+    assert!(!p.overlaps_other_period);
+    // s1 and s2 overlap in time but are one period; the effort adds up.
+    let e: f64 = r.searches[..2].iter().map(|s| s.effort.area_swept_m2).sum();
+    assert!((p.effort.area_swept_m2 - e).abs() < 1e-6 * e);
 }

@@ -1,5 +1,6 @@
 //! The timeline against computations done by hand: a drifting target searched twice.
 
+use seekgrid_core::units::nm_to_m;
 use seekgrid_engine::timeline::{MapOptions, map};
 use seekgrid_incident::parse;
 
@@ -39,7 +40,7 @@ fn incident_text(second_search_east_m: f64) -> String {
             y: lkp.y,
         })
     };
-    let (lon1, lat1) = scale(2.0 * 1852.0); // 2 h after going adrift at 1 kn
+    let (lon1, lat1) = scale(nm_to_m(2.0)); // 2 h after going adrift at 1 kn
     let (lon2, lat2) = scale(second_search_east_m);
     format!(
         r#"{DRIFTING_TARGET}
@@ -73,7 +74,7 @@ pattern = {{ kind = "parallel-sweep", center = [{lon2}, {lat2}], length_m = 3000
 fn a_drifting_target_searched_twice_updates_as_computed_by_hand() {
     let dir = tempfile::tempdir().unwrap();
     // Second search where the target is 4 h after going adrift: 4 NM east.
-    let inc = parse(&dir.path().join("i.toml"), incident_text(4.0 * 1852.0)).unwrap();
+    let inc = parse(&dir.path().join("i.toml"), incident_text(nm_to_m(4.0))).unwrap();
     let m = map(&inc, &MapOptions { at: None }, &|_, _, _| {}).unwrap();
     // By hand: the drifting half of the pool sits inside both rectangles at the searches'
     // middle times. POD of parallel sweeps, inverse cube: erf(sqrt(pi)/2 C) with C = W/S,
@@ -109,7 +110,7 @@ fn a_drifting_target_searched_twice_updates_as_computed_by_hand() {
 fn a_search_where_the_target_is_not_yet_leaves_the_drift_untouched() {
     let dir = tempfile::tempdir().unwrap();
     // Second search 20 NM east, far from where the target is at its time.
-    let inc = parse(&dir.path().join("i.toml"), incident_text(20.0 * 1852.0)).unwrap();
+    let inc = parse(&dir.path().join("i.toml"), incident_text(nm_to_m(20.0))).unwrap();
     let m = map(&inc, &MapOptions { at: None }, &|_, _, _| {}).unwrap();
     assert!(m.searches[1].pos < 1e-9, "{}", m.searches[1].pos);
     let d1 = 0.789909;
@@ -129,7 +130,7 @@ fn a_long_search_meets_drifting_particles_part_by_part() {
     let dir = tempfile::tempdir().unwrap();
     let frame = seekgrid_core::Frame::for_position(-30.0, 30.0).unwrap();
     let lkp = frame.to_xy(-30.0, 30.0);
-    let x_line = lkp.x + 1.25 * 1852.0 + 300.0;
+    let x_line = lkp.x + nm_to_m(1.25) + 300.0;
     let ends =
         [lkp.y + 20_000.0, lkp.y - 20_000.0].map(|y| frame.to_lon_lat(geo::Coord { x: x_line, y }));
     let gpx = format!(
@@ -170,6 +171,6 @@ track = "line.gpx"
     let pod = -(-exposure(lateral)).exp_m1();
     let removed = m.searches[0].outcome.particle_mass_removed;
     assert!((removed - pod).abs() < 1e-6, "{removed} vs {pod}");
-    let once = -(-exposure(0.75 * 1852.0 - 300.0)).exp_m1();
+    let once = -(-exposure(nm_to_m(0.75) - 300.0)).exp_m1();
     assert!(removed > 3.0 * once, "{removed} vs {once}");
 }

@@ -1,32 +1,26 @@
 //! Reading the files an incident refers to: GeoJSON polygons and segments, GPX or GeoJSON
 //! tracks, and CSV series of current and wind. Each error names the file and, where the
-//! format allows, the line and column.
+//! format allows, the line and column. Every file is read through [`crate::input`] (regular
+//! files only, at most 256 MiB, UTF-8 with an optional byte-order mark).
 
 use crate::error::{ErrorKind, IncidentError};
+use crate::input::{InputKind, check_utf8, read_bytes, read_text};
 use crate::model::{FieldSample, Time, VectorSample};
 use chrono::{DateTime, Utc};
 use geo::{Coord, LineString, MultiPolygon, Polygon};
 use std::path::Path;
 
-fn read_text(file: &Path, what: &str) -> Result<String, IncidentError> {
-    std::fs::read_to_string(file).map_err(|e| {
-        IncidentError::whole_file(
-            ErrorKind::Unreadable,
-            file,
-            format!("cannot read the {what}: {e}; paths are relative to the incident file"),
-        )
-    })
-}
-
 fn parse_geojson(file: &Path, text: &str) -> Result<geojson::GeoJson, IncidentError> {
-    serde_json::from_str::<serde_json::Value>(text).map_err(|e| IncidentError {
+    // Parsed once into JSON values for the line and column of a syntax error, then converted
+    // from those values (not from the text a second time).
+    let value = serde_json::from_str::<serde_json::Value>(text).map_err(|e| IncidentError {
         kind: ErrorKind::Syntax,
         file: file.to_owned(),
         line: Some(e.line()),
         col: Some(e.column()),
         message: format!("not valid JSON: {e}"),
     })?;
-    text.parse::<geojson::GeoJson>().map_err(|e| {
+    serde_json::from_value::<geojson::GeoJson>(value).map_err(|e| {
         IncidentError::whole_file(ErrorKind::Syntax, file, format!("not valid GeoJSON: {e}"))
     })
 }
@@ -50,18 +44,58 @@ fn check_lon_lat(file: &Path, what: &str, c: Coord<f64>) -> Result<(), IncidentE
     }
 }
 
-fn geometry_polygons(
+/// Every position of a geometry, nested collections included.
+fn positions(g: &geojson::GeometryValue) -> Box<dyn Iterator<Item = &geojson::Position> + '_> {
+    use geojson::GeometryValue as V;
+    match g {
+        V::Point { coordinates } => Box::new(std::iter::once(coordinates)),
+        V::MultiPoint { coordinates } | V::LineString { coordinates } => {
+            Box::new(coordinates.iter())
+        }
+        V::MultiLineString { coordinates } | V::Polygon { coordinates } => {
+            Box::new(coordinates.iter().flatten())
+        }
+        V::MultiPolygon { coordinates } => Box::new(coordinates.iter().flatten().flatten()),
+        V::GeometryCollection { geometries } => {
+            Box::new(geometries.iter().flat_map(|g| positions(&g.value)))
+        }
+    }
+}
+
+/// Converts a GeoJSON geometry to a `geo` geometry. Positions with fewer than two numbers
+/// are refused first: the conversion of the geojson crate indexes `[0]` and `[1]` without a
+/// check and would panic (its issue 224).
+fn to_geo(
     file: &Path,
     what: &str,
-    g: &geojson::Geometry,
-) -> Result<MultiPolygon<f64>, IncidentError> {
-    let geom: geo::Geometry<f64> = g.clone().try_into().map_err(|e| {
+    g: geojson::Geometry,
+) -> Result<geo::Geometry<f64>, IncidentError> {
+    if let Some(p) = positions(&g.value).find(|p| p.len() < 2) {
+        return Err(IncidentError::whole_file(
+            ErrorKind::Invalid,
+            file,
+            format!(
+                "{what} has a position of {} number(s), {:?}; a GeoJSON position is [lon, lat] (RFC 7946 section 3.1.1)",
+                p.len(),
+                p.as_slice()
+            ),
+        ));
+    }
+    g.try_into().map_err(|e| {
         IncidentError::whole_file(
             ErrorKind::Syntax,
             file,
             format!("{what}: unreadable geometry: {e}"),
         )
-    })?;
+    })
+}
+
+fn geometry_polygons(
+    file: &Path,
+    what: &str,
+    g: &geojson::Geometry,
+) -> Result<MultiPolygon<f64>, IncidentError> {
+    let geom = to_geo(file, what, g.clone())?;
     let mp = match geom {
         geo::Geometry::Polygon(p) => MultiPolygon(vec![p]),
         geo::Geometry::MultiPolygon(mp) => mp,
@@ -133,7 +167,18 @@ fn features(file: &Path, gj: geojson::GeoJson) -> Result<Vec<geojson::Feature>, 
 /// # Errors
 /// Unreadable file, invalid GeoJSON, a geometry that is not a polygon, positions out of range.
 pub fn read_polygons(file: &Path) -> Result<MultiPolygon<f64>, IncidentError> {
-    let text = read_text(file, "polygon file")?;
+    Ok(MultiPolygon(
+        read_polygon_features(file)?.into_iter().flatten().collect(),
+    ))
+}
+
+/// Reads the polygons of each feature of a GeoJSON file (lon/lat), in file order, so that a
+/// later problem can name its feature.
+///
+/// # Errors
+/// As [`read_polygons`].
+pub fn read_polygon_features(file: &Path) -> Result<Vec<MultiPolygon<f64>>, IncidentError> {
+    let text = read_text(file, InputKind::Polygons)?;
     let mut out = Vec::new();
     for (i, f) in features(file, parse_geojson(file, &text)?)?
         .iter()
@@ -143,9 +188,9 @@ pub fn read_polygons(file: &Path) -> Result<MultiPolygon<f64>, IncidentError> {
         let g = f.geometry.as_ref().ok_or_else(|| {
             IncidentError::whole_file(ErrorKind::Invalid, file, format!("{what} has no geometry"))
         })?;
-        out.extend(geometry_polygons(file, &what, g)?);
+        out.push(geometry_polygons(file, &what, g)?);
     }
-    Ok(MultiPolygon(out))
+    Ok(out)
 }
 
 /// Reads map segments: polygon features each with an `id` property (text or number).
@@ -153,7 +198,7 @@ pub fn read_polygons(file: &Path) -> Result<MultiPolygon<f64>, IncidentError> {
 /// # Errors
 /// As [`read_polygons`], and a missing or repeated `id`.
 pub fn read_segments(file: &Path) -> Result<Vec<(String, MultiPolygon<f64>)>, IncidentError> {
-    let text = read_text(file, "segments file")?;
+    let text = read_text(file, InputKind::Segments)?;
     let mut out: Vec<(String, MultiPolygon<f64>)> = Vec::new();
     for (i, f) in features(file, parse_geojson(file, &text)?)?
         .iter()
@@ -188,6 +233,26 @@ pub fn read_segments(file: &Path) -> Result<Vec<(String, MultiPolygon<f64>)>, In
     Ok(out)
 }
 
+/// Reads and parses a GPX file. UTF-8 (after the guards of [`read_bytes`]) is what the
+/// format's files nearly always are; bytes that are not UTF-8 are still handed to the XML
+/// reader, which decodes the encodings an XML declaration may name (UTF-16, ISO-8859-1), and
+/// only when that fails too is the file called not UTF-8.
+fn read_gpx(file: &Path) -> Result<gpx::Gpx, IncidentError> {
+    let bytes = read_bytes(file, InputKind::Track)?;
+    let syntax = |e: gpx::errors::GpxError| {
+        IncidentError::whole_file(
+            ErrorKind::Syntax,
+            file,
+            format!("not a readable GPX file: {e}"),
+        )
+    };
+    gpx::read(bytes.as_slice()).map_err(|e| {
+        check_utf8(file, InputKind::Track, &bytes)
+            .err()
+            .unwrap_or_else(|| syntax(e))
+    })
+}
+
 /// Reads a track: GPX 1.1 (every `trk`/`trkseg` in order; `.gpx`) or a GeoJSON LineString or
 /// MultiLineString (other endings). Returns the points (lon/lat) and their times where known.
 ///
@@ -199,20 +264,7 @@ pub fn read_track(file: &Path) -> Result<(LineString<f64>, Vec<Option<Time>>), I
         .extension()
         .is_some_and(|e| e.eq_ignore_ascii_case("gpx"));
     let (points, times) = if is_gpx {
-        let f = std::fs::File::open(file).map_err(|e| {
-            IncidentError::whole_file(
-                ErrorKind::Unreadable,
-                file,
-                format!("cannot read the track: {e}; paths are relative to the incident file"),
-            )
-        })?;
-        let g = gpx::read(std::io::BufReader::new(f)).map_err(|e| {
-            IncidentError::whole_file(
-                ErrorKind::Syntax,
-                file,
-                format!("not a readable GPX file: {e}"),
-            )
-        })?;
+        let g = read_gpx(file)?;
         let mut pts = Vec::new();
         let mut times = Vec::new();
         for trk in &g.tracks {
@@ -238,17 +290,14 @@ pub fn read_track(file: &Path) -> Result<(LineString<f64>, Vec<Option<Time>>), I
         }
         (pts, times)
     } else {
-        let text = read_text(file, "track")?;
+        let text = read_text(file, InputKind::Track)?;
         let mut pts = Vec::new();
-        for f in features(file, parse_geojson(file, &text)?)? {
-            let geom: Option<geo::Geometry<f64>> =
-                f.geometry.map(|g| g.try_into()).transpose().map_err(|e| {
-                    IncidentError::whole_file(
-                        ErrorKind::Syntax,
-                        file,
-                        format!("unreadable geometry: {e}"),
-                    )
-                })?;
+        for (i, f) in features(file, parse_geojson(file, &text)?)?
+            .into_iter()
+            .enumerate()
+        {
+            let what = format!("feature {i}");
+            let geom = f.geometry.map(|g| to_geo(file, &what, g)).transpose()?;
             match geom {
                 Some(geo::Geometry::LineString(ls)) => pts.extend(ls.0),
                 Some(geo::Geometry::MultiLineString(mls)) => {
@@ -299,30 +348,34 @@ pub fn read_track(file: &Path) -> Result<(LineString<f64>, Vec<Option<Time>>), I
     Ok((LineString(points), times))
 }
 
-fn csv_reader(file: &Path, what: &str) -> Result<csv::Reader<std::fs::File>, IncidentError> {
-    let f = std::fs::File::open(file).map_err(|e| {
-        IncidentError::whole_file(
-            ErrorKind::Unreadable,
-            file,
-            format!("cannot read the {what}: {e}; paths are relative to the incident file"),
-        )
-    })?;
+fn csv_reader(
+    file: &Path,
+    kind: InputKind,
+) -> Result<csv::Reader<std::io::Cursor<String>>, IncidentError> {
+    let text = read_text(file, kind)?;
     Ok(csv::ReaderBuilder::new()
         .comment(Some(b'#'))
         .trim(csv::Trim::All)
-        .from_reader(f))
+        .from_reader(std::io::Cursor::new(text)))
 }
 
 /// The header and every row of a CSV file, each read error reported with its line.
 fn csv_rows(
     file: &Path,
-    what: &str,
+    kind: InputKind,
 ) -> Result<(csv::StringRecord, Vec<csv::StringRecord>), IncidentError> {
-    let mut rdr = csv_reader(file, what)?;
-    let headers = rdr
+    let mut rdr = csv_reader(file, kind)?;
+    let mut headers = rdr
         .headers()
-        .map_err(|e| csv_error(file, 1, format!("unreadable header: {e}")))?
+        .map_err(|e| {
+            let line = e.position().map_or(1, csv::Position::line);
+            csv_error(file, line, format!("unreadable header: {e}"))
+        })?
         .clone();
+    // The reader stands at the line after the header (comment lines before it included).
+    let mut at = csv::Position::new();
+    at.set_line(rdr.position().line().saturating_sub(1).max(1));
+    headers.set_position(Some(at));
     let records = rdr
         .records()
         .map(|rec| {
@@ -358,7 +411,7 @@ fn field<'r>(
     let i = headers.iter().position(|h| h == name).ok_or_else(|| {
         csv_error(
             file,
-            1,
+            headers.position().map_or(1, csv::Position::line),
             format!(
                 "no column \"{name}\"; the header must name {}",
                 headers.iter().collect::<Vec<_>>().join(", ")
@@ -411,7 +464,7 @@ pub fn read_series(
     speed_sigma_kn: f64,
     direction_sigma_deg: f64,
 ) -> Result<Vec<(Time, VectorSample)>, IncidentError> {
-    let (headers, records) = csv_rows(file, "series")?;
+    let (headers, records) = csv_rows(file, InputKind::Series)?;
     let mut out: Vec<(Time, VectorSample)> = Vec::new();
     for rec in records {
         let line = rec.position().map_or(0, csv::Position::line);
@@ -470,17 +523,19 @@ pub fn read_series(
 /// # Errors
 /// Unreadable file, missing columns, bad numbers, positions out of range, no rows.
 pub fn read_field(file: &Path) -> Result<Vec<FieldSample>, IncidentError> {
-    let (headers, records) = csv_rows(file, "field")?;
+    let (headers, records) = csv_rows(file, InputKind::Field)?;
     let mut out = Vec::new();
     for rec in records {
         let line = rec.position().map_or(0, csv::Position::line);
         let lon = number(file, &rec, &headers, "lon")?;
         let lat = number(file, &rec, &headers, "lat")?;
-        if !(-180.0..=180.0).contains(&lon) || !(-90.0..=90.0).contains(&lat) {
+        if !(-180.0..=180.0).contains(&lon) || !(-80.0..=84.0).contains(&lat) {
             return Err(csv_error(
                 file,
                 line,
-                format!("[{lon}, {lat}] is not a lon, lat position"),
+                format!(
+                    "[{lon}, {lat}] is not a lon, lat position within the UTM range (latitude -80..84)"
+                ),
             ));
         }
         out.push(FieldSample {

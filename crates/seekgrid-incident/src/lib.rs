@@ -5,17 +5,23 @@
 //! * [`model`] is the validated incident, positions still in WGS84 lon/lat.
 //! * [`record`] is the track record CSV (analysts' scores across incidents): its one row
 //!   type and its reader.
+//! * [`edit`] appends a completed search to an incident file safely (comments kept, new text
+//!   validated, atomic replace with a backup, refused when the file changed meanwhile).
+//! * [`tasking`] is the tasking file a plan writes (`tasking.toml`) and `seekgrid log` reads.
 //!
-//! This crate reads input files (that is what it exists for); it knows nothing of search
+//! This crate reads input files and edits the incident file (that is what it exists for); it knows nothing of search
 //! theory, and computes nothing from the incident (that is `seekgrid-engine`).
 
+pub mod edit;
 pub mod error;
 pub mod file;
 pub mod geofiles;
+pub mod input;
 pub mod load;
 pub mod locate;
 pub mod model;
 pub mod record;
+pub mod tasking;
 
 pub use error::{ErrorKind, IncidentError};
 pub use load::{IncidentErrors, load, parse};

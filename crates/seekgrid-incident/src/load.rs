@@ -1,15 +1,40 @@
 //! Reading and validating an incident file and the files it refers to.
+//!
+//! Each rule is checked in one place. Where a library crate owns a value (a pattern, a sweep
+//! width, a scenario shape, a drift scenario), the loader builds the library's own value from
+//! the file (positions as lon/lat, bearings as written) and calls its `validate`, then reports
+//! the library's typed error at the file position of the field it names, in the file's words
+//! (`checks`). What only the file knows (a missing field, a position out of the WGS84 or UTM
+//! range, an unknown name, an id used twice, a file that cannot be read, a position that looks
+//! like [lat, lon]) is checked here.
+
+mod checks;
+mod swaps;
 
 use crate::error::{ErrorKind, IncidentError};
-use crate::file::{RawFile, RawPattern, RawScenario, RawSearch, RawVector, TimeText};
+use crate::file::{
+    self, Position, RawArea, RawDrift, RawError, RawFile, RawFound, RawHeader, RawOutcome,
+    RawPattern, RawPoint, RawRectangle, RawRings, RawRoute, RawScenario, RawSearch, RawSector,
+    RawSegments, RawShape, RawSquare, RawSuspended, RawUnit, RawVector, TimeText,
+};
 use crate::geofiles;
-use crate::locate::{FieldPath, span_of};
+use crate::locate::{FieldPath, path_at, span_of};
 use crate::model::*;
 use chrono::{DateTime, Utc};
 use seekgrid_core::{DEFAULT_MAX_CELLS, UtmZone};
+use seekgrid_prior as prior;
+use seekgrid_search as search;
 use std::collections::{BTreeMap, HashMap, HashSet};
 use std::fmt;
 use std::path::{Path, PathBuf};
+
+/// Smallest and largest cell side, metres: below a metre no position in the file is that
+/// precise; above 100 km a grid is no longer a search map.
+pub const CELL_M_RANGE: std::ops::RangeInclusive<f64> = 1.0..=100_000.0;
+
+/// Largest ratio of the largest to the smallest weight among analysts, or among one analyst's
+/// scenarios: beyond it the smaller ones vanish from the pool (their share is below 1e-6).
+pub const MAX_WEIGHT_RATIO: f64 = 1e6;
 
 /// Every problem found in one incident file, in file order.
 #[derive(Debug, Clone, PartialEq)]
@@ -35,18 +60,14 @@ impl From<IncidentError> for IncidentErrors {
     }
 }
 
-/// Reads and validates an incident file and every file it names.
+/// Reads and validates an incident file and every file it names. Every file is read through
+/// [`crate::input`]: regular files only, at most 16 MiB for the incident file and 256 MiB for
+/// each GeoJSON, GPX or CSV file, UTF-8 with an optional byte-order mark.
 ///
 /// # Errors
 /// Every problem found, each as `FILE:LINE:COL: what is wrong; how to fix it`.
 pub fn load(path: &Path) -> Result<Incident, IncidentErrors> {
-    let text = std::fs::read_to_string(path).map_err(|e| {
-        IncidentError::whole_file(
-            ErrorKind::Unreadable,
-            path,
-            format!("cannot read the incident file: {e}; check the path"),
-        )
-    })?;
+    let text = crate::input::read_text(path, crate::input::InputKind::Incident)?;
     parse(path, text)
 }
 
@@ -55,9 +76,13 @@ pub fn load(path: &Path) -> Result<Incident, IncidentErrors> {
 /// # Errors
 /// As [`load`].
 pub fn parse(path: &Path, text: String) -> Result<Incident, IncidentErrors> {
-    let raw: RawFile = toml::from_str(&text).map_err(|e| {
-        let offset = e.span().map_or(0, |s| s.start);
-        IncidentError::at_offset(ErrorKind::Syntax, path, &text, offset, toml_message(&e))
+    let raw = file::read(&text).map_err(|errors| {
+        IncidentErrors(
+            errors
+                .into_iter()
+                .map(|e| raw_error(path, &text, e))
+                .collect(),
+        )
     })?;
     let mut v = Validator {
         path: path.to_owned(),
@@ -72,15 +97,21 @@ pub fn parse(path: &Path, text: String) -> Result<Incident, IncidentErrors> {
     }
 }
 
-fn toml_message(e: &toml::de::Error) -> String {
-    let m = e.message().trim().trim_end_matches('.').replace('\n', " ");
-    if m.contains("unknown field") {
-        format!("{m}; check the spelling against docs/incident-format.md")
-    } else if m.contains("missing field") {
-        format!("{m}; add it (docs/incident-format.md lists every field)")
-    } else {
-        m
+/// A reading error at its place, its message led by the path of the key it concerns.
+fn raw_error(path: &Path, text: &str, e: RawError) -> IncidentError {
+    let offset = e.span.as_ref().map_or(0, |s| s.start);
+    let at = e.span.as_ref().and_then(|s| path_at(text, s.start));
+    let mut message = e.message;
+    if message.contains("unknown field") && !message.contains("docs/incident-format.md") {
+        message.push_str("; check the spelling against docs/incident-format.md");
+    } else if message.contains("missing field") && !message.contains(';') {
+        message.push_str("; add it (docs/incident-format.md lists every field)");
     }
+    let message = match at {
+        Some(p) if !p.0.is_empty() => format!("{p}: {message}"),
+        _ => message,
+    };
+    IncidentError::at_offset(e.kind, path, text, offset, message)
 }
 
 struct Validator<'a> {
@@ -91,6 +122,24 @@ struct Validator<'a> {
 
 fn p(s: &str) -> FieldPath {
     FieldPath::new(s)
+}
+
+/// A list of names as "a, b or c", each in quotes.
+fn choices(names: impl IntoIterator<Item = &'static str>) -> String {
+    let names: Vec<String> = names.into_iter().map(|n| format!("\"{n}\"")).collect();
+    match names.split_last() {
+        Some((last, rest)) if !rest.is_empty() => format!("{} or {last}", rest.join(", ")),
+        _ => names.concat(),
+    }
+}
+
+/// What the header gives.
+struct Header {
+    title: String,
+    reference_time: Option<Time>,
+    crs: Option<UtmZone>,
+    coastline: Option<geo::MultiPolygon<f64>>,
+    coastline_file: Option<PathBuf>,
 }
 
 impl Validator<'_> {
@@ -111,6 +160,11 @@ impl Validator<'_> {
 
     fn file_err(&mut self, e: IncidentError) {
         self.errors.push(e);
+    }
+
+    fn file_invalid(&mut self, file: &Path, message: impl Into<String>) {
+        self.errors
+            .push(IncidentError::whole_file(ErrorKind::Invalid, file, message));
     }
 
     fn dir(&self) -> PathBuf {
@@ -158,15 +212,6 @@ impl Validator<'_> {
         }
     }
 
-    fn finite(&mut self, at: &FieldPath, v: f64, what: &str) -> bool {
-        if v.is_finite() {
-            true
-        } else {
-            self.err(at, format!("{what} must be a finite number, got {v}"));
-            false
-        }
-    }
-
     fn position(&mut self, at: &FieldPath, pos: [f64; 2]) -> bool {
         let [lon, lat] = pos;
         if !(lon.is_finite()
@@ -187,27 +232,83 @@ impl Validator<'_> {
         true
     }
 
-    fn required<T: Clone>(&mut self, at: &FieldPath, v: &Option<T>, hint: &str) -> Option<T> {
+    /// A required position, checked.
+    fn required_position(
+        &mut self,
+        at: &FieldPath,
+        v: Option<Position>,
+        hint: &str,
+    ) -> Option<[f64; 2]> {
+        let Position(pos) = self.required(at, v, hint)?;
+        self.position(at, pos).then_some(pos)
+    }
+
+    fn required<T>(&mut self, at: &FieldPath, v: Option<T>, hint: &str) -> Option<T> {
         if v.is_none() {
             self.err(at, format!("missing; {hint}"));
         }
-        v.clone()
+        v
     }
 
-    fn detection(&mut self, at: &FieldPath, d: &Option<String>) -> DetectionName {
-        match d.as_deref() {
-            None | Some("inverse-cube") => DetectionName::InverseCube,
-            Some("exponential") => DetectionName::Exponential,
-            Some("definite-range") => DetectionName::DefiniteRange,
-            Some(other) => {
-                self.err(at, format!("unknown detection law \"{other}\"; use \"inverse-cube\", \"exponential\" or \"definite-range\""));
-                DetectionName::InverseCube
-            }
+    /// An id: not empty.
+    fn id(&mut self, at: &FieldPath, id: &str, what: &str) {
+        if id.trim().is_empty() {
+            self.err(at, format!("the {what} is empty; give it a name"));
+        }
+    }
+
+    fn detection(&mut self, at: &FieldPath, d: Option<&str>) -> search::DetectionLaw {
+        match d {
+            None => search::DetectionLaw::InverseCube,
+            Some(name) => search::DetectionLaw::parse(name).unwrap_or_else(|| {
+                let list = choices(search::DetectionLaw::ALL.map(search::DetectionLaw::name));
+                self.err(at, format!("unknown detection law \"{name}\"; use {list}"));
+                search::DetectionLaw::InverseCube
+            }),
         }
     }
 
     fn incident(&mut self, raw: &RawFile) -> Option<Incident> {
-        let h = &raw.incident;
+        let header = self.header(&raw.incident);
+        let grid = self.grid(&raw.grid);
+        let pool = self.pool(raw.prior.as_ref().and_then(|pr| pr.pool.as_deref()));
+        let analysts = self.analysts(raw);
+        let scenarios = self.scenarios(raw, &analysts);
+        let searches = self.searches(raw);
+        let units = self.units(raw);
+        let outcome = raw
+            .outcome
+            .as_ref()
+            .and_then(|o| self.outcome(o, header.reference_time));
+        self.log_pool_with_drift(pool, &scenarios);
+        let swaps = swaps::swapped_positions(header.crs, &scenarios, &searches, outcome.as_ref());
+        for (at, message) in swaps {
+            self.err(&at, message);
+        }
+        if !self.errors.is_empty() {
+            return None;
+        }
+        Some(Incident {
+            path: self.path.clone(),
+            text: self.text.to_owned(),
+            title: header.title,
+            reference_time: header.reference_time?,
+            crs: header.crs,
+            notes: raw.incident.notes.clone(),
+            coastline: header.coastline,
+            coastline_file: header.coastline_file,
+            object_afloat: raw.incident.object_afloat,
+            grid,
+            pool,
+            analysts,
+            scenarios,
+            searches,
+            units,
+            outcome,
+        })
+    }
+
+    fn header(&mut self, h: &RawHeader) -> Header {
         let title = h.title.trim().to_owned();
         if title.is_empty() {
             self.err(
@@ -226,76 +327,76 @@ impl Validator<'_> {
         let coastline_file = h.coastline.as_ref().map(|c| self.resolve(c));
         let coastline = h.coastline.as_ref().and_then(|c| {
             let file = self.resolve(c);
-            match geofiles::read_polygons(&file) {
-                Ok(mp) => Some(mp),
-                Err(e) => {
-                    self.file_err(e);
-                    None
-                }
-            }
+            geofiles::read_polygons(&file)
+                .map_err(|e| self.file_err(e))
+                .ok()
         });
-        let object_afloat = h.object_afloat;
-        if object_afloat.is_some() && h.coastline.is_none() {
+        if h.object_afloat.is_some() && h.coastline.is_none() {
             self.err(&p("incident").key("object_afloat"), "object_afloat needs a coastline to tell land from water; add coastline = \"coast.geojson\" or remove object_afloat");
         }
+        Header {
+            title,
+            reference_time,
+            crs,
+            coastline,
+            coastline_file,
+        }
+    }
 
-        let g = &raw.grid;
-        self.positive(&p("grid").key("cell_m"), g.cell_m, "cell_m");
+    fn grid(&mut self, g: &file::RawGrid) -> GridSettings {
+        if !(g.cell_m.is_finite() && CELL_M_RANGE.contains(&g.cell_m)) {
+            self.err(
+                &p("grid").key("cell_m"),
+                format!(
+                    "cell_m must be a number of metres from {} to {}, got {}",
+                    CELL_M_RANGE.start(),
+                    CELL_M_RANGE.end(),
+                    g.cell_m
+                ),
+            );
+        }
         let bounds = g.bounds.map(|b| [b.west, b.south, b.east, b.north]);
         if let Some([w, s, e, n]) = bounds {
-            let at = p("grid").key("bounds");
             let lon_ok = |v: f64| (-180.0..=180.0).contains(&v);
             let lat_ok = |v: f64| (-80.0..=84.0).contains(&v);
             let ordered = w < e && s < n && [w, s, e, n].iter().all(|v| v.is_finite());
             if !(ordered && lon_ok(w) && lon_ok(e) && lat_ok(s) && lat_ok(n)) {
-                self.err(&at, "bounds must have west < east and south < north, in degrees within the UTM range (latitude -80..84)");
+                self.err(&p("grid").key("bounds"), "bounds must have west < east and south < north, in degrees within the UTM range (latitude -80..84)");
             }
         }
         let max_cells = g.max_cells.unwrap_or(DEFAULT_MAX_CELLS);
         if max_cells == 0 {
             self.err(&p("grid").key("max_cells"), "max_cells must be at least 1");
         }
+        GridSettings {
+            cell_m: g.cell_m,
+            bounds,
+            max_cells,
+        }
+    }
 
-        let pool = match raw.prior.as_ref().and_then(|pr| pr.pool.as_deref()) {
-            None | Some("linear") => PoolChoice::Linear,
-            Some("logarithmic") => PoolChoice::Logarithmic,
-            Some(other) => {
+    fn pool(&mut self, name: Option<&str>) -> prior::Pool {
+        match name {
+            None => prior::Pool::Linear,
+            Some(name) => prior::Pool::parse(name).unwrap_or_else(|| {
+                let list = choices(prior::Pool::ALL.map(prior::Pool::name));
                 self.err(
                     &p("prior").key("pool"),
-                    format!("unknown pool \"{other}\"; use \"linear\" or \"logarithmic\""),
+                    format!("unknown pool \"{name}\"; use {list}"),
                 );
-                PoolChoice::Linear
-            }
-        };
-
-        let analysts = self.analysts(raw);
-        let scenarios = self.scenarios(raw, &analysts);
-        let searches = self.searches(raw);
-        let units = self.units(raw);
-        if !self.errors.is_empty() {
-            return None;
+                prior::Pool::Linear
+            }),
         }
-        Some(Incident {
-            path: self.path.clone(),
-            text: self.text.to_owned(),
-            title,
-            reference_time: reference_time?,
-            crs,
-            notes: h.notes.clone(),
-            coastline,
-            coastline_file,
-            object_afloat,
-            grid: GridSettings {
-                cell_m: g.cell_m,
-                bounds,
-                max_cells,
-            },
-            pool,
-            analysts,
-            scenarios,
-            searches,
-            units,
-        })
+    }
+
+    /// The logarithmic pool works on cells; drift scenarios are particles.
+    fn log_pool_with_drift(&mut self, pool: prior::Pool, scenarios: &[ScenarioDef]) {
+        let drifting = scenarios
+            .iter()
+            .find(|s| matches!(s.kind, ScenarioKind::Drift(_)));
+        if let (prior::Pool::Logarithmic, Some(d)) = (pool, drifting) {
+            self.err(&p("prior").key("pool"), format!("the logarithmic pool cannot combine drift scenarios (particles) with cell maps, and scenario \"{}\" drifts; use pool = \"linear\", or remove the drift scenarios", d.id));
+        }
     }
 
     fn analysts(&mut self, raw: &RawFile) -> Vec<AnalystDef> {
@@ -309,9 +410,7 @@ impl Validator<'_> {
         let mut out = Vec::new();
         for (i, a) in raw.analysts.iter().enumerate() {
             let at = p("analyst").index(i);
-            if a.id.trim().is_empty() {
-                self.err(&at.key("id"), "the analyst id is empty");
-            }
+            self.id(&at.key("id"), &a.id, "analyst id");
             if !seen.insert(a.id.clone()) {
                 self.err(
                     &at.key("id"),
@@ -326,9 +425,29 @@ impl Validator<'_> {
             out.push(AnalystDef {
                 id: a.id.clone(),
                 weight,
+                at,
             });
         }
+        let weights: Vec<(FieldPath, f64)> =
+            out.iter().map(|a| (a.at.key("weight"), a.weight)).collect();
+        self.weight_ratio(&weights, "analysts' weights");
         out
+    }
+
+    /// Refuses weights so unequal that the smallest vanish: reported at the smallest.
+    fn weight_ratio(&mut self, weights: &[(FieldPath, f64)], what: &str) {
+        let usable = || weights.iter().filter(|(_, w)| w.is_finite() && *w > 0.0);
+        let (Some(small), Some(large)) = (
+            usable().min_by(|a, b| a.1.total_cmp(&b.1)),
+            usable().max_by(|a, b| a.1.total_cmp(&b.1)),
+        ) else {
+            return;
+        };
+        let ratio = large.1 / small.1;
+        if ratio > MAX_WEIGHT_RATIO {
+            let at = small.0.clone();
+            self.err(&at, format!("the {what} differ by a factor of {ratio:.3e}, more than 1e6: the smaller ones would vanish from the pool; weights are relative, so give them within a factor of a million (e.g. 1 to 100)"));
+        }
     }
 
     fn scenarios(&mut self, raw: &RawFile, analysts: &[AnalystDef]) -> Vec<ScenarioDef> {
@@ -340,12 +459,12 @@ impl Validator<'_> {
         }
         let known: HashSet<&str> = analysts.iter().map(|a| a.id.as_str()).collect();
         let mut seen = HashSet::new();
-        let mut segment_cache: HashMap<PathBuf, Vec<(String, geo::MultiPolygon<f64>)>> =
-            HashMap::new();
+        let mut files = SegmentFiles::default();
         let mut out = Vec::new();
         let mut with_scenarios = HashSet::new();
         for (i, s) in raw.scenarios.iter().enumerate() {
             let at = p("scenario").index(i);
+            self.id(&at.key("id"), &s.id, "scenario id");
             if !seen.insert(s.id.clone()) {
                 self.err(
                     &at.key("id"),
@@ -369,13 +488,13 @@ impl Validator<'_> {
             with_scenarios.insert(s.analyst.clone());
             let weight = s.weight.unwrap_or(1.0);
             self.positive(&at.key("weight"), weight, "a scenario's weight");
-            self.fields_fit_kind(&at, s);
-            if let Some(kind) = self.scenario_kind(&at, s, &mut segment_cache) {
+            if let Some(kind) = self.scenario_kind(&at, s, &mut files) {
                 out.push(ScenarioDef {
                     id: s.id.clone(),
                     analyst: s.analyst.clone(),
                     weight,
                     kind,
+                    at,
                 });
             }
         }
@@ -389,258 +508,235 @@ impl Validator<'_> {
                     ),
                 );
             }
+            let weights: Vec<(FieldPath, f64)> = raw
+                .scenarios
+                .iter()
+                .enumerate()
+                .filter(|(_, s)| s.analyst == a.id)
+                .map(|(i, s)| {
+                    (
+                        p("scenario").index(i).key("weight"),
+                        s.weight.unwrap_or(1.0),
+                    )
+                })
+                .collect();
+            self.weight_ratio(
+                &weights,
+                &format!("weights of analyst \"{}\"'s scenarios", a.id),
+            );
         }
         out
     }
 
-    /// Refuses fields that belong to another kind: they would be silently ignored otherwise.
-    fn fields_fit_kind(&mut self, at: &FieldPath, s: &RawScenario) {
-        let present: [(&str, bool); 19] = [
-            ("position", s.position.is_some()),
-            ("sigma_m", s.sigma_m.is_some()),
-            ("sigma_major_m", s.sigma_major_m.is_some()),
-            ("sigma_minor_m", s.sigma_minor_m.is_some()),
-            ("major_bearing_deg", s.major_bearing_deg.is_some()),
-            ("waypoints", s.waypoints.is_some()),
-            ("cross_track_sigma_m", s.cross_track_sigma_m.is_some()),
-            ("polygon", s.polygon.is_some()),
-            ("segments", s.segments.is_some()),
-            ("poa", s.poa.is_some()),
-            ("distance_quantiles_km", s.distance_quantiles_km.is_some()),
-            ("ring_interpolation", s.ring_interpolation.is_some()),
-            ("position_sigma_m", s.position_sigma_m.is_some()),
-            ("adrift", s.adrift.is_some()),
-            ("current", s.current.is_some()),
-            ("wind", s.wind.is_some()),
-            ("leeway", s.leeway.is_some()),
-            ("diffusivity_m2_s", s.diffusivity_m2_s.is_some()),
-            ("particles", s.particles.is_some() || s.seed.is_some()),
-        ];
-        let allowed: &[&str] = match s.kind.as_str() {
-            "point" => &[
-                "position",
-                "sigma_m",
-                "sigma_major_m",
-                "sigma_minor_m",
-                "major_bearing_deg",
-            ],
-            "route" => &["waypoints", "cross_track_sigma_m"],
-            "area" => &["polygon"],
-            "segments" => &["segments", "poa"],
-            "rings" => &["position", "distance_quantiles_km", "ring_interpolation"],
-            "drift" => &[
-                "position",
-                "position_sigma_m",
-                "adrift",
-                "current",
-                "wind",
-                "leeway",
-                "diffusivity_m2_s",
-                "particles",
-            ],
-            _ => return,
-        };
-        for (name, there) in present {
-            if there && !allowed.contains(&name) {
-                self.err(&at.key(name), format!("{name} does not belong to a scenario of kind \"{}\"; remove it or change the kind", s.kind));
-            }
-        }
-    }
-
+    /// The scenario's kind, read by the step of its kind, then checked by the prior crate.
     fn scenario_kind(
         &mut self,
         at: &FieldPath,
         s: &RawScenario,
-        segment_cache: &mut HashMap<PathBuf, Vec<(String, geo::MultiPolygon<f64>)>>,
+        files: &mut SegmentFiles,
     ) -> Option<ScenarioKind> {
-        match s.kind.as_str() {
-            "point" => {
-                let position = self.required(
-                    &at.key("position"),
-                    &s.position,
-                    "give position = [lon, lat]",
-                )?;
-                if !self.position(&at.key("position"), position) {
-                    return None;
-                }
-                match (s.sigma_m, s.sigma_major_m, s.sigma_minor_m) {
-                    (Some(sig), None, None) => {
-                        if s.major_bearing_deg.is_some() {
-                            self.err(&at.key("major_bearing_deg"), "a circular point (sigma_m) has no major axis; remove major_bearing_deg or give sigma_major_m and sigma_minor_m");
-                        }
-                        self.positive(&at.key("sigma_m"), sig, "sigma_m").then_some(
-                            ScenarioKind::Point {
-                                position,
-                                sigma_major_m: sig,
-                                sigma_minor_m: sig,
-                                major_bearing_deg: 0.0,
-                            },
-                        )
-                    }
-                    (None, Some(a), Some(b)) => {
-                        let ok = self.positive(&at.key("sigma_major_m"), a, "sigma_major_m")
-                            & self.positive(&at.key("sigma_minor_m"), b, "sigma_minor_m");
-                        let bearing = self.required(&at.key("major_bearing_deg"), &s.major_bearing_deg, "an elliptical point needs major_bearing_deg, the true bearing of its major axis")?;
-                        if !ok
-                            || !self.finite(
-                                &at.key("major_bearing_deg"),
-                                bearing,
-                                "major_bearing_deg",
-                            )
-                        {
-                            return None;
-                        }
-                        if b > a {
-                            self.err(&at.key("sigma_minor_m"), format!("sigma_minor_m ({b}) is larger than sigma_major_m ({a}); swap them and turn major_bearing_deg by 90"));
-                            return None;
-                        }
-                        Some(ScenarioKind::Point {
-                            position,
-                            sigma_major_m: a,
-                            sigma_minor_m: b,
-                            major_bearing_deg: bearing,
-                        })
-                    }
-                    _ => {
-                        self.err(&at.key("sigma_m"), "a point needs either sigma_m (circular) or sigma_major_m, sigma_minor_m and major_bearing_deg (elliptical), not both");
-                        None
-                    }
-                }
+        let kind = match &s.shape {
+            RawShape::Point(r) => self.point(at, r),
+            RawShape::Route(r) => self.route(at, r),
+            RawShape::Area(r) => self.area(at, r, files),
+            RawShape::Segments(r) => self.segments(at, r, files),
+            RawShape::Rings(r) => self.rings(at, r),
+            RawShape::Drift(r) => {
+                return self.drift(at, r).map(|d| ScenarioKind::Drift(Box::new(d)));
             }
-            "route" => {
-                let w = self.required(
-                    &at.key("waypoints"),
-                    &s.waypoints,
-                    "give waypoints = [[lon, lat], [lon, lat], ...]",
-                )?;
-                let sigma = self.required(
-                    &at.key("cross_track_sigma_m"),
-                    &s.cross_track_sigma_m,
-                    "give cross_track_sigma_m, the across-track standard deviation in metres",
-                )?;
-                if w.len() < 2 {
-                    self.err(&at.key("waypoints"), "a route needs at least two waypoints");
-                    return None;
+        }?;
+        let shape = kind
+            .shape(&checks::as_lon_lat, &checks::as_written)
+            .ok()
+            .flatten()?;
+        match shape.validate() {
+            Ok(()) => Some(kind),
+            Err(prior::PriorError::Shape(e)) => {
+                let (where_, message) = checks::shape(at, s, &kind, files, &e);
+                match where_ {
+                    checks::Place::Field(path) => self.err(&path, message),
+                    checks::Place::File(file) => self.file_invalid(&file, message),
                 }
-                let mut ok =
-                    self.positive(&at.key("cross_track_sigma_m"), sigma, "cross_track_sigma_m");
-                for (k, pt) in w.iter().enumerate() {
-                    ok &= self.position(&at.key("waypoints").index(k), *pt);
-                }
-                if ok && w.windows(2).all(|ab| ab[0] == ab[1]) {
-                    self.err(&at.key("waypoints"), "the route has zero length; give distinct waypoints or use kind = \"point\"");
-                    return None;
-                }
-                ok.then_some(ScenarioKind::Route {
-                    waypoints: w,
-                    cross_track_sigma_m: sigma,
-                })
+                None
             }
-            "area" => {
-                let rel = self.required(
-                    &at.key("polygon"),
-                    &s.polygon,
-                    "give polygon = \"file.geojson\", a GeoJSON file of polygons",
-                )?;
-                let file = self.resolve(&rel);
-                match geofiles::read_polygons(&file) {
-                    Ok(polygons) => Some(ScenarioKind::Area { file, polygons }),
-                    Err(e) => {
-                        self.file_err(e);
-                        None
-                    }
-                }
-            }
-            "segments" => {
-                let rel = self.required(&at.key("segments"), &s.segments, "give segments = \"segments.geojson\", a GeoJSON file with an id property per feature")?;
-                let poa_map = self.required(
-                    &at.key("poa"),
-                    &s.poa,
-                    "give poa = { S1 = 0.3, S2 = 0.2 }, this analyst's POA per segment id",
-                )?;
-                let file = self.resolve(&rel);
-                let segments = if let Some(seg) = segment_cache.get(&file) {
-                    seg.clone()
-                } else {
-                    match geofiles::read_segments(&file) {
-                        Ok(seg) => {
-                            segment_cache.insert(file.clone(), seg.clone());
-                            seg
-                        }
-                        Err(e) => {
-                            self.file_err(e);
-                            return None;
-                        }
-                    }
-                };
-                let ids: Vec<&str> = segments.iter().map(|(id, _)| id.as_str()).collect();
-                let mut ok = true;
-                for (id, v) in &poa_map {
-                    if !ids.contains(&id.as_str()) {
-                        self.err(
-                            &at.key("poa").key(id),
-                            format!(
-                                "segment \"{id}\" is not in {}; its segments are: {}",
-                                file.display(),
-                                ids.join(", ")
-                            ),
-                        );
-                        ok = false;
-                    }
-                    ok &= self.non_negative(&at.key("poa").key(id), *v, "a POA");
-                }
-                let total: f64 = poa_map.values().sum();
-                if total > 1.0 + 1e-9 {
-                    self.err(&at.key("poa"), format!("the POA values add up to {total:.4}, more than 1; give fractions whose sum is at most 1 (the rest is rest of world)"));
-                    ok = false;
-                }
-                let poa = segments
-                    .iter()
-                    .map(|(id, _)| poa_map.get(id).copied().unwrap_or(0.0))
-                    .collect();
-                ok.then_some(ScenarioKind::Segments {
-                    file,
-                    segments,
-                    poa,
-                })
-            }
-            "rings" => {
-                let position = self.required(
-                    &at.key("position"),
-                    &s.position,
-                    "give position = [lon, lat], the initial planning point",
-                )?;
-                let q = self.required(
-                    &at.key("distance_quantiles_km"),
-                    &s.distance_quantiles_km,
-                    "give distance_quantiles_km = { 25 = 1.1, 50 = 2.0, 75 = 3.6, 95 = 7.4 }",
-                )?;
-                if !self.position(&at.key("position"), position) {
-                    return None;
-                }
-                let mode = match s.ring_interpolation.as_deref() {
-                    None | Some("uniform-per-ring") => RingMode::UniformPerRing,
-                    Some("monotone-cubic") => RingMode::MonotoneCubic,
-                    Some(other) => {
-                        self.err(&at.key("ring_interpolation"), format!("unknown ring_interpolation \"{other}\"; use \"uniform-per-ring\" or \"monotone-cubic\""));
-                        return None;
-                    }
-                };
-                self.quantiles(&at.key("distance_quantiles_km"), &q)
-                    .map(|quantiles| ScenarioKind::Rings {
-                        position,
-                        quantiles,
-                        mode,
-                    })
-            }
-            "drift" => self.drift(at, s).map(|d| ScenarioKind::Drift(Box::new(d))),
-            other => {
-                self.err(&at.key("kind"), format!("unknown scenario kind \"{other}\"; use point, route, area, segments, rings or drift"));
+            Err(other) => {
+                self.err(at, other.to_string());
                 None
             }
         }
     }
 
+    fn point(&mut self, at: &FieldPath, r: &RawPoint) -> Option<ScenarioKind> {
+        let position = self.required_position(
+            &at.key("position"),
+            r.position,
+            "give position = [lon, lat]",
+        )?;
+        match (r.sigma_m, r.sigma_major_m, r.sigma_minor_m) {
+            (Some(sig), None, None) => {
+                if r.major_bearing_deg.is_some() {
+                    self.err(&at.key("major_bearing_deg"), "a circular point (sigma_m) has no major axis; remove major_bearing_deg or give sigma_major_m and sigma_minor_m");
+                    return None;
+                }
+                Some(ScenarioKind::Point {
+                    position,
+                    sigma_major_m: sig,
+                    sigma_minor_m: sig,
+                    major_bearing_deg: 0.0,
+                })
+            }
+            (None, Some(a), Some(b)) => {
+                let bearing = self.required(&at.key("major_bearing_deg"), r.major_bearing_deg, "an elliptical point needs major_bearing_deg, the true bearing of its major axis")?;
+                Some(ScenarioKind::Point {
+                    position,
+                    sigma_major_m: a,
+                    sigma_minor_m: b,
+                    major_bearing_deg: bearing,
+                })
+            }
+            _ => {
+                self.err(&at.key("sigma_m"), "a point needs either sigma_m (circular) or sigma_major_m, sigma_minor_m and major_bearing_deg (elliptical), not both");
+                None
+            }
+        }
+    }
+
+    fn route(&mut self, at: &FieldPath, r: &RawRoute) -> Option<ScenarioKind> {
+        let w = self.required(
+            &at.key("waypoints"),
+            r.waypoints.clone(),
+            "give waypoints = [[lon, lat], [lon, lat], ...]",
+        )?;
+        let sigma = self.required(
+            &at.key("cross_track_sigma_m"),
+            r.cross_track_sigma_m,
+            "give cross_track_sigma_m, the across-track standard deviation in metres",
+        )?;
+        let mut ok = true;
+        for (k, Position(pt)) in w.iter().enumerate() {
+            ok &= self.position(&at.key("waypoints").index(k), *pt);
+        }
+        ok.then(|| ScenarioKind::Route {
+            waypoints: w.iter().map(|Position(p)| *p).collect(),
+            cross_track_sigma_m: sigma,
+        })
+    }
+
+    fn area(
+        &mut self,
+        at: &FieldPath,
+        r: &RawArea,
+        files: &mut SegmentFiles,
+    ) -> Option<ScenarioKind> {
+        let rel = self.required(
+            &at.key("polygon"),
+            r.polygon.clone(),
+            "give polygon = \"file.geojson\", a GeoJSON file of polygons",
+        )?;
+        let file = self.resolve(&rel);
+        let features = geofiles::read_polygon_features(&file)
+            .map_err(|e| self.file_err(e))
+            .ok()?;
+        let polygons = geo::MultiPolygon(features.iter().flatten().cloned().collect());
+        files
+            .feature_of_polygon
+            .insert(file.clone(), feature_index(&features));
+        Some(ScenarioKind::Area { file, polygons })
+    }
+
+    fn segments(
+        &mut self,
+        at: &FieldPath,
+        r: &RawSegments,
+        files: &mut SegmentFiles,
+    ) -> Option<ScenarioKind> {
+        let rel = self.required(
+            &at.key("segments"),
+            r.segments.clone(),
+            "give segments = \"segments.geojson\", a GeoJSON file with an id property per feature",
+        )?;
+        let poa_map = self.required(
+            &at.key("poa"),
+            r.poa.clone(),
+            "give poa = { S1 = 0.3, S2 = 0.2 }, this analyst's POA per segment id",
+        )?;
+        let file = self.resolve(&rel);
+        let segments = match files.segments.get(&file) {
+            Some(seg) => seg.clone(),
+            None => {
+                let seg = geofiles::read_segments(&file)
+                    .map_err(|e| self.file_err(e))
+                    .ok()?;
+                files.segments.insert(file.clone(), seg.clone());
+                seg
+            }
+        };
+        let ids: Vec<&str> = segments.iter().map(|(id, _)| id.as_str()).collect();
+        let mut ok = true;
+        for id in poa_map.keys() {
+            if !ids.contains(&id.as_str()) {
+                self.err(
+                    &at.key("poa").key(id),
+                    format!(
+                        "segment \"{id}\" is not in {}; its segments are: {}",
+                        file.display(),
+                        ids.join(", ")
+                    ),
+                );
+                ok = false;
+            }
+        }
+        let poa = segments
+            .iter()
+            .map(|(id, _)| poa_map.get(id).copied().unwrap_or(0.0))
+            .collect();
+        ok.then_some(ScenarioKind::Segments {
+            file,
+            segments,
+            poa,
+        })
+    }
+
+    fn rings(&mut self, at: &FieldPath, r: &RawRings) -> Option<ScenarioKind> {
+        let position = self.required(
+            &at.key("position"),
+            r.position,
+            "give position = [lon, lat], the initial planning point",
+        );
+        let q = self.required(
+            &at.key("distance_quantiles_km"),
+            r.distance_quantiles_km.clone(),
+            "give distance_quantiles_km = { 25 = 1.1, 50 = 2.0, 75 = 3.6, 95 = 7.4 }",
+        )?;
+        let Position(position) = position?;
+        if !self.position(&at.key("position"), position) {
+            return None;
+        }
+        let mode = match r.ring_interpolation.as_deref() {
+            None => prior::RingInterpolation::UniformPerRing,
+            Some(name) => match prior::RingInterpolation::parse(name) {
+                Some(m) => m,
+                None => {
+                    let list =
+                        choices(prior::RingInterpolation::ALL.map(prior::RingInterpolation::name));
+                    self.err(
+                        &at.key("ring_interpolation"),
+                        format!("unknown ring_interpolation \"{name}\"; use {list}"),
+                    );
+                    return None;
+                }
+            },
+        };
+        self.quantiles(&at.key("distance_quantiles_km"), &q)
+            .map(|quantiles| ScenarioKind::Rings {
+                position,
+                quantiles,
+                mode,
+            })
+    }
+
+    /// The rings as (fraction, radius metres) in the order of the percentages; each key read
+    /// as a percentage (the prior crate checks the values).
     fn quantiles(&mut self, at: &FieldPath, q: &BTreeMap<String, f64>) -> Option<Vec<(f64, f64)>> {
         let mut out = Vec::new();
         for (k, v) in q {
@@ -648,140 +744,79 @@ impl Validator<'_> {
                 self.err(&at.key(k), format!("\"{k}\" is not a percentage; write keys as percentages such as 25, 50, 75, 95"));
                 return None;
             };
-            if !(pct > 0.0 && pct <= 100.0) {
-                self.err(&at.key(k), format!("percentage {pct} is outside 0..100"));
-                return None;
-            }
-            if !self.positive(&at.key(k), *v, "a ring distance") {
-                return None;
-            }
             out.push((pct / 100.0, v * 1000.0));
         }
         out.sort_by(|a, b| a.0.total_cmp(&b.0));
-        if out.is_empty() {
-            self.err(at, "no distance quantiles given");
-            return None;
-        }
-        if out.windows(2).any(|w| w[1].1 <= w[0].1) {
-            self.err(at, "ring distances must grow with the percentage (a larger share of subjects lies within a larger distance)");
-            return None;
-        }
         Some(out)
     }
 
-    fn drift(&mut self, at: &FieldPath, s: &RawScenario) -> Option<DriftDef> {
+    fn drift(&mut self, at: &FieldPath, s: &RawDrift) -> Option<DriftDef> {
         let position = self.required(
             &at.key("position"),
-            &s.position,
+            s.position,
             "give position = [lon, lat], the last known position",
-        )?;
+        );
         let adrift = self.required(
             &at.key("adrift"),
-            &s.adrift,
+            s.adrift.as_ref(),
             "give adrift = { earliest = \"...\", latest = \"...\" }",
-        )?;
+        );
         let current = self.required(
             &at.key("current"),
-            &s.current,
+            s.current.as_ref(),
             "give current = { speed_kn, toward_deg, ... } or { series = \"current.csv\" }",
-        )?;
+        );
         let wind = self.required(
             &at.key("wind"),
-            &s.wind,
+            s.wind.as_ref(),
             "give wind = { speed_kn, from_deg, ... } or { series = \"wind.csv\" }",
-        )?;
-        let leeway = self.required(&at.key("leeway"), &s.leeway, "give leeway = { downwind_slope, ... } for the object; seekgrid has no built-in leeway values")?;
-        let mut ok = self.position(&at.key("position"), position);
-        let position_sigma_m = s.position_sigma_m.unwrap_or(0.0);
-        ok &= self.non_negative(
-            &at.key("position_sigma_m"),
-            position_sigma_m,
-            "position_sigma_m",
         );
+        let leeway = self.required(&at.key("leeway"), s.leeway.as_ref(), "give leeway = { downwind_slope, ... } for the object; seekgrid has no built-in leeway values");
+        let (Some(Position(position)), Some(adrift), Some(current), Some(wind), Some(leeway)) =
+            (position, adrift, current, wind, leeway)
+        else {
+            return None;
+        };
+        let ok = self.position(&at.key("position"), position);
         let earliest = self.time(&at.key("adrift").key("earliest"), &adrift.earliest);
         let latest = self.time(&at.key("adrift").key("latest"), &adrift.latest);
-        if let (Some(e), Some(l)) = (earliest, latest)
-            && l < e
-        {
-            self.err(
-                &at.key("adrift").key("latest"),
-                "latest is before earliest; swap them",
-            );
-            ok = false;
-        }
-        let current = self.vector(&at.key("current"), &current, Convention::Toward);
-        let wind = self.vector(&at.key("wind"), &wind, Convention::From);
-        let la = at.key("leeway");
-        let lw = LeewayDef {
-            downwind_slope: leeway.downwind_slope,
-            downwind_offset_kn: leeway.downwind_offset_kn.unwrap_or(0.0),
-            downwind_sigma_kn: leeway.downwind_sigma_kn.unwrap_or(0.0),
-            crosswind_slope: leeway.crosswind_slope.unwrap_or(0.0),
-            crosswind_offset_kn: leeway.crosswind_offset_kn.unwrap_or(0.0),
-            crosswind_sigma_kn: leeway.crosswind_sigma_kn.unwrap_or(0.0),
-            jibe_per_h: leeway.jibe_per_h.unwrap_or(0.0),
-            source: leeway.source.clone(),
-        };
-        ok &= self.non_negative(
-            &la.key("downwind_slope"),
-            lw.downwind_slope,
-            "downwind_slope",
-        );
-        ok &= self.finite(
-            &la.key("downwind_offset_kn"),
-            lw.downwind_offset_kn,
-            "downwind_offset_kn",
-        );
-        ok &= self.non_negative(
-            &la.key("downwind_sigma_kn"),
-            lw.downwind_sigma_kn,
-            "downwind_sigma_kn",
-        );
-        ok &= self.non_negative(
-            &la.key("crosswind_slope"),
-            lw.crosswind_slope,
-            "crosswind_slope",
-        );
-        ok &= self.finite(
-            &la.key("crosswind_offset_kn"),
-            lw.crosswind_offset_kn,
-            "crosswind_offset_kn",
-        );
-        ok &= self.non_negative(
-            &la.key("crosswind_sigma_kn"),
-            lw.crosswind_sigma_kn,
-            "crosswind_sigma_kn",
-        );
-        ok &= self.non_negative(&la.key("jibe_per_h"), lw.jibe_per_h, "jibe_per_h");
-        let diffusivity_m2_s = s.diffusivity_m2_s.unwrap_or(0.0);
-        ok &= self.non_negative(
-            &at.key("diffusivity_m2_s"),
-            diffusivity_m2_s,
-            "diffusivity_m2_s",
-        );
-        let particles = s.particles.unwrap_or(20_000);
-        if particles == 0 || particles > 20_000_000 {
-            self.err(
-                &at.key("particles"),
-                format!("particles must be between 1 and 20 000 000, got {particles}"),
-            );
-            ok = false;
-        }
-        if !ok {
-            return None;
-        }
-        Some(DriftDef {
+        let current = self.vector(&at.key("current"), current, Convention::Toward);
+        let wind = self.vector(&at.key("wind"), wind, Convention::From);
+        let def = DriftDef {
             position,
-            position_sigma_m,
+            position_sigma_m: s.position_sigma_m.unwrap_or(0.0),
             adrift_earliest: earliest?,
             adrift_latest: latest?,
             current: current?,
             wind: wind?,
-            leeway: lw,
-            diffusivity_m2_s,
-            particles,
+            leeway: LeewayDef {
+                downwind_slope: leeway.downwind_slope,
+                downwind_offset_kn: leeway.downwind_offset_kn.unwrap_or(0.0),
+                downwind_sigma_kn: leeway.downwind_sigma_kn.unwrap_or(0.0),
+                crosswind_slope: leeway.crosswind_slope.unwrap_or(0.0),
+                crosswind_offset_kn: leeway.crosswind_offset_kn.unwrap_or(0.0),
+                crosswind_sigma_kn: leeway.crosswind_sigma_kn.unwrap_or(0.0),
+                jibe_per_h: leeway.jibe_per_h.unwrap_or(0.0),
+                source: leeway.source.clone(),
+            },
+            diffusivity_m2_s: s.diffusivity_m2_s.unwrap_or(0.0),
+            particles: s.particles.unwrap_or(20_000),
             seed: s.seed.unwrap_or(1),
-        })
+        };
+        if !ok {
+            return None;
+        }
+        // The drift crate's own checks: the gridded fields' lattices, every coefficient.
+        match def.scenario().and_then(|d| d.validate()) {
+            Ok(()) => Some(def),
+            Err(e) => {
+                match checks::drift(at, &def, &e) {
+                    (checks::Place::Field(path), message) => self.err(&path, message),
+                    (checks::Place::File(file), message) => self.file_invalid(&file, message),
+                }
+                None
+            }
+        }
     }
 
     fn vector(
@@ -805,12 +840,6 @@ impl Validator<'_> {
         }
         let speed_sigma_kn = v.speed_sigma_kn.unwrap_or(0.0);
         let direction_sigma_deg = v.direction_sigma_deg.unwrap_or(0.0);
-        let mut ok = self.non_negative(&at.key("speed_sigma_kn"), speed_sigma_kn, "speed_sigma_kn")
-            & self.non_negative(
-                &at.key("direction_sigma_deg"),
-                direction_sigma_deg,
-                "direction_sigma_deg",
-            );
         let sources = [
             v.speed_kn.is_some() || dir.is_some(),
             v.series.is_some(),
@@ -822,38 +851,28 @@ impl Validator<'_> {
         }
         if let Some(rel) = &v.series {
             let file = self.resolve(rel);
-            return match geofiles::read_series(&file, speed_sigma_kn, direction_sigma_deg) {
-                Ok(samples) if ok => Some(VectorDef::Series { file, samples }),
-                Ok(_) => None,
-                Err(e) => {
-                    self.file_err(e);
-                    None
-                }
-            };
+            return geofiles::read_series(&file, speed_sigma_kn, direction_sigma_deg)
+                .map(|samples| VectorDef::Series { file, samples })
+                .map_err(|e| self.file_err(e))
+                .ok();
         }
         if let Some(rel) = &v.field {
             let file = self.resolve(rel);
-            return match geofiles::read_field(&file) {
-                Ok(samples) if ok => Some(VectorDef::Field {
+            return geofiles::read_field(&file)
+                .map(|samples| VectorDef::Field {
                     file,
                     samples,
                     speed_sigma_kn,
                     direction_sigma_deg,
-                }),
-                Ok(_) => None,
-                Err(e) => {
-                    self.file_err(e);
-                    None
-                }
-            };
+                })
+                .map_err(|e| self.file_err(e))
+                .ok();
         }
-        let speed_kn = self.required(&at.key("speed_kn"), &v.speed_kn, "give speed_kn")?;
-        let direction_deg = self.required(&at.key(dir_name), &dir, &format!("give {dir_name}"))?;
-        ok &= self.non_negative(&at.key("speed_kn"), speed_kn, "speed_kn");
-        ok &= self.finite(&at.key(dir_name), direction_deg, dir_name);
-        ok.then_some(VectorDef::Constant(VectorSample {
-            speed_kn,
-            direction_deg,
+        let speed_kn = self.required(&at.key("speed_kn"), v.speed_kn, "give speed_kn");
+        let direction_deg = self.required(&at.key(dir_name), dir, &format!("give {dir_name}"));
+        Some(VectorDef::Constant(VectorSample {
+            speed_kn: speed_kn?,
+            direction_deg: direction_deg?,
             speed_sigma_kn,
             direction_sigma_deg,
         }))
@@ -864,6 +883,8 @@ impl Validator<'_> {
         let mut out = Vec::new();
         for (i, s) in raw.searches.iter().enumerate() {
             let at = p("search").index(i);
+            self.id(&at.key("id"), &s.id, "search id");
+            self.id(&at.key("unit"), &s.unit, "unit of the search");
             if !seen.insert(s.id.clone()) {
                 self.err(
                     &at.key("id"),
@@ -891,39 +912,40 @@ impl Validator<'_> {
                 "the search ends before it starts; check start and end",
             );
         }
-        let mut ok = self.positive(&at.key("sweep_width_m"), s.sweep_width_m, "sweep_width_m");
         let factors = s.sweep_width_factors.clone().unwrap_or_default();
-        for (k, f) in factors.iter().enumerate() {
-            ok &= self.positive(
-                &at.key("sweep_width_factors").index(k),
-                *f,
-                "a sweep width correction factor",
-            );
-        }
-        let detection = self.detection(&at.key("detection"), &s.detection);
+        let ok = match search::SweepWidth::new(s.sweep_width_m, &factors) {
+            Ok(_) => true,
+            Err(e) => {
+                let (path, message) = checks::sweep_width(at, s.sweep_width_m, &e);
+                self.err(&path, message);
+                false
+            }
+        };
+        let detection = self.detection(&at.key("detection"), s.detection.as_deref());
         let geometry = match (&s.pattern, &s.track) {
             (Some(pat), None) => self
                 .pattern(&at.key("pattern"), pat)
                 .map(SearchGeometry::Pattern),
             (None, Some(rel)) => {
                 let file = self.resolve(rel);
-                match geofiles::read_track(&file) {
-                    Ok((points, times)) => Some(SearchGeometry::Track {
+                geofiles::read_track(&file)
+                    .map(|(points, times)| SearchGeometry::Track {
                         file,
                         points,
                         times,
-                    }),
-                    Err(e) => {
-                        self.file_err(e);
-                        None
-                    }
-                }
+                    })
+                    .map_err(|e| self.file_err(e))
+                    .ok()
             }
             _ => {
                 self.err(at, "a search needs exactly one of pattern = { kind = ..., ... } (as tasked) or track = \"file.gpx\" (as followed)");
                 None
             }
         };
+        let done_fraction = self.done_fraction(at, s);
+        if let Some(run) = &s.tasked_in {
+            self.id(&at.key("tasked_in"), run, "plan run id in tasked_in");
+        }
         if !ok {
             return None;
         }
@@ -936,117 +958,103 @@ impl Validator<'_> {
             sweep_width_factors: factors,
             detection,
             geometry: geometry?,
+            done_fraction: done_fraction?,
+            tasked_in: s.tasked_in.clone(),
+            at: at.clone(),
         })
     }
 
-    fn pattern(&mut self, at: &FieldPath, pat: &RawPattern) -> Option<PatternDef> {
-        if !self.position(&at.key("center"), pat.center) {
+    /// The share of a pattern flown: in (0, 1], only with a pattern.
+    fn done_fraction(&mut self, at: &FieldPath, s: &RawSearch) -> Option<f64> {
+        let Some(f) = s.done_fraction else {
+            return Some(1.0);
+        };
+        let here = at.key("done_fraction");
+        if s.pattern.is_none() {
+            self.err(&here, "done_fraction is the share of a pattern's track flown; a followed track is already what was flown, so remove done_fraction or give the pattern");
             return None;
         }
-        let center = pat.center;
-        match pat.kind.as_str() {
-            "parallel-sweep" | "creeping-line" => {
-                let length_m = self.required(
-                    &at.key("length_m"),
-                    &pat.length_m,
-                    "give length_m, the length of the area along its major axis",
-                )?;
-                let width_m = self.required(&at.key("width_m"), &pat.width_m, "give width_m")?;
-                let major_bearing_deg = self.required(
-                    &at.key("major_bearing_deg"),
-                    &pat.major_bearing_deg,
-                    "give major_bearing_deg, the true bearing of the area's long side",
-                )?;
-                let track_spacing_m = self.required(
-                    &at.key("track_spacing_m"),
-                    &pat.track_spacing_m,
-                    "give track_spacing_m",
-                )?;
-                let ok = self.positive(&at.key("length_m"), length_m, "length_m")
-                    & self.positive(&at.key("width_m"), width_m, "width_m")
-                    & self.finite(
-                        &at.key("major_bearing_deg"),
-                        major_bearing_deg,
-                        "major_bearing_deg",
-                    )
-                    & self.positive(
-                        &at.key("track_spacing_m"),
-                        track_spacing_m,
-                        "track_spacing_m",
-                    );
-                let r = RectanglePattern {
-                    center,
-                    length_m,
-                    width_m,
-                    major_bearing_deg,
-                    track_spacing_m,
-                };
-                ok.then(|| {
-                    if pat.kind == "parallel-sweep" {
-                        PatternDef::ParallelSweep(r)
-                    } else {
-                        PatternDef::CreepingLine(r)
-                    }
-                })
-            }
-            "expanding-square" => {
-                let track_spacing_m = self.required(
-                    &at.key("track_spacing_m"),
-                    &pat.track_spacing_m,
-                    "give track_spacing_m",
-                )?;
-                let legs = pat.legs.unwrap_or(12);
-                let first = pat.first_leg_bearing_deg.unwrap_or(0.0);
-                let ok = self.positive(
-                    &at.key("track_spacing_m"),
-                    track_spacing_m,
-                    "track_spacing_m",
-                ) & self.finite(
-                    &at.key("first_leg_bearing_deg"),
-                    first,
-                    "first_leg_bearing_deg",
-                );
-                if !(2..=400).contains(&legs) {
-                    self.err(&at.key("legs"), "legs must be between 2 and 400");
-                    return None;
-                }
-                ok.then_some(PatternDef::ExpandingSquare {
-                    center,
-                    track_spacing_m,
-                    legs,
-                    first_leg_bearing_deg: first,
-                })
-            }
-            "sector-search" => {
-                let radius_m =
-                    self.required(&at.key("radius_m"), &pat.radius_m, "give radius_m")?;
-                let first = pat.first_leg_bearing_deg.unwrap_or(0.0);
-                let sectors = pat.sectors.unwrap_or(3);
-                let ok = self.positive(&at.key("radius_m"), radius_m, "radius_m")
-                    & self.finite(
-                        &at.key("first_leg_bearing_deg"),
-                        first,
-                        "first_leg_bearing_deg",
-                    );
-                if !(1..=12).contains(&sectors) {
-                    self.err(
-                        &at.key("sectors"),
-                        "sectors must be between 1 and 12 (3 is usual)",
-                    );
-                    return None;
-                }
-                ok.then_some(PatternDef::SectorSearch {
-                    center,
-                    radius_m,
-                    first_leg_bearing_deg: first,
-                    sectors,
-                })
-            }
-            other => {
-                self.err(&at.key("kind"), format!("unknown pattern \"{other}\"; use parallel-sweep, creeping-line, expanding-square or sector-search"));
+        if !(f.is_finite() && f > 0.0 && f <= 1.0) {
+            self.err(&here, format!("done_fraction must be more than 0 and at most 1 (the share of the pattern's track flown from its start), got {f}"));
+            return None;
+        }
+        Some(f)
+    }
+
+    /// The pattern, read by the step of its kind, then checked by the search crate.
+    fn pattern(&mut self, at: &FieldPath, pat: &RawPattern) -> Option<PatternDef> {
+        let def = match pat {
+            RawPattern::ParallelSweep(r) => self.rectangle(at, r).map(PatternDef::ParallelSweep),
+            RawPattern::CreepingLine(r) => self.rectangle(at, r).map(PatternDef::CreepingLine),
+            RawPattern::ExpandingSquare(r) => self.square(at, r),
+            RawPattern::SectorSearch(r) => self.sector(at, r),
+        }?;
+        let Ok(pattern) = def.to_search(&checks::as_lon_lat, &checks::as_written);
+        match pattern.validate() {
+            Ok(()) => Some(def),
+            Err(e) => {
+                let (path, message) = checks::pattern(at, &e);
+                self.err(&path, message);
                 None
             }
         }
+    }
+
+    fn rectangle(&mut self, at: &FieldPath, r: &RawRectangle) -> Option<RectangleOnChart> {
+        let Position(center) = r.center;
+        let center_ok = self.position(&at.key("center"), center);
+        let length_m = self.required(
+            &at.key("length_m"),
+            r.length_m,
+            "give length_m, the length of the area along its major axis",
+        );
+        let width_m = self.required(&at.key("width_m"), r.width_m, "give width_m");
+        let major_bearing_deg = self.required(
+            &at.key("major_bearing_deg"),
+            r.major_bearing_deg,
+            "give major_bearing_deg, the true bearing of the area's long side",
+        );
+        let track_spacing_m = self.required(
+            &at.key("track_spacing_m"),
+            r.track_spacing_m,
+            "give track_spacing_m",
+        );
+        center_ok.then_some(())?;
+        Some(RectangleOnChart {
+            center,
+            length_m: length_m?,
+            width_m: width_m?,
+            major_bearing_deg: major_bearing_deg?,
+            track_spacing_m: track_spacing_m?,
+        })
+    }
+
+    fn square(&mut self, at: &FieldPath, r: &RawSquare) -> Option<PatternDef> {
+        let Position(center) = r.center;
+        let center_ok = self.position(&at.key("center"), center);
+        let track_spacing_m = self.required(
+            &at.key("track_spacing_m"),
+            r.track_spacing_m,
+            "give track_spacing_m",
+        )?;
+        center_ok.then_some(PatternDef::ExpandingSquare {
+            center,
+            track_spacing_m,
+            legs: r.legs.unwrap_or(12),
+            first_leg_bearing_deg: r.first_leg_bearing_deg.unwrap_or(0.0),
+        })
+    }
+
+    fn sector(&mut self, at: &FieldPath, r: &RawSector) -> Option<PatternDef> {
+        let Position(center) = r.center;
+        let center_ok = self.position(&at.key("center"), center);
+        let radius_m = self.required(&at.key("radius_m"), r.radius_m, "give radius_m")?;
+        center_ok.then_some(PatternDef::SectorSearch {
+            center,
+            radius_m,
+            first_leg_bearing_deg: r.first_leg_bearing_deg.unwrap_or(0.0),
+            sectors: r.sectors.unwrap_or(3),
+        })
     }
 
     fn units(&mut self, raw: &RawFile) -> Vec<UnitDef> {
@@ -1054,50 +1062,130 @@ impl Validator<'_> {
         let mut out = Vec::new();
         for (i, u) in raw.units.iter().enumerate() {
             let at = p("unit").index(i);
+            self.id(&at.key("id"), &u.id, "unit id");
             if !seen.insert(u.id.clone()) {
                 self.err(&at.key("id"), format!("unit id \"{}\" is used twice", u.id));
             }
-            let speed_mps = match (u.speed_kn, u.speed_kmh) {
-                (Some(kn), None) => self
-                    .positive(&at.key("speed_kn"), kn, "speed_kn")
-                    .then(|| seekgrid_core::units::knots_to_mps(kn)),
-                (None, Some(kmh)) => self
-                    .positive(&at.key("speed_kmh"), kmh, "speed_kmh")
-                    .then_some(kmh * seekgrid_core::units::MPS_PER_KMH),
-                _ => {
-                    self.err(&at, "give exactly one of speed_kn or speed_kmh");
-                    None
-                }
-            };
-            let ok = self.positive(
-                &at.key("hours_on_scene"),
-                u.hours_on_scene,
-                "hours_on_scene",
-            ) & self.positive(&at.key("sweep_width_m"), u.sweep_width_m, "sweep_width_m");
-            if let Some(m) = u.track_spacing_min_m {
-                self.positive(&at.key("track_spacing_min_m"), m, "track_spacing_min_m");
-            }
-            if u.searchers == Some(0) {
-                self.err(
-                    &at.key("searchers"),
-                    "a ground team needs at least one searcher",
-                );
-            }
-            let detection = self.detection(&at.key("detection"), &u.detection);
-            if let (Some(speed_mps), true) = (speed_mps, ok) {
-                out.push(UnitDef {
-                    id: u.id.clone(),
-                    speed_mps,
-                    hours_on_scene: u.hours_on_scene,
-                    sweep_width_m: u.sweep_width_m,
-                    track_spacing_min_m: u.track_spacing_min_m,
-                    detection,
-                    searchers: u.searchers,
-                });
+            if let Some(d) = self.unit(at, u) {
+                out.push(d);
             }
         }
         out
     }
+
+    fn unit(&mut self, at: FieldPath, u: &RawUnit) -> Option<UnitDef> {
+        let speed_mps = match (u.speed_kn, u.speed_kmh) {
+            (Some(kn), None) => self
+                .positive(&at.key("speed_kn"), kn, "speed_kn")
+                .then(|| seekgrid_core::units::knots_to_mps(kn)),
+            (None, Some(kmh)) => self
+                .positive(&at.key("speed_kmh"), kmh, "speed_kmh")
+                .then_some(kmh * seekgrid_core::units::MPS_PER_KMH),
+            _ => {
+                self.err(&at, "give exactly one of speed_kn or speed_kmh");
+                None
+            }
+        };
+        let ok = self.positive(
+            &at.key("hours_on_scene"),
+            u.hours_on_scene,
+            "hours_on_scene",
+        ) & self.positive(&at.key("sweep_width_m"), u.sweep_width_m, "sweep_width_m");
+        if let Some(m) = u.track_spacing_min_m {
+            self.positive(&at.key("track_spacing_min_m"), m, "track_spacing_min_m");
+        }
+        if u.searchers == Some(0) {
+            self.err(
+                &at.key("searchers"),
+                "a ground team needs at least one searcher",
+            );
+        }
+        let detection = self.detection(&at.key("detection"), u.detection.as_deref());
+        let speed_mps = speed_mps?;
+        ok.then(|| UnitDef {
+            id: u.id.clone(),
+            speed_mps,
+            hours_on_scene: u.hours_on_scene,
+            sweep_width_m: u.sweep_width_m,
+            track_spacing_min_m: u.track_spacing_min_m,
+            detection,
+            searchers: u.searchers,
+            at,
+        })
+    }
+
+    fn outcome(&mut self, o: &RawOutcome, reference_time: Option<Time>) -> Option<Outcome> {
+        let at = p("outcome");
+        match o {
+            RawOutcome::Found(f) => self.found(&at, f, reference_time),
+            RawOutcome::Suspended(s) => self.suspended(&at, s, reference_time),
+        }
+    }
+
+    /// An outcome's time: after the reference time.
+    fn outcome_time(
+        &mut self,
+        at: &FieldPath,
+        t: &TimeText,
+        reference: Option<Time>,
+    ) -> Option<Time> {
+        let time = self.time(at, t)?;
+        if let Some(r) = reference
+            && time < r
+        {
+            self.err(at, format!("the outcome time {} is before reference_time {}; the incident cannot end before the time its scenarios describe", time.to_rfc3339(), r.to_rfc3339()));
+            return None;
+        }
+        Some(time)
+    }
+
+    fn found(&mut self, at: &FieldPath, f: &RawFound, reference: Option<Time>) -> Option<Outcome> {
+        let time = self.outcome_time(&at.key("time"), &f.time, reference);
+        let position = self.required_position(
+            &at.key("position"),
+            f.position,
+            "a found outcome needs position = [lon, lat], where the object was found",
+        );
+        if let Some(e) = f.position_error_m {
+            self.non_negative(&at.key("position_error_m"), e, "position_error_m");
+        }
+        Some(Outcome::Found {
+            time: time?,
+            position: position?,
+            position_error_m: f.position_error_m,
+            note: f.note.clone(),
+        })
+    }
+
+    fn suspended(
+        &mut self,
+        at: &FieldPath,
+        s: &RawSuspended,
+        reference: Option<Time>,
+    ) -> Option<Outcome> {
+        Some(Outcome::Suspended {
+            time: self.outcome_time(&at.key("time"), &s.time, reference)?,
+            note: s.note.clone(),
+        })
+    }
+}
+
+/// Files read once per incident, and what is needed to name their features later.
+#[derive(Default)]
+pub(crate) struct SegmentFiles {
+    /// Segments per file.
+    segments: HashMap<PathBuf, Vec<(String, geo::MultiPolygon<f64>)>>,
+    /// For an area file: the feature of each polygon, in the order of the flattened polygons.
+    pub(crate) feature_of_polygon: HashMap<PathBuf, Vec<usize>>,
+}
+
+/// The feature index of each polygon of the flattened features.
+fn feature_index(features: &[geo::MultiPolygon<f64>]) -> Vec<usize> {
+    features
+        .iter()
+        .enumerate()
+        .flat_map(|(i, mp)| std::iter::repeat_n(i, mp.0.len()))
+        .collect()
 }
 
 #[derive(Clone, Copy, PartialEq, Eq)]

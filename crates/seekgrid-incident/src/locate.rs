@@ -132,6 +132,80 @@ pub fn span_of(text: &str, path: &FieldPath) -> Option<Range<usize>> {
     best
 }
 
+/// The path of the deepest key, value or table of a TOML document that holds the byte
+/// `offset` (`None` when the text is not TOML or nothing holds it).
+#[must_use]
+pub fn path_at(text: &str, offset: usize) -> Option<FieldPath> {
+    let doc = toml_edit::Document::parse(text).ok()?;
+    let mut best = None;
+    walk_table(doc.as_table(), &FieldPath::default(), offset, &mut best);
+    best
+}
+
+fn holds(span: Option<Range<usize>>, offset: usize) -> bool {
+    span.is_some_and(|s| s.start <= offset && offset < s.end.max(s.start + 1))
+}
+
+fn walk_table(t: &toml_edit::Table, at: &FieldPath, offset: usize, best: &mut Option<FieldPath>) {
+    for (k, _) in t.iter() {
+        let Some((key, item)) = t.get_key_value(k) else {
+            continue;
+        };
+        let here = at.key(k);
+        if holds(key.span(), offset) || holds(item.span(), offset) {
+            *best = Some(here.clone());
+        }
+        match item {
+            toml_edit::Item::Table(inner) => {
+                if holds(inner.span(), offset) {
+                    *best = Some(here.clone());
+                }
+                walk_table(inner, &here, offset, best);
+            }
+            toml_edit::Item::ArrayOfTables(a) => {
+                for (i, inner) in a.iter().enumerate() {
+                    let there = here.index(i);
+                    if holds(inner.span(), offset) {
+                        *best = Some(there.clone());
+                    }
+                    walk_table(inner, &there, offset, best);
+                }
+            }
+            toml_edit::Item::Value(v) => walk_value(v, &here, offset, best),
+            toml_edit::Item::None => {}
+        }
+    }
+}
+
+fn walk_value(v: &toml_edit::Value, at: &FieldPath, offset: usize, best: &mut Option<FieldPath>) {
+    match v {
+        toml_edit::Value::InlineTable(t) => {
+            for (k, _) in t.iter() {
+                let Some((key, inner)) = t.get_key_value(k) else {
+                    continue;
+                };
+                let here = at.key(k);
+                if holds(key.span(), offset) || holds(inner.span(), offset) {
+                    *best = Some(here.clone());
+                }
+                if let toml_edit::Item::Value(inner) = inner {
+                    walk_value(inner, &here, offset, best);
+                }
+            }
+        }
+        toml_edit::Value::Array(a) => {
+            for (i, inner) in a.iter().enumerate() {
+                let here = at.index(i);
+                if holds(inner.span(), offset) {
+                    *best = Some(here.clone());
+                }
+                walk_value(inner, &here, offset, best);
+            }
+        }
+        _ => {}
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -157,5 +231,16 @@ mod tests {
         let p = FieldPath::new("scenario").index(0).key("weight");
         let span = span_of(TEXT, &p).unwrap();
         assert!(line_col(TEXT, span.start).0 >= 4);
+    }
+
+    #[test]
+    fn the_path_at_an_offset_is_the_deepest_key_holding_it() {
+        let text =
+            "[grid]\ncell_m = 250\n\n[[scenario]]\nid = \"a\"\nwaypoints = [[1, 2], [3, 4]]\n";
+        let at = |needle: &str| path_at(text, text.find(needle).unwrap()).map(|p| p.to_string());
+        assert_eq!(at("250").as_deref(), Some("grid.cell_m"));
+        assert_eq!(at("[[scenario]]").as_deref(), Some("scenario[0]"));
+        assert_eq!(at("[3, 4]").as_deref(), Some("scenario[0].waypoints[1]"));
+        assert_eq!(at("waypoints").as_deref(), Some("scenario[0].waypoints"));
     }
 }

@@ -1,9 +1,20 @@
 //! The incident after validation: every value checked and typed, every referenced file read.
-//! Positions are still WGS84 lon/lat; the engine (`seekgrid-engine`, module `prepare`) projects them into the working frame.
+//! Positions are still WGS84 lon/lat; the engine (`seekgrid-engine`, module `prepare`) projects
+//! them into the working frame with the conversions at the end of this module, which the
+//! loader also uses (with lon/lat as coordinates) to run the libraries' own checks.
+//!
+//! The vocabulary of the file is the libraries' own: a detection law is a
+//! [`seekgrid_search::DetectionLaw`], a pool a [`seekgrid_prior::Pool`], a ring interpolation a
+//! [`seekgrid_prior::RingInterpolation`], each read by its `parse` and written by its `name`.
 
+use crate::error::{ErrorKind, IncidentError};
+use crate::locate::{FieldPath, line_col, span_of};
 use chrono::{DateTime, Utc};
-use geo::{LineString, MultiPolygon};
+use geo::{Coord, LineString, MultiPolygon, Polygon};
 use seekgrid_core::UtmZone;
+use seekgrid_drift as drift;
+use seekgrid_prior as prior;
+use seekgrid_search as search;
 use std::path::PathBuf;
 
 /// A UTC time.
@@ -34,7 +45,7 @@ pub struct Incident {
     /// Grid settings.
     pub grid: GridSettings,
     /// How the analysts' maps are pooled.
-    pub pool: PoolChoice,
+    pub pool: prior::Pool,
     /// Analysts in file order.
     pub analysts: Vec<AnalystDef>,
     /// Scenarios in file order.
@@ -43,6 +54,8 @@ pub struct Incident {
     pub searches: Vec<SearchDef>,
     /// Units available for the next period.
     pub units: Vec<UnitDef>,
+    /// How the incident ended, if it has.
+    pub outcome: Option<Outcome>,
 }
 
 impl Incident {
@@ -96,15 +109,6 @@ pub struct GridSettings {
     pub max_cells: u64,
 }
 
-/// Opinion pool.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum PoolChoice {
-    /// Weighted average of the analysts' maps (default).
-    Linear,
-    /// Weighted geometric mean, renormalised.
-    Logarithmic,
-}
-
 /// An analyst.
 #[derive(Debug, Clone)]
 pub struct AnalystDef {
@@ -112,6 +116,8 @@ pub struct AnalystDef {
     pub id: String,
     /// Credibility weight as written (not yet normalised).
     pub weight: f64,
+    /// Where it is written (`analyst[i]`).
+    pub at: FieldPath,
 }
 
 /// A scenario.
@@ -125,15 +131,8 @@ pub struct ScenarioDef {
     pub weight: f64,
     /// What the scenario says.
     pub kind: ScenarioKind,
-}
-
-/// How the distance rings are interpolated.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum RingMode {
-    /// Constant density within each ring.
-    UniformPerRing,
-    /// Smooth monotone distance distribution.
-    MonotoneCubic,
+    /// Where it is written (`scenario[i]`).
+    pub at: FieldPath,
 }
 
 /// The kinds of scenario.
@@ -180,7 +179,7 @@ pub enum ScenarioKind {
         /// (fraction, radius metres), ascending.
         quantiles: Vec<(f64, f64)>,
         /// Interpolation between rings.
-        mode: RingMode,
+        mode: prior::RingInterpolation,
     },
     /// Drift from a last known position.
     Drift(Box<DriftDef>),
@@ -285,24 +284,13 @@ pub struct DriftDef {
     pub seed: u64,
 }
 
-/// Detection law named in the file.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum DetectionName {
-    /// Inverse cube (default).
-    InverseCube,
-    /// Exponential (random search).
-    Exponential,
-    /// Definite range.
-    DefiniteRange,
-}
-
 /// A pattern, positions in lon/lat, bearings true.
 #[derive(Debug, Clone)]
 pub enum PatternDef {
     /// Parallel sweep over a rectangle.
-    ParallelSweep(RectanglePattern),
+    ParallelSweep(RectangleOnChart),
     /// Creeping line over a rectangle.
-    CreepingLine(RectanglePattern),
+    CreepingLine(RectangleOnChart),
     /// Expanding square about a datum.
     ExpandingSquare {
         /// Datum [lon, lat].
@@ -327,9 +315,11 @@ pub enum PatternDef {
     },
 }
 
-/// A rectangle pattern.
+/// The rectangle of a parallel sweep or creeping line as written on the chart: centre in
+/// lon/lat, bearing true (the search crate's [`seekgrid_search::Rectangle`] is the same in the
+/// working frame, metres and grid bearing).
 #[derive(Debug, Clone, Copy)]
-pub struct RectanglePattern {
+pub struct RectangleOnChart {
     /// Centre [lon, lat].
     pub center: [f64; 2],
     /// Length along the major axis, metres.
@@ -374,9 +364,16 @@ pub struct SearchDef {
     /// Correction factors.
     pub sweep_width_factors: Vec<f64>,
     /// Detection law.
-    pub detection: DetectionName,
+    pub detection: search::DetectionLaw,
     /// What was covered.
     pub geometry: SearchGeometry,
+    /// With a pattern: the share of its track flown, from its start, in (0, 1] (1 unless the
+    /// search was cut short).
+    pub done_fraction: f64,
+    /// The run id of the plan this search was tasked in, if any.
+    pub tasked_in: Option<String>,
+    /// Where it is written (`search[i]`).
+    pub at: FieldPath,
 }
 
 /// A search unit for the next period.
@@ -393,7 +390,384 @@ pub struct UnitDef {
     /// Smallest track spacing, metres.
     pub track_spacing_min_m: Option<f64>,
     /// Detection law.
-    pub detection: DetectionName,
+    pub detection: search::DetectionLaw,
     /// Ground team: searchers.
     pub searchers: Option<u32>,
+    /// Where it is written (`unit[i]`).
+    pub at: FieldPath,
+}
+
+/// How the incident ended (`[outcome]`).
+#[derive(Debug, Clone, PartialEq)]
+pub enum Outcome {
+    /// The object was found.
+    Found {
+        /// When.
+        time: Time,
+        /// Where, [lon, lat].
+        position: [f64; 2],
+        /// The error of that position, metres, if stated.
+        position_error_m: Option<f64>,
+        /// Free text.
+        note: Option<String>,
+    },
+    /// The search was suspended without finding the object.
+    Suspended {
+        /// When.
+        time: Time,
+        /// Free text.
+        note: Option<String>,
+    },
+}
+
+impl Outcome {
+    /// When the incident ended.
+    #[must_use]
+    pub fn time(&self) -> Time {
+        match self {
+            Self::Found { time, .. } | Self::Suspended { time, .. } => *time,
+        }
+    }
+}
+
+/// One item of the incident file that a later error can concern; the incident turns it into
+/// the file position of its table ([`Incident::error_at`]).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Item {
+    /// `[incident]`.
+    Header,
+    /// `[incident]`'s coastline.
+    Coastline,
+    /// `[grid]` (its `cell_m`).
+    Grid,
+    /// `[prior]` (its `pool`).
+    Prior,
+    /// The `[[analyst]]` of this id.
+    Analyst(String),
+    /// The `[[scenario]]` of this id.
+    Scenario(String),
+    /// The `[[search]]` of this id.
+    Search(String),
+    /// The `[[unit]]` of this id.
+    Unit(String),
+    /// `[outcome]`.
+    Outcome,
+}
+
+impl Incident {
+    /// The path in the file of an item's table or key (a section header when the id is not
+    /// in the incident).
+    #[must_use]
+    pub fn path_of(&self, item: &Item) -> FieldPath {
+        fn find<'a, T>(
+            list: &'a [T],
+            id: &str,
+            of: impl Fn(&'a T) -> (&'a str, &'a FieldPath),
+        ) -> Option<FieldPath> {
+            list.iter()
+                .map(of)
+                .find(|(i, _)| *i == id)
+                .map(|(_, at)| at.clone())
+        }
+        match item {
+            Item::Header => FieldPath::new("incident"),
+            Item::Coastline => FieldPath::new("incident").key("coastline"),
+            Item::Grid => FieldPath::new("grid").key("cell_m"),
+            Item::Prior => FieldPath::new("prior").key("pool"),
+            Item::Analyst(id) => find(&self.analysts, id, |a| (&a.id, &a.at))
+                .unwrap_or_else(|| FieldPath::new("analyst")),
+            Item::Scenario(id) => find(&self.scenarios, id, |s| (&s.id, &s.at))
+                .unwrap_or_else(|| FieldPath::new("scenario")),
+            Item::Search(id) => find(&self.searches, id, |s| (&s.id, &s.at))
+                .unwrap_or_else(|| FieldPath::new("search")),
+            Item::Unit(id) => {
+                find(&self.units, id, |u| (&u.id, &u.at)).unwrap_or_else(|| FieldPath::new("unit"))
+            }
+            Item::Outcome => FieldPath::new("outcome"),
+        }
+    }
+
+    /// Line and column (from 1) of a path in the incident file: of its value, or of the nearest
+    /// enclosing table that is written.
+    #[must_use]
+    pub fn locate(&self, path: &FieldPath) -> Option<(usize, usize)> {
+        span_of(&self.text, path).map(|s| line_col(&self.text, s.start))
+    }
+
+    /// An error about `item`, at its place in the incident file (`FILE:LINE:COL: message`).
+    #[must_use]
+    pub fn error_at(&self, item: &Item, message: impl Into<String>) -> IncidentError {
+        let (line, col) = self.locate(&self.path_of(item)).unzip();
+        IncidentError {
+            kind: ErrorKind::Invalid,
+            file: self.path.clone(),
+            line,
+            col,
+            message: message.into(),
+        }
+    }
+}
+
+impl ScenarioKind {
+    /// The kind as written in the file (`kind = "point"`, ...).
+    #[must_use]
+    pub fn name(&self) -> &'static str {
+        match self {
+            Self::Point { .. } => "point",
+            Self::Route { .. } => "route",
+            Self::Area { .. } => "area",
+            Self::Segments { .. } => "segments",
+            Self::Rings { .. } => "rings",
+            Self::Drift(_) => "drift",
+        }
+    }
+
+    /// The prior crate's shape of a stationary scenario, each position placed by `xy` and each
+    /// true bearing turned by `bearing` (true bearing, where) into the frame's; `None` for a
+    /// drift scenario.
+    ///
+    /// # Errors
+    /// The first error of `xy`.
+    pub fn shape<E>(
+        &self,
+        xy: &impl Fn([f64; 2]) -> Result<Coord<f64>, E>,
+        bearing: &impl Fn(f64, [f64; 2]) -> f64,
+    ) -> Result<Option<prior::ScenarioShape>, E> {
+        Ok(Some(match self {
+            Self::Point {
+                position,
+                sigma_major_m,
+                sigma_minor_m,
+                major_bearing_deg,
+            } => prior::ScenarioShape::Point {
+                center: xy(*position)?,
+                sigma_major_m: *sigma_major_m,
+                sigma_minor_m: *sigma_minor_m,
+                major_grid_bearing_deg: bearing(*major_bearing_deg, *position),
+            },
+            Self::Route {
+                waypoints,
+                cross_track_sigma_m,
+            } => prior::ScenarioShape::Route {
+                waypoints: waypoints.iter().map(|w| xy(*w)).collect::<Result<_, _>>()?,
+                cross_track_sigma_m: *cross_track_sigma_m,
+            },
+            Self::Area { polygons, .. } => prior::ScenarioShape::Area {
+                polygons: place_polygons(polygons, xy)?,
+            },
+            Self::Segments { segments, poa, .. } => prior::ScenarioShape::Segments {
+                segments: segments
+                    .iter()
+                    .map(|(id, mp)| {
+                        Ok(prior::Segment {
+                            id: id.clone(),
+                            polygons: place_polygons(mp, xy)?,
+                        })
+                    })
+                    .collect::<Result<_, E>>()?,
+                poa: poa.clone(),
+            },
+            Self::Rings {
+                position,
+                quantiles,
+                mode,
+            } => prior::ScenarioShape::Rings {
+                center: xy(*position)?,
+                quantiles: quantiles.clone(),
+                interpolation: *mode,
+            },
+            Self::Drift(_) => return Ok(None),
+        }))
+    }
+}
+
+/// Polygons with every vertex placed by `xy` (at seekgrid's cell sizes the curvature of a
+/// projected edge is far below a cell).
+///
+/// # Errors
+/// The first error of `xy`.
+pub fn place_polygons<E>(
+    mp: &MultiPolygon<f64>,
+    xy: &impl Fn([f64; 2]) -> Result<Coord<f64>, E>,
+) -> Result<MultiPolygon<f64>, E> {
+    let ring = |ls: &LineString<f64>| -> Result<LineString<f64>, E> {
+        ls.0.iter()
+            .map(|c| xy([c.x, c.y]))
+            .collect::<Result<Vec<_>, _>>()
+            .map(LineString)
+    };
+    mp.0.iter()
+        .map(|p| {
+            Ok(Polygon::new(
+                ring(p.exterior())?,
+                p.interiors().iter().map(ring).collect::<Result<_, _>>()?,
+            ))
+        })
+        .collect::<Result<Vec<_>, E>>()
+        .map(MultiPolygon)
+}
+
+impl PatternDef {
+    /// The search crate's pattern, its centre placed by `xy` and its true bearings turned by
+    /// `bearing` (true bearing, where) into the frame's.
+    ///
+    /// # Errors
+    /// The error of `xy`.
+    pub fn to_search<E>(
+        &self,
+        xy: &impl Fn([f64; 2]) -> Result<Coord<f64>, E>,
+        bearing: &impl Fn(f64, [f64; 2]) -> f64,
+    ) -> Result<search::Pattern, E> {
+        let rectangle = |r: &RectangleOnChart| -> Result<search::Rectangle, E> {
+            Ok(search::Rectangle {
+                center: xy(r.center)?,
+                length_m: r.length_m,
+                width_m: r.width_m,
+                major_grid_bearing_deg: bearing(r.major_bearing_deg, r.center),
+                track_spacing_m: r.track_spacing_m,
+            })
+        };
+        Ok(match self {
+            Self::ParallelSweep(r) => search::Pattern::ParallelSweep(rectangle(r)?),
+            Self::CreepingLine(r) => search::Pattern::CreepingLine(rectangle(r)?),
+            Self::ExpandingSquare {
+                center,
+                track_spacing_m,
+                legs,
+                first_leg_bearing_deg,
+            } => search::Pattern::ExpandingSquare {
+                center: xy(*center)?,
+                track_spacing_m: *track_spacing_m,
+                legs: *legs,
+                first_leg_grid_bearing_deg: bearing(*first_leg_bearing_deg, *center),
+            },
+            Self::SectorSearch {
+                center,
+                radius_m,
+                first_leg_bearing_deg,
+                sectors,
+            } => search::Pattern::SectorSearch {
+                center: xy(*center)?,
+                radius_m: *radius_m,
+                first_leg_grid_bearing_deg: bearing(*first_leg_bearing_deg, *center),
+                sectors: *sectors,
+            },
+        })
+    }
+
+    /// The centre or datum, [lon, lat].
+    #[must_use]
+    pub fn center(&self) -> [f64; 2] {
+        match self {
+            Self::ParallelSweep(r) | Self::CreepingLine(r) => r.center,
+            Self::ExpandingSquare { center, .. } | Self::SectorSearch { center, .. } => *center,
+        }
+    }
+}
+
+impl LeewayDef {
+    /// The drift crate's leeway coefficients.
+    #[must_use]
+    pub fn coefficients(&self) -> drift::Leeway {
+        drift::Leeway {
+            downwind_slope: self.downwind_slope,
+            downwind_offset_kn: self.downwind_offset_kn,
+            downwind_sigma_kn: self.downwind_sigma_kn,
+            crosswind_slope: self.crosswind_slope,
+            crosswind_offset_kn: self.crosswind_offset_kn,
+            crosswind_sigma_kn: self.crosswind_sigma_kn,
+            jibe_per_h: self.jibe_per_h,
+        }
+    }
+}
+
+impl VectorSample {
+    /// The drift crate's estimate.
+    #[must_use]
+    pub fn estimate(&self) -> drift::VectorEstimate {
+        drift::VectorEstimate {
+            speed_kn: self.speed_kn,
+            direction_deg: self.direction_deg,
+            speed_sigma_kn: self.speed_sigma_kn,
+            direction_sigma_deg: self.direction_sigma_deg,
+        }
+    }
+}
+
+impl VectorDef {
+    /// The drift crate's environment (a gridded field is built into its lattice here).
+    ///
+    /// # Errors
+    /// [`drift::DriftError`] from [`drift::GriddedField::from_samples`]: an incomplete or
+    /// uneven lattice, a bad sigma.
+    pub fn environment(&self) -> Result<drift::Environment, drift::DriftError> {
+        Ok(match self {
+            Self::Constant(s) => drift::Environment::Constant(s.estimate()),
+            Self::Series { samples, .. } => drift::Environment::Series(
+                samples.iter().map(|(t, s)| (*t, s.estimate())).collect(),
+            ),
+            Self::Field {
+                samples,
+                speed_sigma_kn,
+                direction_sigma_deg,
+                ..
+            } => {
+                let nodes: Vec<drift::GridSample> = samples
+                    .iter()
+                    .map(|s| drift::GridSample {
+                        lon_deg: s.lon,
+                        lat_deg: s.lat,
+                        time: s.time,
+                        u_kn: s.u_kn,
+                        v_kn: s.v_kn,
+                    })
+                    .collect();
+                drift::Environment::Gridded(drift::GriddedField::from_samples(
+                    &nodes,
+                    *speed_sigma_kn,
+                    *direction_sigma_deg,
+                )?)
+            }
+        })
+    }
+}
+
+impl DriftDef {
+    /// The drift crate's scenario.
+    ///
+    /// # Errors
+    /// [`drift::DriftError`] naming `current` or `wind` when a gridded field cannot be built.
+    pub fn scenario(&self) -> Result<drift::DriftScenario, drift::DriftError> {
+        // The drift crate names a gridded field's fields `gridded.*`; say which vector.
+        let named = |which: &str, e: drift::DriftError| match e {
+            drift::DriftError::BadGrid { what, .. } => drift::DriftError::BadGrid {
+                field: which.to_owned(),
+                what,
+            },
+            drift::DriftError::NotFinite { field, value } => drift::DriftError::NotFinite {
+                field: field.replacen("gridded", which, 1),
+                value,
+            },
+            drift::DriftError::Negative { field, value } => drift::DriftError::Negative {
+                field: field.replacen("gridded", which, 1),
+                value,
+            },
+            other => other,
+        };
+        Ok(drift::DriftScenario {
+            lkp_lon_lat: (self.position[0], self.position[1]),
+            position_sigma_m: self.position_sigma_m,
+            adrift_earliest: self.adrift_earliest,
+            adrift_latest: self.adrift_latest,
+            current: self
+                .current
+                .environment()
+                .map_err(|e| named("current", e))?,
+            wind: self.wind.environment().map_err(|e| named("wind", e))?,
+            leeway: self.leeway.coefficients(),
+            diffusivity_m2_s: self.diffusivity_m2_s,
+            particles: self.particles,
+            seed: self.seed,
+        })
+    }
 }

@@ -1,7 +1,8 @@
 //! Reading and validating incident files: accepted shapes and the line/column of each error.
 
-use seekgrid_incident::model::{DetectionName, PatternDef, ScenarioKind, SearchGeometry};
+use seekgrid_incident::model::{PatternDef, ScenarioKind, SearchGeometry};
 use seekgrid_incident::{ErrorKind, IncidentErrors, parse};
+use seekgrid_search::DetectionLaw;
 use std::path::{Path, PathBuf};
 
 fn dir() -> tempfile::TempDir {
@@ -231,7 +232,7 @@ fn searches_with_a_pattern_or_a_track_are_read() {
     );
     let inc = parse_in(d.path(), &text).unwrap();
     assert_eq!(inc.searches.len(), 2);
-    assert_eq!(inc.searches[0].detection, DetectionName::Exponential);
+    assert_eq!(inc.searches[0].detection, DetectionLaw::Exponential);
     assert!(matches!(
         inc.searches[0].geometry,
         SearchGeometry::Pattern(PatternDef::ParallelSweep(_))

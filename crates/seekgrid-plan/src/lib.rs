@@ -61,7 +61,7 @@ mod unit;
 
 pub use bound::{OptimalBound, optimal_bound};
 pub use error::PlanError;
-pub use options::{PlanOptions, RectanglePattern};
+pub use options::{PatternOverRectangle, PlanOptions};
 pub use plan::{Leg, Plan, UnitAssignment, plan};
 pub use segments::{SegmentAssignment, SegmentPlan, assign_teams_to_segments};
 pub use unit::{UnitKind, UnitSpec};

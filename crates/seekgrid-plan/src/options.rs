@@ -4,7 +4,7 @@ use crate::error::PlanError;
 
 /// The pattern flown over a rectangular area.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum RectanglePattern {
+pub enum PatternOverRectangle {
     /// Parallel sweep: legs along the long side of the rectangle (fewest turns).
     ParallelSweep,
     /// Creeping line: legs across the long side, progressing along it from the end that holds
@@ -50,7 +50,7 @@ pub struct PlanOptions {
     /// one start only).
     pub restarts: usize,
     /// The pattern flown over rectangles (default parallel sweep).
-    pub rectangle_pattern: RectanglePattern,
+    pub rectangle_pattern: PatternOverRectangle,
     /// Tight datum: an expanding square is tried when the 90 % containment area of the
     /// residual belief is at most this fraction of the unit's effort W x L, the area it
     /// sweeps at coverage 1 (default 0.25).
@@ -88,7 +88,7 @@ impl Default for PlanOptions {
             coverage_steps: 9,
             refinement_rounds: 2,
             restarts: 1,
-            rectangle_pattern: RectanglePattern::ParallelSweep,
+            rectangle_pattern: PatternOverRectangle::ParallelSweep,
             tight_datum_fraction: 0.25,
             very_tight_datum_fraction: 0.05,
             sector_search_min_speed_mps: 20.6,

@@ -3,14 +3,15 @@
 use crate::bound::{OptimalBound, Searchable, bound_of};
 use crate::error::PlanError;
 use crate::geometry::{Convex, RowPrefix, axes, rectangle};
-use crate::options::{PlanOptions, RectanglePattern};
-use crate::scan::{RectSize, ScanSettings, scan};
-use crate::shape::{Evaluator, Shape, Steps, UnitCtx, layer_score, refine, sector_track_m};
+use crate::options::{PatternOverRectangle, PlanOptions};
+use crate::scan::{RectSize, ScanRange, ScanSettings, scan};
+use crate::shape::{CandidateArea, Evaluator, Steps, UnitCtx, layer_score, refine, sector_track_m};
 use crate::unit::{UnitKind, UnitSpec, validate_units};
 use geo::Coord;
 use ndarray::Array2;
+use seekgrid_core::units::SECONDS_PER_HOUR;
 use seekgrid_core::{Belief, GridSpec, neumaier_sum};
-use seekgrid_search::{DetectionLaw, Pattern, PodLayer, SweepWidth};
+use seekgrid_search::{DetectionLaw, Pattern, PodLayer, Rectangle, SweepWidth};
 
 /// One straight leg of a pattern.
 #[derive(Clone, Debug, PartialEq)]
@@ -89,7 +90,7 @@ pub struct Plan {
 
 #[derive(Clone)]
 struct Placed {
-    shape: Shape,
+    shape: CandidateArea,
     poly: Convex,
     layer: PodLayer,
     particle_pod: Vec<f64>,
@@ -346,7 +347,7 @@ impl Planner<'_> {
         &self,
         k: usize,
         placed: &[Option<Placed>],
-        start: Shape,
+        start: CandidateArea,
         keep_clear: Option<&Convex>,
     ) -> Result<Option<Placed>, PlanError> {
         let u = &self.ctxs[k];
@@ -375,7 +376,7 @@ impl Planner<'_> {
             },
             rel: 0.1,
         };
-        let exact = |sh: &Shape| {
+        let exact = |sh: &CandidateArea| {
             sh.pod_layer(u, &self.grid)
                 .map(|l| layer_score(&residual, &l))
                 .unwrap_or(f64::NEG_INFINITY)
@@ -449,7 +450,7 @@ impl Planner<'_> {
     fn finish(
         &self,
         u: &UnitCtx,
-        shape: Shape,
+        shape: CandidateArea,
         reason: Option<String>,
     ) -> Result<Placed, PlanError> {
         let layer = shape.pod_layer(u, &self.grid)?;
@@ -484,12 +485,12 @@ impl Planner<'_> {
             max_cells_per_axis: self.o.max_scan_cells_per_axis,
             placed: &others,
             overlap_tolerance_m: self.overlap_tolerance_m,
-            full_range: false,
+            range: ScanRange::NearMass,
         };
         let mut hits = scan(&self.grid, &residual, &sizes, &settings);
         if hits.is_empty() && !others.is_empty() {
             let wide = ScanSettings {
-                full_range: true,
+                range: ScanRange::Everywhere,
                 ..settings
             };
             hits = scan(&self.grid, &residual, &sizes, &wide);
@@ -501,12 +502,12 @@ impl Planner<'_> {
         hits = keep.into_iter().map(|i| hits[i]).collect();
         let cell = self.grid.cell_m();
         let step_deg = 0.5 * self.o.orientation_step_deg;
-        let mut starts: Vec<(Shape, Steps)> = hits
+        let mut starts: Vec<(CandidateArea, Steps)> = hits
             .iter()
             .map(|h| {
                 let z = &sizes[h.size];
                 (
-                    Shape::Rect {
+                    CandidateArea::Rect {
                         center: h.center,
                         theta_deg: h.theta_deg,
                         spacing_m: z.spacing_m,
@@ -536,7 +537,7 @@ impl Planner<'_> {
                 },
             ));
         }
-        let exact = |sh: &Shape| {
+        let exact = |sh: &CandidateArea| {
             sh.pod_layer(u, &self.grid)
                 .map(|l| layer_score(&residual, &l))
                 .unwrap_or(f64::NEG_INFINITY)
@@ -560,7 +561,7 @@ impl Planner<'_> {
                 let c0 = rect.center();
                 let th0 = rect_theta(&rect);
                 let step = (swept.sqrt() / 8.0).max(cell);
-                let mut es_starts = vec![Shape::Square {
+                let mut es_starts = vec![CandidateArea::Square {
                     center: c0,
                     theta_deg: th0,
                     spacing_m: rect_spacing(&rect),
@@ -572,7 +573,7 @@ impl Planner<'_> {
                     let r0 = (1.5 * (a90 / std::f64::consts::PI).sqrt())
                         .max(u.w_eff)
                         .min(r_max);
-                    ss_starts.push(Shape::Sector {
+                    ss_starts.push(CandidateArea::Sector {
                         center: c0,
                         theta_deg: th0,
                         radius_m: r0,
@@ -580,13 +581,13 @@ impl Planner<'_> {
                 }
                 if let Some(inc) = &incumbent {
                     match inc.shape {
-                        Shape::Square { .. } => es_starts.push(inc.shape.clone()),
-                        Shape::Sector { .. } => ss_starts.push(inc.shape.clone()),
-                        Shape::Rect { .. } => {}
+                        CandidateArea::Square { .. } => es_starts.push(inc.shape.clone()),
+                        CandidateArea::Sector { .. } => ss_starts.push(inc.shape.clone()),
+                        CandidateArea::Rect { .. } => {}
                     }
                 }
-                let run = |v: &[Shape]| -> Option<(Shape, f64)> {
-                    let st: Vec<(Shape, Steps)> = v
+                let run = |v: &[CandidateArea]| -> Option<(CandidateArea, f64)> {
+                    let st: Vec<(CandidateArea, Steps)> = v
                         .iter()
                         .map(|sh| {
                             (
@@ -653,23 +654,25 @@ impl Planner<'_> {
     }
 }
 
-fn rect_spacing(s: &Shape) -> f64 {
+fn rect_spacing(s: &CandidateArea) -> f64 {
     match *s {
-        Shape::Rect { spacing_m, .. } | Shape::Square { spacing_m, .. } => spacing_m,
-        Shape::Sector { radius_m, .. } => radius_m,
+        CandidateArea::Rect { spacing_m, .. } | CandidateArea::Square { spacing_m, .. } => {
+            spacing_m
+        }
+        CandidateArea::Sector { radius_m, .. } => radius_m,
     }
 }
 
-fn rect_theta(s: &Shape) -> f64 {
+fn rect_theta(s: &CandidateArea) -> f64 {
     match *s {
-        Shape::Rect { theta_deg, .. }
-        | Shape::Square { theta_deg, .. }
-        | Shape::Sector { theta_deg, .. } => theta_deg,
+        CandidateArea::Rect { theta_deg, .. }
+        | CandidateArea::Square { theta_deg, .. }
+        | CandidateArea::Sector { theta_deg, .. } => theta_deg,
     }
 }
 
 /// The best scored shape; ties go to the lowest index. `None` when none has a finite score.
-fn argmax(v: &[(Shape, f64)]) -> Option<(Shape, f64)> {
+fn argmax(v: &[(CandidateArea, f64)]) -> Option<(CandidateArea, f64)> {
     let mut best: Option<usize> = None;
     for (i, (_, s)) in v.iter().enumerate() {
         if s.is_finite() && best.is_none_or(|b| *s > v[b].1) {
@@ -859,22 +862,54 @@ fn joint_pos(s: &Searchable, placed: &[Placed]) -> f64 {
     cells + neumaier_sum(s.weights.iter().zip(&psurv).map(|(w, sv)| w * (1.0 - sv)))
 }
 
+/// One half of a rectangle: cut across its long side (rear or front along `u`) or along it
+/// (left or right of it, along `v`), with `(u, v)` the rectangle's [`axes`].
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Half {
+    /// The `-u` half of the long side.
+    Rear,
+    /// The `+u` half of the long side.
+    Front,
+    /// The `-v` half, left of the long side's direction.
+    Left,
+    /// The `+v` half, right of it.
+    Right,
+}
+
+impl Half {
+    /// Whether the cut runs across the long side (the half lies along it).
+    fn is_along(self) -> bool {
+        matches!(self, Self::Rear | Self::Front)
+    }
+
+    /// -1 for the rear and left halves, +1 for the front and right halves.
+    fn sign(self) -> f64 {
+        match self {
+            Self::Rear | Self::Left => -1.0,
+            Self::Front | Self::Right => 1.0,
+        }
+    }
+}
+
+/// Probability at plan start under one half of the rectangle centred at `c` with its long
+/// side `long` along `theta` and its short side `short`, metres.
 fn half_mass(
     prefix: &RowPrefix,
     c: Coord<f64>,
     theta: f64,
     long: f64,
     short: f64,
-    side: f64,
-    along: bool,
+    half: Half,
 ) -> f64 {
     let (u, v) = axes(theta);
+    let along = half.is_along();
     let (dir, l, s) = if along {
         (u, 0.5 * long, short)
     } else {
         (v, long, 0.5 * short)
     };
     let off = if along { 0.25 * long } else { 0.25 * short };
+    let side = half.sign();
     let cc = Coord {
         x: c.x + side * off * dir.x,
         y: c.y + side * off * dir.y,
@@ -885,7 +920,7 @@ fn half_mass(
 /// The flown pattern of a placed area (direction chosen so that the search starts on the
 /// side holding more probability at plan start).
 fn flown_pattern(
-    sh: &Shape,
+    sh: &CandidateArea,
     u: &UnitCtx,
     prefix: &RowPrefix,
     o: &PlanOptions,
@@ -893,7 +928,7 @@ fn flown_pattern(
     notes: &mut Vec<String>,
 ) -> Pattern {
     match *sh {
-        Shape::Rect {
+        CandidateArea::Rect {
             center,
             theta_deg,
             spacing_m,
@@ -901,7 +936,7 @@ fn flown_pattern(
         } => {
             let long = u.track_m / legs as f64;
             let short = legs as f64 * spacing_m;
-            let creeping = o.rectangle_pattern == RectanglePattern::CreepingLine;
+            let creeping = o.rectangle_pattern == PatternOverRectangle::CreepingLine;
             if creeping && legs >= 2 {
                 // Progress along the long side from its rear end (-u half) with more mass;
                 // legs run across it.
@@ -910,16 +945,16 @@ fn flown_pattern(
                 } else {
                     (theta_deg, long, short)
                 };
-                let rear = half_mass(prefix, center, th, ln, sh, -1.0, true);
-                let front = half_mass(prefix, center, th, ln, sh, 1.0, true);
+                let rear = half_mass(prefix, center, th, ln, sh, Half::Rear);
+                let front = half_mass(prefix, center, th, ln, sh, Half::Front);
                 let bearing = if rear >= front { th } else { th + 180.0 };
-                return Pattern::CreepingLine {
+                return Pattern::CreepingLine(Rectangle {
                     center,
                     length_m: ln,
                     width_m: sh,
                     major_grid_bearing_deg: bearing.rem_euclid(360.0),
                     track_spacing_m: spacing_m,
-                };
+                });
             }
             if creeping {
                 notes.push(format!(
@@ -929,13 +964,13 @@ fn flown_pattern(
             // Legs along the long side (fewest turns) when the whole legs of that fit the
             // track; the area and its POD are the same either way.
             let (theta, long, short) = if short > long {
-                let turned = Pattern::ParallelSweep {
+                let turned = Pattern::ParallelSweep(Rectangle {
                     center,
                     length_m: short,
                     width_m: long,
                     major_grid_bearing_deg: theta_deg + 90.0,
                     track_spacing_m: spacing_m,
-                };
+                });
                 if turned.validate().is_ok() && turned.track_length_m() <= u.track_m * (1.0 + 1e-9)
                 {
                     (theta_deg + 90.0, short, long)
@@ -946,16 +981,16 @@ fn flown_pattern(
                 (theta_deg, long, short)
             };
             // First leg on the left of the major bearing (-v half).
-            let left = half_mass(prefix, center, theta, long, short, -1.0, false);
-            let right = half_mass(prefix, center, theta, long, short, 1.0, false);
+            let left = half_mass(prefix, center, theta, long, short, Half::Left);
+            let right = half_mass(prefix, center, theta, long, short, Half::Right);
             let bearing = if left >= right { theta } else { theta + 180.0 };
-            Pattern::ParallelSweep {
+            Pattern::ParallelSweep(Rectangle {
                 center,
                 length_m: long,
                 width_m: short,
                 major_grid_bearing_deg: bearing.rem_euclid(360.0),
                 track_spacing_m: spacing_m,
-            }
+            })
         }
         _ => sh.pattern(u),
     }
@@ -1016,7 +1051,8 @@ fn assemble(
             })
             .collect();
         let track_length_m = pattern.track_length_m();
-        let hours_needed = track_length_m / (spec.speed_mps * 3600.0 * (1.0 - o.turn_allowance));
+        let hours_needed =
+            track_length_m / (spec.speed_mps * SECONDS_PER_HOUR * (1.0 - o.turn_allowance));
         if hours_needed > spec.hours_on_scene * (1.0 + 1e-9) {
             notes.push(format!(
                 "unit {}: the pattern's whole legs need {:.3} h, more than the {:.3} h on scene",
@@ -1025,7 +1061,7 @@ fn assemble(
         }
         let area_m2 = p.poly.area();
         let track_spacing_m = match p.shape {
-            Shape::Sector { .. } => u.w_eff / coverage,
+            CandidateArea::Sector { .. } => u.w_eff / coverage,
             _ => rect_spacing(&p.shape) / u.searchers,
         };
         if u.team {

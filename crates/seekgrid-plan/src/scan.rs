@@ -45,8 +45,41 @@ pub(crate) struct ScanSettings<'a> {
     pub(crate) max_cells_per_axis: usize,
     pub(crate) placed: &'a [Convex],
     pub(crate) overlap_tolerance_m: f64,
-    /// Scan every position touching the raster, not only centres over the mass.
-    pub(crate) full_range: bool,
+    /// Which positions of each rectangle are scored.
+    pub(crate) range: ScanRange,
+}
+
+/// Which positions of a rectangle a scan scores.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub(crate) enum ScanRange {
+    /// Centres within the box that holds the mass, with one cell of slack: moving a rectangle
+    /// whose centre lies outside it towards it never loses mass.
+    NearMass,
+    /// Every position that touches the raster (used when the positions near the mass are all
+    /// blocked by placed areas).
+    Everywhere,
+}
+
+/// A box in the coordinates along one orientation's axes `(u, v)`, metres.
+#[derive(Clone, Copy, Debug, PartialEq)]
+struct AxisBox {
+    a_min: f64,
+    a_max: f64,
+    b_min: f64,
+    b_max: f64,
+}
+
+/// The raster of one orientation and what its positions are scored against: the axes `(u,
+/// v)`, the raster's origin `(a0, b0)` along them (metres), the box holding the mass, the
+/// placed areas and the range of positions scored.
+struct OrientationScan<'a> {
+    u: Coord<f64>,
+    v: Coord<f64>,
+    a0: f64,
+    b0: f64,
+    mass: AxisBox,
+    blockers: &'a [Blocker],
+    range: ScanRange,
 }
 
 struct Block {
@@ -208,26 +241,13 @@ fn scan_orientation(
     s: &ScanSettings<'_>,
 ) -> Vec<ScanHit> {
     let (u, v) = axes(theta);
-    let (mut a_min, mut a_max, mut b_min, mut b_max) = (
-        f64::INFINITY,
-        f64::NEG_INFINITY,
-        f64::INFINITY,
-        f64::NEG_INFINITY,
-    );
-    for bl in blocks {
-        let a = bl.x * u.x + bl.y * u.y;
-        let b = bl.x * v.x + bl.y * v.y;
-        a_min = a_min.min(a);
-        a_max = a_max.max(a);
-        b_min = b_min.min(b);
-        b_max = b_max.max(b);
-    }
+    let mass = AxisBox::of_blocks(blocks, u, v);
     // One spare cell on each side for the bilinear splat; the first mass point sits at the
     // centre of a cell, so that at 0° and 90° the grid's cells land whole in the raster's.
-    let a0 = a_min - 1.5 * h0;
-    let b0 = b_min - 1.5 * h0;
-    let na = ((a_max - a0) / h0).ceil() as usize + 2;
-    let nb = ((b_max - b0) / h0).ceil() as usize + 2;
+    let a0 = mass.a_min - 1.5 * h0;
+    let b0 = mass.b_min - 1.5 * h0;
+    let na = ((mass.a_max - a0) / h0).ceil() as usize + 2;
+    let nb = ((mass.b_max - b0) / h0).ceil() as usize + 2;
     let mut raster = vec![0.0; na * nb];
     for bl in blocks {
         let fa = (bl.x * u.x + bl.y * u.y - a0) / h0 - 0.5;
@@ -281,6 +301,15 @@ fn scan_orientation(
         .zip(&pads)
         .map(|(sat, &p)| (p > 0).then(|| sat.padded(p)))
         .collect();
+    let scan_at = OrientationScan {
+        u,
+        v,
+        a0,
+        b0,
+        mass,
+        blockers: &blockers,
+        range: s.range,
+    };
     sizes
         .iter()
         .enumerate()
@@ -288,26 +317,15 @@ fn scan_orientation(
             let level = level_of(z);
             let h = h0 * (1u64 << level) as f64;
             let table = padded[level].as_ref().expect("padded for its sizes");
-            best_position(
-                &levels[level],
-                table,
-                z,
-                h,
-                a0,
-                b0,
-                u,
-                v,
-                &blockers,
-                (a_min, a_max, b_min, b_max),
-                s.full_range,
-            )
-            .map(|(score, center)| ScanHit {
-                score,
-                theta_deg: theta,
-                size: idx,
-                center,
-                cell_m: h,
-            })
+            scan_at
+                .best_position(&levels[level], table, z, h)
+                .map(|(score, center)| ScanHit {
+                    score,
+                    theta_deg: theta,
+                    size: idx,
+                    center,
+                    cell_m: h,
+                })
         })
         .collect()
 }
@@ -399,116 +417,136 @@ impl Blocker {
     }
 }
 
-#[allow(clippy::too_many_arguments)]
-fn best_position(
-    sat: &Sat,
-    table: &Padded,
-    z: &RectSize,
-    h: f64,
-    a0: f64,
-    b0: f64,
-    u: Coord<f64>,
-    v: Coord<f64>,
-    blockers: &[Blocker],
-    region: (f64, f64, f64, f64),
-    full: bool,
-) -> Option<(f64, Coord<f64>)> {
-    let la = z.long_m / h;
-    let lb = z.short_m / h;
-    let (ia, ib) = (la.floor() as isize, lb.floor() as isize);
-    let (fa, fb) = (la - ia as f64, lb - ib as f64);
-    let w00 = (1.0 - fa) * (1.0 - fb);
-    let w10 = fa * (1.0 - fb);
-    let w01 = (1.0 - fa) * fb;
-    let w11 = fa * fb;
-    let (ha, hb) = (0.5 * z.long_m, 0.5 * z.short_m);
-    let b_start = b0 + 0.5 * lb * h;
-    let mut best: Option<(f64, isize, isize)> = None;
-    let mut blocked: Vec<(isize, isize)> = Vec::with_capacity(blockers.len());
-    let (na, nb) = (sat.na as isize, sat.nb as isize);
-    // Centres within the region that holds mass (one cell of slack): moving a rectangle whose
-    // centre lies outside it towards it never loses mass. `full` scans every position that
-    // touches the raster instead (used when the region's positions are all blocked).
-    let (mut i_first, mut i_last) = (-(ia + 1), na);
-    let (mut j_first, mut j_last) = (-(ib + 1), nb);
-    if !full {
-        let (ra0, ra1) = ((region.0 - a0) / h, (region.1 - a0) / h);
-        let (rb0, rb1) = ((region.2 - b0) / h, (region.3 - b0) / h);
-        i_first = i_first.max((ra0 - 0.5 * la).floor() as isize - 1);
-        i_last = i_last.min((ra1 - 0.5 * la).ceil() as isize + 1);
-        j_first = j_first.max((rb0 - 0.5 * lb).floor() as isize - 1);
-        j_last = j_last.min((rb1 - 0.5 * lb).ceil() as isize + 1);
+impl AxisBox {
+    /// The box of the blocks' centres along `(u, v)`.
+    fn of_blocks(blocks: &[Block], u: Coord<f64>, v: Coord<f64>) -> Self {
+        let mut bx = Self {
+            a_min: f64::INFINITY,
+            a_max: f64::NEG_INFINITY,
+            b_min: f64::INFINITY,
+            b_max: f64::NEG_INFINITY,
+        };
+        for bl in blocks {
+            let a = bl.x * u.x + bl.y * u.y;
+            let b = bl.x * v.x + bl.y * v.y;
+            bx.a_min = bx.a_min.min(a);
+            bx.a_max = bx.a_max.max(a);
+            bx.b_min = bx.b_min.min(b);
+            bx.b_max = bx.b_max.max(b);
+        }
+        bx
     }
-    for i in i_first..=i_last {
-        let a_c = a0 + (i as f64 + 0.5 * la) * h;
-        // Blocked positions j: l < j < h, as inclusive integer ranges.
-        blocked.clear();
-        for bl in blockers {
-            let (l, hh) = bl.blocked(a_c, b_start, h, ha, hb);
-            if l < hh {
-                let lo = if l.is_finite() {
-                    (l.floor() as isize + 1).max(j_first)
-                } else {
-                    j_first
-                };
-                let hi = if hh.is_finite() {
-                    (hh.ceil() as isize - 1).min(j_last)
+}
+
+impl OrientationScan<'_> {
+    /// The best clear position of a rectangle of size `z` on the level with cells `h` metres
+    /// (`sat` its table, `table` the same padded), as (score, centre); `None` when every
+    /// position is blocked.
+    fn best_position(
+        &self,
+        sat: &Sat,
+        table: &Padded,
+        z: &RectSize,
+        h: f64,
+    ) -> Option<(f64, Coord<f64>)> {
+        let (a0, b0, u, v) = (self.a0, self.b0, self.u, self.v);
+        let blockers = self.blockers;
+        let la = z.long_m / h;
+        let lb = z.short_m / h;
+        let (ia, ib) = (la.floor() as isize, lb.floor() as isize);
+        let (fa, fb) = (la - ia as f64, lb - ib as f64);
+        let w00 = (1.0 - fa) * (1.0 - fb);
+        let w10 = fa * (1.0 - fb);
+        let w01 = (1.0 - fa) * fb;
+        let w11 = fa * fb;
+        let (ha, hb) = (0.5 * z.long_m, 0.5 * z.short_m);
+        let b_start = b0 + 0.5 * lb * h;
+        let mut best: Option<(f64, isize, isize)> = None;
+        let mut blocked: Vec<(isize, isize)> = Vec::with_capacity(blockers.len());
+        let (na, nb) = (sat.na as isize, sat.nb as isize);
+        // Every position that touches the raster, or those near the mass (see `ScanRange`).
+        let (mut i_first, mut i_last) = (-(ia + 1), na);
+        let (mut j_first, mut j_last) = (-(ib + 1), nb);
+        if self.range == ScanRange::NearMass {
+            let m = &self.mass;
+            let (ra0, ra1) = ((m.a_min - a0) / h, (m.a_max - a0) / h);
+            let (rb0, rb1) = ((m.b_min - b0) / h, (m.b_max - b0) / h);
+            i_first = i_first.max((ra0 - 0.5 * la).floor() as isize - 1);
+            i_last = i_last.min((ra1 - 0.5 * la).ceil() as isize + 1);
+            j_first = j_first.max((rb0 - 0.5 * lb).floor() as isize - 1);
+            j_last = j_last.min((rb1 - 0.5 * lb).ceil() as isize + 1);
+        }
+        for i in i_first..=i_last {
+            let a_c = a0 + (i as f64 + 0.5 * la) * h;
+            // Blocked positions j: l < j < h, as inclusive integer ranges.
+            blocked.clear();
+            for bl in blockers {
+                let (l, hh) = bl.blocked(a_c, b_start, h, ha, hb);
+                if l < hh {
+                    let lo = if l.is_finite() {
+                        (l.floor() as isize + 1).max(j_first)
+                    } else {
+                        j_first
+                    };
+                    let hi = if hh.is_finite() {
+                        (hh.ceil() as isize - 1).min(j_last)
+                    } else {
+                        j_last
+                    };
+                    if lo <= hi {
+                        blocked.push((lo, hi));
+                    }
+                }
+            }
+            blocked.sort_unstable();
+            let (pad, w) = (table.pad as isize, table.w);
+            let row = |r: isize| {
+                let r = (r + pad) as usize;
+                &table.v[r * w..(r + 1) * w]
+            };
+            let (r0, ra, rb) = (row(i), row(i + ia), row(i + ia + 1));
+            let mut j = j_first;
+            let mut k = 0;
+            while j <= j_last {
+                // Skip blocked ranges that start at or before j.
+                while k < blocked.len() && blocked[k].1 < j {
+                    k += 1;
+                }
+                if k < blocked.len() && blocked[k].0 <= j {
+                    j = blocked[k].1 + 1;
+                    continue;
+                }
+                let seg_end = if k < blocked.len() {
+                    blocked[k].0 - 1
                 } else {
                     j_last
                 };
-                if lo <= hi {
-                    blocked.push((lo, hi));
+                for jj in j..=seg_end {
+                    let q = (jj + pad) as usize;
+                    let qb = q + ib as usize;
+                    let m = w00 * ra[qb] + w10 * rb[qb] + w01 * ra[qb + 1] + w11 * rb[qb + 1]
+                        - ((1.0 - fb) * r0[qb] + fb * r0[qb + 1])
+                        - ((1.0 - fa) * ra[q] + fa * rb[q])
+                        + r0[q];
+                    if best.is_none_or(|(bm, _, _)| m > bm) {
+                        best = Some((m, i, jj));
+                    }
                 }
+                j = seg_end + 1;
             }
         }
-        blocked.sort_unstable();
-        let (pad, w) = (table.pad as isize, table.w);
-        let row = |r: isize| {
-            let r = (r + pad) as usize;
-            &table.v[r * w..(r + 1) * w]
-        };
-        let (r0, ra, rb) = (row(i), row(i + ia), row(i + ia + 1));
-        let mut j = j_first;
-        let mut k = 0;
-        while j <= j_last {
-            // Skip blocked ranges that start at or before j.
-            while k < blocked.len() && blocked[k].1 < j {
-                k += 1;
-            }
-            if k < blocked.len() && blocked[k].0 <= j {
-                j = blocked[k].1 + 1;
-                continue;
-            }
-            let seg_end = if k < blocked.len() {
-                blocked[k].0 - 1
-            } else {
-                j_last
-            };
-            for jj in j..=seg_end {
-                let q = (jj + pad) as usize;
-                let qb = q + ib as usize;
-                let m = w00 * ra[qb] + w10 * rb[qb] + w01 * ra[qb + 1] + w11 * rb[qb + 1]
-                    - ((1.0 - fb) * r0[qb] + fb * r0[qb + 1])
-                    - ((1.0 - fa) * ra[q] + fa * rb[q])
-                    + r0[q];
-                if best.is_none_or(|(bm, _, _)| m > bm) {
-                    best = Some((m, i, jj));
-                }
-            }
-            j = seg_end + 1;
-        }
+        best.map(|(m, i, j)| {
+            let a = a0 + (i as f64 + 0.5 * la) * h;
+            let b = b_start + j as f64 * h;
+            (
+                m.max(0.0) * z.pod,
+                Coord {
+                    x: a * u.x + b * v.x,
+                    y: a * u.y + b * v.y,
+                },
+            )
+        })
     }
-    best.map(|(m, i, j)| {
-        let a = a0 + (i as f64 + 0.5 * la) * h;
-        let b = b_start + j as f64 * h;
-        (
-            m.max(0.0) * z.pod,
-            Coord {
-                x: a * u.x + b * v.x,
-                y: a * u.y + b * v.y,
-            },
-        )
-    })
 }
 
 #[cfg(test)]
@@ -589,7 +627,7 @@ mod tests {
             max_cells_per_axis: 1024,
             placed: &[],
             overlap_tolerance_m: 1e-6,
-            full_range: true,
+            range: ScanRange::Everywhere,
         };
         let hits = scan(&grid, &m, &[z], &s);
         assert_eq!(hits.len(), 1);

@@ -82,7 +82,7 @@ fn validate_segments(segments: &[(String, f64, f64)]) -> Result<(), PlanError> {
 ///
 /// `segments` are `(id, POA now, area_m2)`: the segment's probability of area (overlap-weighted,
 /// after earlier searches) and its area. For team `t` in segment `s` the coverage is
-/// `C = searchers x W x L / A` with `L = speed x hours x 3600 x (1 - turn_allowance)` (found:
+/// `C = searchers x W x L / A` with `L = speed x hours x 3600 s/h x (1 - turn_allowance)` (found:
 /// Robe & Frost 2002; Cooper, Frost & Robe 2003: C = W·L/A for land search, docs/references.md §6),
 /// capped at `W / track_spacing_min_m` when the team has a minimum spacing (the team then
 /// finishes early: `hours_needed`), and the POD is the team's law at that coverage. Several

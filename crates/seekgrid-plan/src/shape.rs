@@ -6,7 +6,8 @@ use geo::Coord;
 use ndarray::Array2;
 use seekgrid_core::GridSpec;
 use seekgrid_search::{
-    DetectionLaw, Pattern, PodLayer, SearchError, SweepWidth, pattern_pod, pattern_pod_at,
+    DetectionLaw, Pattern, PodLayer, Rectangle, SearchError, SweepWidth, pattern_pod,
+    pattern_pod_at,
 };
 
 /// What the planner knows of one unit, in the terms of its search lanes: a ground team of n
@@ -29,7 +30,7 @@ pub(crate) struct UnitCtx {
 
 /// A candidate area. Spacings are lane spacings (n x S for a team).
 #[derive(Clone, Debug, PartialEq)]
-pub(crate) enum Shape {
+pub(crate) enum CandidateArea {
     /// A rectangle of `legs` legs along `theta_deg`, `spacing_m` apart; short side
     /// `legs x spacing`, long side `track / legs`.
     Rect {
@@ -95,7 +96,7 @@ fn wrap360(t: f64) -> f64 {
     t.rem_euclid(360.0)
 }
 
-impl Shape {
+impl CandidateArea {
     pub(crate) fn center(&self) -> Coord<f64> {
         match *self {
             Self::Rect { center, .. }
@@ -156,13 +157,13 @@ impl Shape {
                 theta_deg,
                 spacing_m,
                 legs,
-            } => Pattern::ParallelSweep {
+            } => Pattern::ParallelSweep(Rectangle {
                 center,
                 length_m: u.track_m / legs as f64,
                 width_m: legs as f64 * spacing_m,
                 major_grid_bearing_deg: theta_deg,
                 track_spacing_m: spacing_m,
-            },
+            }),
             Self::Square {
                 center,
                 theta_deg,
@@ -266,13 +267,13 @@ impl Shape {
                     x: 0.25 * (p[0].x + p[1].x + p[2].x + p[3].x),
                     y: 0.25 * (p[0].y + p[1].y + p[2].y + p[3].y),
                 };
-                Some(Pattern::ParallelSweep {
+                Some(Pattern::ParallelSweep(Rectangle {
                     center,
                     length_m: len,
                     width_m: wid,
                     major_grid_bearing_deg: (b.x - a.x).atan2(b.y - a.y).to_degrees(),
                     track_spacing_m: spacing,
-                })
+                }))
             }
             Self::Sector { .. } => None,
         }
@@ -302,7 +303,7 @@ impl Shape {
         }
     }
 
-    /// POD at each point (particles), by the same rule as [`Shape::pod_layer`]
+    /// POD at each point (particles), by the same rule as [`CandidateArea::pod_layer`]
     /// ([`seekgrid_search::pattern_pod_at`] for rectangles and expanding squares).
     pub(crate) fn pod_at(&self, u: &UnitCtx, points: &[Coord<f64>]) -> Result<Vec<f64>, PlanError> {
         if points.is_empty() {
@@ -360,11 +361,11 @@ pub(crate) struct Steps {
 /// `ev.levels` whose cells are at most 1/32 of the area's short side; steps halve when no
 /// move improves, down to half a coarse cell, 0.2° and 0.4 %.
 pub(crate) fn climb_coarse(
-    start: Shape,
+    start: CandidateArea,
     u: &UnitCtx,
     ev: &Evaluator<'_>,
     steps: Steps,
-) -> (Shape, f64, Steps) {
+) -> (CandidateArea, f64, Steps) {
     let short = start.short_m(u);
     let level = ev
         .levels
@@ -387,25 +388,25 @@ pub(crate) fn climb_coarse(
 /// Local search, second phase, on the grid's own cells, down to a position step of
 /// `max(min_step_m, short side / 500)`.
 pub(crate) fn climb_fine(
-    start: Shape,
+    start: CandidateArea,
     u: &UnitCtx,
     ev: &Evaluator<'_>,
     steps: Steps,
     min_step_m: f64,
-) -> (Shape, f64) {
+) -> (CandidateArea, f64) {
     let stop_m = min_step_m.max(start.short_m(u) / 500.0);
     let (sh, sc, _) = climb_on(start, u, ev, 0, steps, stop_m);
     (sh, sc)
 }
 
 fn climb_on(
-    start: Shape,
+    start: CandidateArea,
     u: &UnitCtx,
     ev: &Evaluator<'_>,
     level: usize,
     steps: Steps,
     stop_m: f64,
-) -> (Shape, f64, Steps) {
+) -> (CandidateArea, f64, Steps) {
     let lev = Evaluator {
         levels: ev.levels,
         level,
@@ -420,7 +421,7 @@ fn climb_on(
     let mut cur = start;
     let mut cur_score = cur.fast_score(u, &lev).unwrap_or(f64::NEG_INFINITY);
     for _ in 0..400 {
-        let mut best: Option<(Shape, f64)> = None;
+        let mut best: Option<(CandidateArea, f64)> = None;
         for m in neighbours(&cur, dm, dd, ds) {
             if let Some(sc) = m.fast_score(u, &lev)
                 && best.as_ref().is_none_or(|(_, b)| sc > *b)
@@ -458,15 +459,15 @@ fn climb_on(
 /// every start, fine phase for the best `fine` of them (by coarse score, ties to the lowest
 /// index); returns the fine results with their exact scores, in that order.
 pub(crate) fn refine(
-    starts: &[(Shape, Steps)],
+    starts: &[(CandidateArea, Steps)],
     u: &UnitCtx,
     ev: &Evaluator<'_>,
     fine: usize,
     min_step_m: f64,
-    exact: &(dyn Fn(&Shape) -> f64 + Sync),
-) -> Vec<(Shape, f64)> {
+    exact: &(dyn Fn(&CandidateArea) -> f64 + Sync),
+) -> Vec<(CandidateArea, f64)> {
     use rayon::prelude::*;
-    let coarse: Vec<(Shape, f64, Steps)> = starts
+    let coarse: Vec<(CandidateArea, f64, Steps)> = starts
         .par_iter()
         .map(|(sh, st)| climb_coarse(sh.clone(), u, ev, *st))
         .collect();
@@ -486,10 +487,10 @@ pub(crate) fn refine(
         .collect()
 }
 
-fn neighbours(s: &Shape, dm: f64, dd: f64, ds: f64) -> Vec<Shape> {
+fn neighbours(s: &CandidateArea, dm: f64, dd: f64, ds: f64) -> Vec<CandidateArea> {
     let mut out = Vec::with_capacity(10);
     match *s {
-        Shape::Rect {
+        CandidateArea::Rect {
             center,
             theta_deg,
             spacing_m,
@@ -497,7 +498,7 @@ fn neighbours(s: &Shape, dm: f64, dd: f64, ds: f64) -> Vec<Shape> {
         } => {
             let (u, v) = axes(theta_deg);
             for (dir, sign) in [(u, 1.0), (u, -1.0), (v, 1.0), (v, -1.0)] {
-                out.push(Shape::Rect {
+                out.push(CandidateArea::Rect {
                     center: Coord {
                         x: center.x + sign * dm * dir.x,
                         y: center.y + sign * dm * dir.y,
@@ -511,7 +512,7 @@ fn neighbours(s: &Shape, dm: f64, dd: f64, ds: f64) -> Vec<Shape> {
                 .into_iter()
                 .filter(|_| dd > 0.0)
             {
-                out.push(Shape::Rect {
+                out.push(CandidateArea::Rect {
                     center,
                     theta_deg: wrap180(t),
                     spacing_m,
@@ -519,7 +520,7 @@ fn neighbours(s: &Shape, dm: f64, dd: f64, ds: f64) -> Vec<Shape> {
                 });
             }
             for f in [1.0 + ds, 1.0 / (1.0 + ds)] {
-                out.push(Shape::Rect {
+                out.push(CandidateArea::Rect {
                     center,
                     theta_deg,
                     spacing_m: spacing_m * f,
@@ -529,7 +530,7 @@ fn neighbours(s: &Shape, dm: f64, dd: f64, ds: f64) -> Vec<Shape> {
             for l in [legs + 1, legs.saturating_sub(1)] {
                 if l >= 1 && l != legs {
                     // Keep the lane spacing, change the aspect.
-                    out.push(Shape::Rect {
+                    out.push(CandidateArea::Rect {
                         center,
                         theta_deg,
                         spacing_m,
@@ -538,28 +539,28 @@ fn neighbours(s: &Shape, dm: f64, dd: f64, ds: f64) -> Vec<Shape> {
                 }
             }
         }
-        Shape::Square {
+        CandidateArea::Square {
             center,
             theta_deg,
             spacing_m,
         } => centred_neighbours(
             (center, theta_deg, spacing_m),
             (dm, dd, ds),
-            |center, theta_deg, spacing_m| Shape::Square {
+            |center, theta_deg, spacing_m| CandidateArea::Square {
                 center,
                 theta_deg,
                 spacing_m,
             },
             &mut out,
         ),
-        Shape::Sector {
+        CandidateArea::Sector {
             center,
             theta_deg,
             radius_m,
         } => centred_neighbours(
             (center, theta_deg, radius_m),
             (dm, dd, ds),
-            |center, theta_deg, radius_m| Shape::Sector {
+            |center, theta_deg, radius_m| CandidateArea::Sector {
                 center,
                 theta_deg,
                 radius_m,
@@ -576,8 +577,8 @@ fn neighbours(s: &Shape, dm: f64, dd: f64, ds: f64) -> Vec<Shape> {
 fn centred_neighbours(
     (center, theta_deg, size_m): (Coord<f64>, f64, f64),
     (dm, dd, ds): (f64, f64, f64),
-    make: impl Fn(Coord<f64>, f64, f64) -> Shape,
-    out: &mut Vec<Shape>,
+    make: impl Fn(Coord<f64>, f64, f64) -> CandidateArea,
+    out: &mut Vec<CandidateArea>,
 ) {
     for (dx, dy) in [(dm, 0.0), (-dm, 0.0), (0.0, dm), (0.0, -dm)] {
         let moved = Coord {

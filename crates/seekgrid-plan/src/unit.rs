@@ -1,10 +1,8 @@
 //! Search units: what each one brings to the search.
 
 use crate::error::PlanError;
+use seekgrid_core::units::SECONDS_PER_HOUR;
 use seekgrid_search::DetectionLaw;
-
-/// Seconds per hour.
-const S_PER_H: f64 = 3600.0;
 
 /// The kind of a search unit.
 #[derive(Clone, Debug, PartialEq)]
@@ -44,12 +42,13 @@ pub struct UnitSpec {
 }
 
 impl UnitSpec {
-    /// Track length the unit can search, metres: `speed x hours x 3600 x (1 - turn_allowance)`,
-    /// where `turn_allowance` is the fraction of on-scene time lost to turns and navigation
-    /// (common practice; seekgrid's default 0.1 is stated in every plan's notes).
+    /// Track length the unit can search, metres: `speed x hours x 3600 s/h x (1 -
+    /// turn_allowance)` ([`SECONDS_PER_HOUR`]), where `turn_allowance` is the fraction of
+    /// on-scene time lost to turns and navigation (common practice; seekgrid's default 0.1 is
+    /// stated in every plan's notes).
     #[must_use]
     pub fn track_length_m(&self, turn_allowance: f64) -> f64 {
-        self.speed_mps * self.hours_on_scene * S_PER_H * (1.0 - turn_allowance)
+        self.speed_mps * self.hours_on_scene * SECONDS_PER_HOUR * (1.0 - turn_allowance)
     }
 
     /// Number of searchers: a ground team's size, 1 for a vessel or aircraft.

@@ -9,9 +9,10 @@
 
 use geo::{Area, BooleanOps, MultiPolygon};
 use ndarray::Array2;
+use seekgrid_core::units::{SECONDS_PER_HOUR, kmh_to_mps};
 use seekgrid_core::{Belief, DEFAULT_MAX_CELLS, GridSpec, Particles};
 use seekgrid_plan::*;
-use seekgrid_search::{DetectionLaw, Pattern, SweepWidth, pattern_pod, pattern_pod_at};
+use seekgrid_search::{DetectionLaw, Pattern, Rectangle, SweepWidth, pattern_pod, pattern_pod_at};
 use serde_json::Value;
 use std::f64::consts::PI;
 
@@ -56,7 +57,7 @@ fn unit(id: &str, speed_mps: f64, hours: f64, w: f64) -> UnitSpec {
 
 /// A unit whose effort W·L (no turn allowance) is `effort_m2`.
 fn unit_with_effort(id: &str, w: f64, effort_m2: f64) -> UnitSpec {
-    unit(id, 10.0, effort_m2 / w / 36_000.0, w)
+    unit(id, 10.0, effort_m2 / w / (10.0 * SECONDS_PER_HOUR), w)
 }
 
 fn no_turns() -> PlanOptions {
@@ -84,7 +85,7 @@ fn joint_pos_from_patterns(belief: &Belief, plan: &Plan, units: &[UnitSpec]) -> 
     for (a, u) in plan.assignments.iter().zip(units) {
         let w = SweepWidth::new(f64::from(u.searchers()) * u.sweep_width_m, &[]).unwrap();
         let (dense, d) = match a.pattern {
-            Pattern::ParallelSweep { .. } | Pattern::CreepingLine { .. } => {
+            Pattern::ParallelSweep(Rectangle { .. }) | Pattern::CreepingLine(Rectangle { .. }) => {
                 let dense = match pattern_pod(grid, &a.pattern, u.law, &w) {
                     Ok(layer) => layer.to_dense(grid).unwrap(),
                     Err(seekgrid_search::SearchError::PatternOutsideGrid { .. }) => {
@@ -176,7 +177,7 @@ mod bound {
         let grid = GridSpec::new(0.0, 1.0, 1.0, 1, 3, DEFAULT_MAX_CELLS).unwrap();
         let cells = Array2::from_shape_vec((1, 3), vec![0.6, 0.3, 0.1]).unwrap();
         let b = Belief::new(grid, cells, Particles::default(), 0.0).unwrap();
-        let u = unit("a", 1.0, 2.0 / 3600.0, 1.0);
+        let u = unit("a", 1.0, 2.0 / SECONDS_PER_HOUR, 1.0);
         let ob = optimal_bound(&b, &[u], &no_turns()).unwrap();
         assert!((ob.lambda - fx["lambda"].as_f64().unwrap()).abs() < 1e-9);
         assert!((ob.pos - fx["pos"].as_f64().unwrap()).abs() < 1e-9);
@@ -222,7 +223,7 @@ mod bound {
     fn effort_is_sweep_width_times_track_net_of_turns() {
         // found: Cooper, C = Z/A with Z = W·L (docs/references.md §1).
         let mut u = unit("a", 5.0, 2.0, 300.0);
-        assert!((u.track_length_m(0.1) - 5.0 * 2.0 * 3600.0 * 0.9).abs() < 1e-9);
+        assert!((u.track_length_m(0.1) - 5.0 * 2.0 * SECONDS_PER_HOUR * 0.9).abs() < 1e-9);
         assert!((u.effort_m2(0.1) - 300.0 * 32_400.0).abs() < 1e-6);
         u.kind = UnitKind::GroundTeam { searchers: 4 };
         assert!((u.effort_m2(0.0) - 4.0 * 300.0 * 36_000.0).abs() < 1e-6);
@@ -279,7 +280,7 @@ mod practical {
             }
         });
         let b = Belief::new(grid, cells, Particles::default(), 0.0).unwrap();
-        let u = unit("a", 10.0, 2000.0 / 3600.0, 100.0);
+        let u = unit("a", 10.0, 2000.0 / SECONDS_PER_HOUR, 100.0);
         let p = plan(&b, &[u], &no_turns()).unwrap();
         assert!((p.pos_optimal_bound - 0.393469).abs() < 1e-6);
         assert!(p.pos_plan <= p.pos_optimal_bound + 1e-9);
@@ -518,7 +519,7 @@ mod practical {
     }
 
     fn plane_track() -> f64 {
-        60.0 * 0.1 * 3600.0 * 0.9
+        60.0 * 0.1 * SECONDS_PER_HOUR * 0.9
     }
 
     #[test]
@@ -531,9 +532,9 @@ mod practical {
         };
         let p = plan(&b, std::slice::from_ref(&team), &PlanOptions::default()).unwrap();
         let a = &p.assignments[0];
-        let Pattern::ParallelSweep {
+        let Pattern::ParallelSweep(Rectangle {
             track_spacing_m, ..
-        } = a.pattern
+        }) = a.pattern
         else {
             panic!("a team flies a parallel sweep, got {:?}", a.pattern)
         };
@@ -548,14 +549,14 @@ mod practical {
     fn creeping_line_option_gives_legs_across_the_long_side() {
         let b = normal_belief(2000.0, 100.0, 60);
         let o = PlanOptions {
-            rectangle_pattern: RectanglePattern::CreepingLine,
+            rectangle_pattern: PatternOverRectangle::CreepingLine,
             aspect_ratios: vec![3.0],
             ..PlanOptions::default()
         };
         let p = plan(&b, &[unit("a", 8.0, 2.0, 400.0)], &o).unwrap();
-        let Pattern::CreepingLine {
+        let Pattern::CreepingLine(Rectangle {
             length_m, width_m, ..
-        } = p.assignments[0].pattern
+        }) = p.assignments[0].pattern
         else {
             panic!("expected a creeping line")
         };
@@ -695,7 +696,7 @@ mod segments {
     fn team(id: &str, searchers: u32, km: f64, w: f64) -> UnitSpec {
         UnitSpec {
             kind: UnitKind::GroundTeam { searchers },
-            ..unit(id, 1000.0 / 3600.0, km, w)
+            ..unit(id, kmh_to_mps(1.0), km, w)
         }
     }
 

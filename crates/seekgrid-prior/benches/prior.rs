@@ -9,7 +9,7 @@
 use criterion::{Criterion, criterion_group, criterion_main};
 use geo::Coord;
 use seekgrid_core::{DEFAULT_MAX_CELLS, GridSpec};
-use seekgrid_prior::{Analyst, Pool, Scenario, Shape, combine};
+use seekgrid_prior::{Analyst, Pool, Scenario, ScenarioShape, combine};
 use std::hint::black_box;
 
 /// SplitMix64 (Steele, Lea & Flood, OOPSLA 2014), the same stream as the Python baseline.
@@ -43,7 +43,7 @@ fn incident(n_points: usize, n_routes: usize) -> (Vec<Analyst>, Vec<Scenario>) {
         let smaj = rng.uniform(300.0, 3000.0);
         let smin = rng.uniform(300.0, smaj);
         let bearing = rng.uniform(0.0, 180.0);
-        shapes.push(Shape::Point {
+        shapes.push(ScenarioShape::Point {
             center: Coord { x, y },
             sigma_major_m: smaj,
             sigma_minor_m: smin,
@@ -64,7 +64,7 @@ fn incident(n_points: usize, n_routes: usize) -> (Vec<Analyst>, Vec<Scenario>) {
             pts.push(Coord { x, y });
         }
         let sigma = rng.uniform(200.0, 1500.0);
-        shapes.push(Shape::Route {
+        shapes.push(ScenarioShape::Route {
             waypoints: pts,
             cross_track_sigma_m: sigma,
         });

@@ -152,7 +152,7 @@ pub enum ShapeError {
 #[derive(Debug, Error, Clone, PartialEq)]
 #[non_exhaustive]
 pub enum PriorError {
-    /// A shape problem, outside the context of a named scenario (see [`crate::Shape::validate`]).
+    /// A shape problem, outside the context of a named scenario (see [`crate::ScenarioShape::validate`]).
     #[error("{0}")]
     Shape(#[from] ShapeError),
     /// A shape problem in a named scenario.

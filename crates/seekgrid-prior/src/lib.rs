@@ -1,7 +1,7 @@
 //! Analysts' weighted scenarios turned into cell probabilities on a [`GridSpec`](seekgrid_core::GridSpec).
 //!
 //! * [`Analyst`]: an id and a credibility weight (normalised over analysts).
-//! * [`Scenario`]: an id, its analyst, a weight (normalised per analyst) and a [`Shape`]:
+//! * [`Scenario`]: an id, its analyst, a weight (normalised per analyst) and a [`ScenarioShape`]:
 //!   a bivariate-normal point, a route (uniform along, normal across), an area, map segments
 //!   with POA, or distance rings about the initial planning point.
 //! * [`scenario_mass`]: one shape integrated over every cell (closed form or quadrature over the
@@ -21,7 +21,7 @@
 //! ```
 //! use geo::Coord;
 //! use seekgrid_core::{GridSpec, ProjectedBox, DEFAULT_MAX_CELLS};
-//! use seekgrid_prior::{combine, auto_extent, Analyst, Pool, Scenario, Shape};
+//! use seekgrid_prior::{combine, auto_extent, Analyst, Pool, Scenario, ScenarioShape};
 //!
 //! let analysts = vec![
 //!     Analyst { id: "duty officer".into(), weight: 2.0 },
@@ -32,7 +32,7 @@
 //!         id: "last known position".into(),
 //!         analyst: "duty officer".into(),
 //!         weight: 1.0,
-//!         shape: Shape::Point {
+//!         shape: ScenarioShape::Point {
 //!             center: Coord { x: 500_000.0, y: 2_200_000.0 },
 //!             sigma_major_m: 1_500.0,
 //!             sigma_minor_m: 800.0,
@@ -43,7 +43,7 @@
 //!         id: "planned passage".into(),
 //!         analyst: "skipper's friend".into(),
 //!         weight: 1.0,
-//!         shape: Shape::Route {
+//!         shape: ScenarioShape::Route {
 //!             waypoints: vec![
 //!                 Coord { x: 495_000.0, y: 2_195_000.0 },
 //!                 Coord { x: 505_000.0, y: 2_206_000.0 },
@@ -85,7 +85,8 @@ mod window;
 pub use error::{PriorError, ShapeError};
 pub use mass::{ScenarioMass, scenario_mass};
 pub use model::{
-    Analyst, EXTENT_SIGMAS, Pool, RingInterpolation, Scenario, Segment, Shape, auto_extent,
+    Analyst, EXTENT_SIGMAS, POA_SUM_TOLERANCE, Pool, RingInterpolation, Scenario, ScenarioShape,
+    Segment, auto_extent,
 };
 pub use pool::{AnalystDiagnostics, Diagnostics, Prior, combine};
 pub use table::{SegmentRow, segment_table};

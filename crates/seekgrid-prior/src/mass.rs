@@ -1,7 +1,7 @@
 //! One scenario's probability masses on a grid.
 
 use crate::error::{PriorError, ShapeError};
-use crate::model::Shape;
+use crate::model::ScenarioShape;
 use crate::window::Window;
 use crate::{point, polygon, rings, route};
 use geo::Area;
@@ -35,8 +35,8 @@ pub(crate) struct SparseMass {
 /// rings by exact disc-rectangle areas (see the module docs of each kind).
 ///
 /// # Errors
-/// [`PriorError::Shape`] when [`Shape::validate`] fails.
-pub fn scenario_mass(shape: &Shape, grid: &GridSpec) -> Result<ScenarioMass, PriorError> {
+/// [`PriorError::Shape`] when [`ScenarioShape::validate`] fails.
+pub fn scenario_mass(shape: &ScenarioShape, grid: &GridSpec) -> Result<ScenarioMass, PriorError> {
     shape.check()?;
     let sparse = sparse_mass(shape, grid);
     let mut cells = Array2::zeros((grid.rows(), grid.cols()));
@@ -52,18 +52,18 @@ pub fn scenario_mass(shape: &Shape, grid: &GridSpec) -> Result<ScenarioMass, Pri
 
 /// Checks and integrates one shape.
 pub(crate) fn checked_sparse_mass(
-    shape: &Shape,
+    shape: &ScenarioShape,
     grid: &GridSpec,
 ) -> Result<SparseMass, ShapeError> {
     shape.check()?;
     Ok(sparse_mass(shape, grid))
 }
 
-/// Integrates a shape that has passed [`Shape::check`].
-pub(crate) fn sparse_mass(shape: &Shape, grid: &GridSpec) -> SparseMass {
+/// Integrates a shape that has passed [`ScenarioShape::check`].
+pub(crate) fn sparse_mass(shape: &ScenarioShape, grid: &GridSpec) -> SparseMass {
     let cell_area = grid.cell_area_m2();
     let (window, rest_of_world) = match shape {
-        Shape::Point {
+        ScenarioShape::Point {
             center,
             sigma_major_m,
             sigma_minor_m,
@@ -78,14 +78,14 @@ pub(crate) fn sparse_mass(shape: &Shape, grid: &GridSpec) -> SparseMass {
             ),
             0.0,
         ),
-        Shape::Route {
+        ScenarioShape::Route {
             waypoints,
             cross_track_sigma_m,
         } => (
             route::route_window(waypoints, *cross_track_sigma_m, grid),
             0.0,
         ),
-        Shape::Area { polygons } => {
+        ScenarioShape::Area { polygons } => {
             let area = polygons.unsigned_area();
             let w = polygon::overlap_fractions(polygons, grid).map(|mut w| {
                 w.cells.mapv_inplace(|f| f * cell_area / area);
@@ -93,7 +93,7 @@ pub(crate) fn sparse_mass(shape: &Shape, grid: &GridSpec) -> SparseMass {
             });
             (w, 0.0)
         }
-        Shape::Segments { segments, poa } => {
+        ScenarioShape::Segments { segments, poa } => {
             let parts: Vec<Window> = segments
                 .iter()
                 .zip(poa)
@@ -109,7 +109,7 @@ pub(crate) fn sparse_mass(shape: &Shape, grid: &GridSpec) -> SparseMass {
             let row = (1.0 - neumaier_sum(poa.iter().copied())).max(0.0);
             (Window::merged(&parts), row)
         }
-        Shape::Rings {
+        ScenarioShape::Rings {
             center,
             quantiles,
             interpolation,

@@ -4,10 +4,14 @@ use crate::error::{PriorError, ShapeError};
 use geo::{Area, BooleanOps, BoundingRect, Coord, MultiPolygon, Validation};
 use seekgrid_core::ProjectedBox;
 
-/// Mahalanobis radius (in sigmas) of the box given by [`Shape::extent`] for normal shapes:
+/// Mahalanobis radius (in sigmas) of the box given by [`ScenarioShape::extent`] for normal shapes:
 /// a 4.5-sigma ellipse leaves exp(-4.5²/2) = 4.0e-5 of the mass outside, i.e. it holds
 /// > 99.99 % (mass within the Mahalanobis-k ellipse is 1 - exp(-k²/2); common practice).
 pub const EXTENT_SIGMAS: f64 = 4.5;
+
+/// How far above 1 a segments scenario's POA values may add up (rounding of values written
+/// as decimals, e.g. 0.1 + 0.2 + 0.7).
+pub const POA_SUM_TOLERANCE: f64 = 1e-12;
 
 /// One analyst and the credibility given to their judgement.
 #[derive(Debug, Clone, PartialEq)]
@@ -28,7 +32,7 @@ pub struct Scenario {
     /// Weight, positive; normalised over the scenarios of the same analyst.
     pub weight: f64,
     /// Where the scenario puts the object.
-    pub shape: Shape,
+    pub shape: ScenarioShape,
 }
 
 /// A named map segment (land search).
@@ -40,7 +44,7 @@ pub struct Segment {
     pub polygons: MultiPolygon<f64>,
 }
 
-/// How the distance CDF is interpolated between rings of a [`Shape::Rings`] scenario.
+/// How the distance CDF is interpolated between rings of a [`ScenarioShape::Rings`] scenario.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum RingInterpolation {
     /// Constant density in each annulus (each ring's share spread evenly over its area): the
@@ -67,9 +71,49 @@ pub enum Pool {
     Logarithmic,
 }
 
+impl RingInterpolation {
+    /// Every interpolation, in the order the incident format lists them.
+    pub const ALL: [Self; 2] = [Self::UniformPerRing, Self::MonotoneCubic];
+
+    /// Reads the name used in the incident file: `"uniform-per-ring"` or `"monotone-cubic"`.
+    #[must_use]
+    pub fn parse(s: &str) -> Option<Self> {
+        Self::ALL.into_iter().find(|m| m.name() == s.trim())
+    }
+
+    /// The name [`RingInterpolation::parse`] reads.
+    #[must_use]
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::UniformPerRing => "uniform-per-ring",
+            Self::MonotoneCubic => "monotone-cubic",
+        }
+    }
+}
+
+impl Pool {
+    /// Every pool, in the order the incident format lists them.
+    pub const ALL: [Self; 2] = [Self::Linear, Self::Logarithmic];
+
+    /// Reads the name used in the incident file: `"linear"` or `"logarithmic"`.
+    #[must_use]
+    pub fn parse(s: &str) -> Option<Self> {
+        Self::ALL.into_iter().find(|p| p.name() == s.trim())
+    }
+
+    /// The name [`Pool::parse`] reads.
+    #[must_use]
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::Linear => "linear",
+            Self::Logarithmic => "logarithmic",
+        }
+    }
+}
+
 /// Where a scenario puts the object, in the working frame (metres, grid bearings).
 #[derive(Debug, Clone, PartialEq)]
-pub enum Shape {
+pub enum ScenarioShape {
     /// Bivariate normal; circular when `sigma_major_m == sigma_minor_m`.
     Point {
         /// Mean position, metres.
@@ -193,7 +237,7 @@ fn overlap_area<
     }
 }
 
-impl Shape {
+impl ScenarioShape {
     /// Checks the shape's parameters.
     ///
     /// # Errors
@@ -208,7 +252,7 @@ impl Shape {
 
     pub(crate) fn check(&self) -> Result<(), ShapeError> {
         match self {
-            Shape::Point {
+            ScenarioShape::Point {
                 center,
                 sigma_major_m,
                 sigma_minor_m,
@@ -226,7 +270,7 @@ impl Shape {
                 }
                 Ok(())
             }
-            Shape::Route {
+            ScenarioShape::Route {
                 waypoints,
                 cross_track_sigma_m,
             } => {
@@ -248,8 +292,8 @@ impl Shape {
                 }
                 Ok(())
             }
-            Shape::Area { polygons } => check_polygons("area", polygons).map(|_| ()),
-            Shape::Segments { segments, poa } => {
+            ScenarioShape::Area { polygons } => check_polygons("area", polygons).map(|_| ()),
+            ScenarioShape::Segments { segments, poa } => {
                 if segments.is_empty() {
                     return Err(ShapeError::NoSegments);
                 }
@@ -274,7 +318,7 @@ impl Shape {
                     check_polygons(&format!("segment \"{}\"", s.id), &s.polygons)?;
                 }
                 let sum = seekgrid_core::neumaier_sum(poa.iter().copied());
-                if sum > 1.0 + 1e-12 {
+                if sum > 1.0 + POA_SUM_TOLERANCE {
                     return Err(ShapeError::PoaSumAboveOne { sum });
                 }
                 for i in 0..segments.len() {
@@ -292,7 +336,7 @@ impl Shape {
                 }
                 Ok(())
             }
-            Shape::Rings {
+            ScenarioShape::Rings {
                 center, quantiles, ..
             } => {
                 finite_coord("center", *center)?;
@@ -329,7 +373,7 @@ impl Shape {
             return None;
         }
         match self {
-            Shape::Point {
+            ScenarioShape::Point {
                 center,
                 sigma_major_m,
                 sigma_minor_m,
@@ -346,19 +390,19 @@ impl Shape {
                     EXTENT_SIGMAS * sy,
                 ))
             }
-            Shape::Route {
+            ScenarioShape::Route {
                 waypoints,
                 cross_track_sigma_m,
             } => ProjectedBox::of_points(waypoints.iter().copied())
                 .map(|b| b.expanded(EXTENT_SIGMAS * cross_track_sigma_m)),
-            Shape::Area { polygons } => rect_to_box(polygons.bounding_rect()),
-            Shape::Segments { segments, poa } => segments
+            ScenarioShape::Area { polygons } => rect_to_box(polygons.bounding_rect()),
+            ScenarioShape::Segments { segments, poa } => segments
                 .iter()
                 .zip(poa)
                 .filter(|(_, p)| **p > 0.0)
                 .filter_map(|(s, _)| rect_to_box(s.polygons.bounding_rect()))
                 .reduce(|a, b| a.union(&b)),
-            Shape::Rings {
+            ScenarioShape::Rings {
                 center, quantiles, ..
             } => quantiles
                 .last()
@@ -376,7 +420,7 @@ fn rect_to_box(r: Option<geo::Rect<f64>>) -> Option<ProjectedBox> {
     })
 }
 
-/// The union of the scenarios' extents ([`Shape::extent`]): a box holding at least 99.9 % of
+/// The union of the scenarios' extents ([`ScenarioShape::extent`]): a box holding at least 99.9 % of
 /// the pooled in-world mass whatever the weights (each scenario's box holds ≥ 99.99 % of its
 /// own). Invalid shapes are skipped. `None` when no scenario has an extent.
 #[must_use]
@@ -385,4 +429,27 @@ pub fn auto_extent(scenarios: &[Scenario]) -> Option<ProjectedBox> {
         .iter()
         .filter_map(|s| s.shape.extent())
         .reduce(|a, b| a.union(&b))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn pool_and_ring_names_parse_and_round_trip() {
+        for pool in Pool::ALL {
+            assert_eq!(Pool::parse(pool.name()), Some(pool));
+        }
+        for mode in RingInterpolation::ALL {
+            assert_eq!(RingInterpolation::parse(mode.name()), Some(mode));
+        }
+        // The names of docs/incident-format.md.
+        assert_eq!(Pool::parse("logarithmic"), Some(Pool::Logarithmic));
+        assert_eq!(
+            RingInterpolation::parse("uniform-per-ring"),
+            Some(RingInterpolation::UniformPerRing)
+        );
+        assert_eq!(Pool::parse("geometric"), None);
+        assert_eq!(RingInterpolation::parse("linear"), None);
+    }
 }

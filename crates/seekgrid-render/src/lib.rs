@@ -57,6 +57,7 @@ mod probability;
 pub mod record;
 pub mod review;
 pub mod summary;
+pub mod tasking;
 pub mod vector;
 
 pub use containment::containment_geojson;

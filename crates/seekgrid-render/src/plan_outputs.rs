@@ -1,5 +1,5 @@
-//! Writing a plan: `plan.geojson`, `plan.gpx`, `plan.md`, `plan.png`, `effort.png` and the
-//! summary with `pos_plan` and `pos_optimal_bound`.
+//! Writing a plan: `plan.geojson`, `plan.gpx`, `plan.md`, `plan.png`, `effort.png`,
+//! `tasking.toml` and the summary with `pos_plan` and `pos_optimal_bound`.
 
 use crate::gpx::{RouteSpec, routes_gpx};
 use crate::outputs::{self, OutputSelection};
@@ -324,6 +324,7 @@ pub fn write(incident: &Incident, run: &PlanRun, dir: &OutputDir) -> Result<Summ
         )?;
     }
     dir.write("plan.md", md.as_bytes())?;
+    crate::tasking::write(incident, run, dir)?;
 
     let poc = &m.poc;
     let cell_km2 = m.grid.cell_area_m2() / 1e6;

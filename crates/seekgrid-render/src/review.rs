@@ -25,6 +25,9 @@ pub const REVIEW_FILES: [&str; 5] = [
     "review-searches.geojson",
 ];
 
+/// Metres in a kilometre (for km in the report).
+const METRES_PER_KM: f64 = 1000.0;
+
 fn time(t: Time) -> String {
     t.to_rfc3339_opts(chrono::SecondsFormat::AutoSi, true)
 }
@@ -160,6 +163,8 @@ pub struct PeriodJson {
     pub effort: EffortJson,
     /// Whether every search used the exponential law.
     pub all_exponential: bool,
+    /// Whether its time overlaps another period's.
+    pub overlaps_other_period: bool,
     /// POS achieved.
     pub pos: f64,
     /// Cumulative POS by its end.
@@ -287,6 +292,8 @@ pub struct NotComputedJson {
 pub struct ReviewJson {
     /// The caution.
     pub caution: &'static str,
+    /// The id of the run that wrote the file (set by [`write`]).
+    pub run_id: Option<String>,
     /// Title.
     pub title: String,
     /// Reference time.
@@ -406,6 +413,7 @@ fn period_json(k: usize, p: &Period) -> PeriodJson {
         units: p.units.clone(),
         effort: (&p.effort).into(),
         all_exponential: p.all_exponential,
+        overlaps_other_period: p.overlaps_other_period,
         pos: p.pos,
         pos_cumulative: p.pos_cumulative,
         pod_at_truth: p.pod_at_truth,
@@ -440,6 +448,7 @@ fn analyst_json(a: &AnalystScore) -> AnalystJson {
 pub fn review_json(r: &Review) -> ReviewJson {
     ReviewJson {
         caution: CAUTION,
+        run_id: None,
         title: r.title.clone(),
         reference_time: time(r.reference_time),
         end: time(r.end),
@@ -586,7 +595,7 @@ pub fn review_markdown(r: &Review) -> String {
         "- {applied} of {} logged search(es) applied, in {} period(s); effort {:.1} km² swept (W·L); cumulative POS **{:.3}**.",
         r.searches.len(),
         r.periods.len(),
-        total / 1e6,
+        total / seekgrid_core::units::M2_PER_KM2,
         r.pos_cumulative
     );
     if let Some(pod) = r.pod_at_truth_cumulative {
@@ -616,32 +625,55 @@ pub fn review_markdown(r: &Review) -> String {
     let _ = writeln!(md);
 
     let _ = writeln!(md, "## Timeline\n");
-    let _ = writeln!(
-        md,
-        "Cumulative over the searches ended by each time. POC and density at the found position are read in the belief at that time (for a drifting object: at the found place, not where the object was then); \"above\" is the probability and area of the cells the belief rated denser than the found position.\n"
-    );
-    let _ = writeln!(
-        md,
-        "| time (UTC) | h | searches ended | applied | cumulative POS | swept km² | track km | POC at found | density /km² | above: POC | above: km² |"
-    );
-    let _ = writeln!(md, "|---|---:|---|---:|---:|---:|---:|---:|---:|---:|---:|");
-    for row in &r.timeline {
-        let t = row.truth;
+    let with_truth = r.timeline.iter().any(|row| row.truth.is_some());
+    let _ = writeln!(md, "Cumulative over the searches ended by each time.");
+    if with_truth {
         let _ = writeln!(
             md,
-            "| {} | {:.2} | {} | {} | {:.3} | {:.1} | {:.1} | {} | {} | {} | {} |",
+            "POC and density at the found position are read in the belief at that time (for a drifting object: at the found place, not where the object was then); \"above\" is the probability and area of the cells the belief rated denser than the found position."
+        );
+    }
+    let _ = writeln!(md);
+    let _ = write!(
+        md,
+        "| time (UTC) | h | searches ended | applied | cumulative POS | swept km² | track km |"
+    );
+    if with_truth {
+        let _ = write!(
+            md,
+            " POC at found | density /km² | above: POC | above: km² |"
+        );
+    }
+    let _ = writeln!(md);
+    let _ = write!(md, "|---|---:|---|---:|---:|---:|---:|");
+    if with_truth {
+        let _ = write!(md, "---:|---:|---:|---:|");
+    }
+    let _ = writeln!(md);
+    for row in &r.timeline {
+        let _ = write!(
+            md,
+            "| {} | {:.2} | {} | {} | {:.3} | {:.1} | {:.1} |",
             hm(row.time),
             row.hours_since_reference,
             row.searches_ended.join(", "),
             row.searches_applied,
             row.pos_cumulative,
-            row.effort.area_swept_m2 / 1e6,
-            row.effort.track_length_m / 1e3,
-            t.map_or_else(|| "–".into(), |t| format!("{:.2e}", t.poc)),
-            opt(t.map(|t| t.density_per_km2), 4),
-            opt(t.map(|t| t.rank.mass_above), 3),
-            opt(t.map(|t| t.rank.area_above_km2), 1),
+            row.effort.area_swept_m2 / seekgrid_core::units::M2_PER_KM2,
+            row.effort.track_length_m / METRES_PER_KM,
         );
+        if with_truth {
+            let t = row.truth;
+            let _ = write!(
+                md,
+                " {} | {} | {} | {} |",
+                t.map_or_else(|| "–".into(), |t| format!("{:.2e}", t.poc)),
+                opt(t.map(|t| t.density_per_km2), 4),
+                opt(t.map(|t| t.rank.mass_above), 3),
+                opt(t.map(|t| t.rank.area_above_km2), 1),
+            );
+        }
+        let _ = writeln!(md);
     }
     let _ = writeln!(md);
 
@@ -655,8 +687,8 @@ pub fn review_markdown(r: &Review) -> String {
                 "| {} | {} | {:.1} | {:.1} |",
                 u.unit,
                 u.effort.searches,
-                u.effort.area_swept_m2 / 1e6,
-                u.effort.track_length_m / 1e3
+                u.effort.area_swept_m2 / seekgrid_core::units::M2_PER_KM2,
+                u.effort.track_length_m / METRES_PER_KM
             );
         }
         let _ = writeln!(
@@ -719,7 +751,7 @@ pub fn review_markdown(r: &Review) -> String {
             log_text(a.log_score),
             a.pool_scored_higher
                 .map_or("–", |b| if b { "yes" } else { "no" }),
-            opt(a.bias.map(|b| b.distance_m / 1e3), 2),
+            opt(a.bias.map(|b| b.distance_m / METRES_PER_KM), 2),
             a.bias
                 .and_then(|b| b.bearing_deg)
                 .map_or_else(|| "–".into(), |b| format!("{b:03.0}°")),
@@ -757,32 +789,53 @@ pub fn review_markdown(r: &Review) -> String {
             md,
             "For each period, Stone's optimal allocation of the period's effort (Σ W·L) for exponential detection, against the belief the searches left at the period's start (\"same belief\") and in a chain where every earlier period was also optimal. It bounds what exponential-law searches can achieve with that effort on a stationary target; inverse-cube and definite-range sweeps can exceed it, and with a drifting target or periods that overlap it is a guide, not a bound.\n"
         );
-        let _ = writeln!(
+        let found = r.truth.is_some();
+        let _ = write!(
             md,
-            "| period | searches | swept km² | all exponential | POS achieved | optimal (same belief) | optimal (chain) | cumulative: achieved | cumulative: chain | POD at found: achieved | optimal (chain) |"
+            "| period | searches | swept km² | all exponential | POS achieved | optimal (same belief) | optimal (chain) | cumulative: achieved | cumulative: chain |"
         );
-        let _ = writeln!(md, "|---|---|---:|---|---:|---:|---:|---:|---:|---:|---:|");
+        if found {
+            let _ = write!(md, " POD at found: achieved | optimal (chain) |");
+        }
+        let _ = writeln!(md);
+        let _ = write!(md, "|---|---|---:|---|---:|---:|---:|---:|---:|");
+        if found {
+            let _ = write!(md, "---:|---:|");
+        }
+        let _ = writeln!(md);
         for p in &r.periods {
             let o = p.optimal;
-            let _ = writeln!(
+            let _ = write!(
                 md,
-                "| {} | {} | {:.1} | {} | {:.3} | {} | {} | {:.3} | {} | {} | {} |",
+                "| {}{} | {} | {:.1} | {} | {:.3} | {} | {} | {:.3} | {} |",
                 p.id,
+                if p.overlaps_other_period {
+                    " (overlaps)"
+                } else {
+                    ""
+                },
                 p.searches.join(", "),
-                p.effort.area_swept_m2 / 1e6,
+                p.effort.area_swept_m2 / seekgrid_core::units::M2_PER_KM2,
                 if p.all_exponential { "yes" } else { "no" },
                 p.pos,
                 opt(o.map(|o| o.pos_same_belief), 3),
                 opt(o.map(|o| o.pos_chain), 3),
                 p.pos_cumulative,
                 opt(o.map(|o| o.pos_cumulative_chain), 3),
-                opt(p.pod_at_truth, 3),
-                opt(o.and_then(|o| o.pod_at_truth_chain), 3),
             );
+            if found {
+                let _ = write!(
+                    md,
+                    " {} | {} |",
+                    opt(p.pod_at_truth, 3),
+                    opt(o.and_then(|o| o.pod_at_truth_chain), 3),
+                );
+            }
+            let _ = writeln!(md);
         }
         let _ = writeln!(
             md,
-            "\nA period is the searches tasked in it, or searches sharing the same start and end.\n"
+            "\nA period is the searches tasked in it, or searches sharing the same start and end. \"Cumulative: achieved\" counts every search ended by the period's end; \"(overlaps)\" marks a period whose time overlaps another's, where the comparison is not exact.\n"
         );
     }
 
@@ -806,15 +859,16 @@ fn object(pairs: &[(&str, geojson::JsonValue)]) -> JsonObject {
         .collect()
 }
 
-fn foreign(r: &Review, name: &str) -> JsonObject {
+fn foreign(r: &Review, name: &str, run_id: &str) -> JsonObject {
     object(&[
+        ("run_id", run_id.into()),
         ("name", name.into()),
         ("title", r.title.clone().into()),
         ("caution", CAUTION.into()),
     ])
 }
 
-fn found_geojson(r: &Review) -> Result<Vec<u8>, RenderError> {
+fn found_geojson(r: &Review, run_id: &str) -> Result<Vec<u8>, RenderError> {
     let mut features = Vec::new();
     if let Some(t) = &r.truth {
         let mut props = object(&[("part", "found".into()), ("time", time(t.time).into())]);
@@ -830,10 +884,10 @@ fn found_geojson(r: &Review) -> Result<Vec<u8>, RenderError> {
             ..Default::default()
         });
     }
-    collection_bytes(features, foreign(r, "review-found"))
+    collection_bytes(features, foreign(r, "review-found", run_id))
 }
 
-fn analysts_geojson(r: &Review) -> Result<Vec<u8>, RenderError> {
+fn analysts_geojson(r: &Review, run_id: &str) -> Result<Vec<u8>, RenderError> {
     let mut features = Vec::new();
     if let Some(t) = &r.truth {
         for a in &r.analysts {
@@ -870,10 +924,10 @@ fn analysts_geojson(r: &Review) -> Result<Vec<u8>, RenderError> {
             });
         }
     }
-    collection_bytes(features, foreign(r, "review-analysts"))
+    collection_bytes(features, foreign(r, "review-analysts", run_id))
 }
 
-fn searches_geojson(r: &Review) -> Result<Vec<u8>, RenderError> {
+fn searches_geojson(r: &Review, run_id: &str) -> Result<Vec<u8>, RenderError> {
     let mut features = Vec::new();
     for s in &r.searches {
         let mut props = object(&[
@@ -919,24 +973,25 @@ fn searches_geojson(r: &Review) -> Result<Vec<u8>, RenderError> {
             });
         }
     }
-    collection_bytes(features, foreign(r, "review-searches"))
+    collection_bytes(features, foreign(r, "review-searches", run_id))
 }
 
-/// Writes `review.json`, `review.md` and the review's GeoJSON layers into `dir`; returns the
-/// JSON document.
+/// Writes `review.json`, `review.md` and the review's GeoJSON layers into `dir` (the run's
+/// output folder; the caller commits it); returns the JSON document.
 ///
 /// # Errors
 /// [`RenderError`] when a file cannot be serialised or written, or a position cannot be
 /// converted.
 pub fn write(r: &Review, dir: &OutputDir) -> Result<ReviewJson, RenderError> {
-    let doc = review_json(r);
+    let mut doc = review_json(r);
+    doc.run_id = Some(dir.run_id().to_owned());
     let mut json = serde_json::to_vec_pretty(&doc).map_err(|e| RenderError::Json(e.to_string()))?;
     json.push(b'\n');
     // Build every file first, so that a failure leaves no half set behind.
     let md = review_markdown(r);
-    let found = found_geojson(r)?;
-    let analysts = analysts_geojson(r)?;
-    let searches = searches_geojson(r)?;
+    let found = found_geojson(r, dir.run_id())?;
+    let analysts = analysts_geojson(r, dir.run_id())?;
+    let searches = searches_geojson(r, dir.run_id())?;
     dir.write("review-found.geojson", &found)?;
     dir.write("review-analysts.geojson", &analysts)?;
     dir.write("review-searches.geojson", &searches)?;
@@ -944,4 +999,131 @@ pub fn write(r: &Review, dir: &OutputDir) -> Result<ReviewJson, RenderError> {
     dir.write("review.json", &json)?;
     crate::charts::write_review_charts(r, dir)?;
     Ok(doc)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::OutputOptions;
+    use seekgrid_engine::review::review;
+
+    /// A point scenario searched by an exponential sweep, and distance rings 30 km away whose
+    /// last quantile (5 km) leaves the found position at exactly zero density (rest of world
+    /// beyond it).
+    const INCIDENT: &str = r#"
+[incident]
+title = "Render test (invented)"
+reference_time = "2026-06-14T10:00:00Z"
+crs = "EPSG:32626"
+[grid]
+cell_m = 200
+[[analyst]]
+id = "near"
+[[analyst]]
+id = "far"
+[[scenario]]
+id = "datum"
+analyst = "near"
+kind = "point"
+position = [-29.0, 30.0]
+sigma_m = 1500
+[[scenario]]
+id = "rings"
+analyst = "far"
+kind = "rings"
+position = [-28.7, 30.0]
+distance_quantiles_km = { 25 = 1, 50 = 2, 75 = 3, 95 = 5 }
+[[search]]
+id = "s1"
+unit = "boat"
+start = "2026-06-14T11:00:00Z"
+end = "2026-06-14T13:00:00Z"
+sweep_width_m = 400
+detection = "exponential"
+pattern = { kind = "parallel-sweep", center = [-29.0, 30.0], length_m = 3000, width_m = 3000, major_bearing_deg = 0, track_spacing_m = 500 }
+"#;
+
+    fn reviewed() -> (tempfile::TempDir, Review) {
+        let dir = tempfile::tempdir().unwrap();
+        let inc =
+            seekgrid_incident::parse(&dir.path().join("i.toml"), INCIDENT.to_owned()).unwrap();
+        let found = Outcome::Found {
+            position: [-29.001, 30.001],
+            time: chrono::DateTime::parse_from_rfc3339("2026-06-14T14:00:00Z")
+                .unwrap()
+                .with_timezone(&chrono::Utc),
+            position_error_m: Some(50.0),
+            note: Some("found by a fishing vessel (invented)".into()),
+        };
+        let r = review(&inc, Some(&found), &|_, _, _| {}).unwrap();
+        (dir, r)
+    }
+
+    #[test]
+    fn a_zero_density_is_written_as_null_and_said_in_words() {
+        let (_dir, r) = reviewed();
+        assert_eq!(r.analysts[1].density_per_km2, Some(0.0));
+        assert_eq!(r.analysts[1].log_score, Some(f64::NEG_INFINITY));
+        let doc = review_json(&r);
+        let text = serde_json::to_string(&doc).unwrap();
+        let v: serde_json::Value = serde_json::from_str(&text).unwrap();
+        assert!(v["analysts"][1]["log_score"].is_null());
+        assert_eq!(v["analysts"][1]["zero_density"], true);
+        assert!(v["analysts"][0]["log_score"].is_f64());
+        assert_eq!(v["end_reason"], "found");
+        assert_eq!(v["searches"][0]["covered_truth"], true);
+        let md = review_markdown(&r);
+        assert!(md.contains("zero density"));
+        assert!(md.contains("## Searches over the found position"));
+        assert!(md.contains("| s1 | boat |"));
+        assert!(md.contains("found by a fishing vessel"));
+        assert_eq!(md.matches(CAUTION).count(), 2);
+    }
+
+    #[test]
+    fn every_file_is_written_with_its_layers() {
+        let (_dir, r) = reviewed();
+        let out = tempfile::tempdir().unwrap();
+        let dest = out.path().join("review");
+        let dir = OutputDir::create(
+            &dest,
+            &OutputOptions {
+                run_id: "test-1",
+                force: false,
+                inputs: &[],
+            },
+        )
+        .unwrap();
+        let doc = write(&r, &dir).unwrap();
+        dir.commit().unwrap();
+        assert_eq!(doc.run_id.as_deref(), Some("test-1"));
+        for f in REVIEW_FILES {
+            assert!(dest.join(f).is_file(), "{f}");
+        }
+        let read = |f: &str| -> serde_json::Value {
+            serde_json::from_str(&std::fs::read_to_string(dest.join(f)).unwrap()).unwrap()
+        };
+        let found = read("review-found.geojson");
+        assert_eq!(found["features"][0]["geometry"]["type"], "Point");
+        assert_eq!(found["run_id"], "test-1");
+        let analysts = read("review-analysts.geojson");
+        // Two analysts, each a mean point and a line to the truth.
+        assert_eq!(analysts["features"].as_array().unwrap().len(), 4);
+        assert_eq!(analysts["features"][1]["geometry"]["type"], "LineString");
+        let searches = read("review-searches.geojson");
+        let props = &searches["features"][0]["properties"];
+        assert_eq!(props["stroke"], period_colour(0));
+        assert_eq!(props["period"], "2026-06-14T11:00:00Z/2026-06-14T13:00:00Z");
+    }
+
+    #[test]
+    fn period_colours_cycle_through_ten_distinct_colours() {
+        let c: Vec<String> = (0..10).map(period_colour).collect();
+        let mut d = c.clone();
+        d.sort();
+        d.dedup();
+        assert_eq!(d.len(), 10);
+        assert_eq!(period_colour(10), c[0]);
+        assert!(c.iter().all(|s| s.len() == 7 && s.starts_with('#')));
+    }
 }

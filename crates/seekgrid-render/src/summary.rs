@@ -171,18 +171,6 @@ pub struct Summary {
     pub plan: Option<serde_json::Value>,
 }
 
-fn kind_name(k: &seekgrid_incident::model::ScenarioKind) -> &'static str {
-    use seekgrid_incident::model::ScenarioKind as K;
-    match k {
-        K::Point { .. } => "point",
-        K::Route { .. } => "route",
-        K::Area { .. } => "area",
-        K::Segments { .. } => "segments",
-        K::Rings { .. } => "rings",
-        K::Drift(_) => "drift",
-    }
-}
-
 /// The summary of a computed map.
 #[must_use]
 pub fn summarise(incident: &Incident, m: &IncidentMap) -> Summary {
@@ -218,7 +206,7 @@ pub fn summarise(incident: &Incident, m: &IncidentMap) -> Summary {
         .map(|(s, (_, _, w))| ScenarioSummary {
             id: s.id.clone(),
             analyst: s.analyst.clone(),
-            kind: kind_name(&s.kind),
+            kind: s.kind.name(),
             weight: *w,
         })
         .collect();

@@ -36,10 +36,19 @@ fn prior() -> Array2<f64> {
     cells
 }
 
+/// The fixes of the benchmark track: with a deterministic position noise, or exactly on
+/// straight legs.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum TrackNoise {
+    /// A deterministic position noise of ±5 m.
+    Noisy,
+    /// Exactly straight legs.
+    Straight,
+}
+
 /// The benchmark track: 25 east-west legs of 50 km, 2 km apart, 10 000 fixes 125 m apart,
-/// with a deterministic position noise of ±5 m (`noise = false`: exactly straight legs).
-/// benches/baselines/track_baseline.py builds the same track.
-pub fn bench_track(noise: bool) -> Vec<Coord<f64>> {
+/// with or without noise. benches/baselines/track_baseline.py builds the same track.
+pub fn bench_track(noise: TrackNoise) -> Vec<Coord<f64>> {
     let per_leg = 400;
     let mut t = Vec::with_capacity(25 * per_leg);
     for leg in 0..25 {
@@ -48,7 +57,7 @@ pub fn bench_track(noise: bool) -> Vec<Coord<f64>> {
             let s = 25_000.0 + 50_000.0 * i as f64 / (per_leg - 1) as f64;
             let x = if leg % 2 == 0 { s } else { 100_000.0 - s };
             let k = (leg * per_leg + i) as f64;
-            let (nx, ny) = if noise {
+            let (nx, ny) = if noise == TrackNoise::Noisy {
                 (5.0 * (1.7 * k).sin(), 5.0 * (2.3 * k).cos())
             } else {
                 (0.0, 0.0)
@@ -111,9 +120,12 @@ fn track(c: &mut Criterion) {
         ("inverse_cube_W500m", DetectionLaw::InverseCube, 500.0),
     ] {
         let w = SweepWidth::new(width, &[]).unwrap();
-        for noise in [false, true] {
+        for (noise, label) in [
+            (TrackNoise::Straight, "straight"),
+            (TrackNoise::Noisy, "noisy"),
+        ] {
             let t = bench_track(noise);
-            let label = format!("{name}_{}", if noise { "noisy" } else { "straight" });
+            let label = format!("{name}_{label}");
             group.bench_function(label, |b| {
                 b.iter(|| black_box(track_pod(&g, &t, law, &w).unwrap()))
             });
@@ -134,7 +146,7 @@ fn track_points(c: &mut Criterion) {
             }
         })
         .collect();
-    let t = bench_track(true);
+    let t = bench_track(TrackNoise::Noisy);
     let mut group = c.benchmark_group("track_pod_at_10k_fixes_1M_points");
     group.sample_size(10);
     for (name, law) in [

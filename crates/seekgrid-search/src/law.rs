@@ -42,6 +42,9 @@ pub enum DetectionLaw {
 }
 
 impl DetectionLaw {
+    /// Every law, in the order the incident format lists them (the default first).
+    pub const ALL: [Self; 3] = [Self::InverseCube, Self::Exponential, Self::DefiniteRange];
+
     /// POD of a parallel-track pattern at coverage `C = W / S` (dimensionless):
     /// definite range `min(1, C)`; inverse cube `erf(√π/2 · C)`; exponential `1 - e^(-C)`.
     ///

@@ -21,7 +21,7 @@
 //! use geo::Coord;
 //! use ndarray::Array2;
 //! use seekgrid_core::{Belief, GridSpec, Particles, DEFAULT_MAX_CELLS};
-//! use seekgrid_search::{pattern_pod, update_after_miss, DetectionLaw, Pattern, SweepWidth};
+//! use seekgrid_search::{pattern_pod, update_after_miss, DetectionLaw, Pattern, Rectangle, SweepWidth};
 //!
 //! // 10 x 10 cells of 100 m; all mass spread evenly over the grid but 10 % rest of world.
 //! let grid = GridSpec::new(0.0, 1000.0, 100.0, 10, 10, DEFAULT_MAX_CELLS).unwrap();
@@ -30,13 +30,13 @@
 //!
 //! // A parallel sweep of the west half at coverage 1 with a 50 m sweep width.
 //! let w = SweepWidth::new(50.0, &[]).unwrap();
-//! let sweep = Pattern::ParallelSweep {
+//! let sweep = Pattern::ParallelSweep(Rectangle {
 //!     center: Coord { x: 250.0, y: 500.0 },
 //!     length_m: 1000.0,
 //!     width_m: 500.0,
 //!     major_grid_bearing_deg: 0.0,
 //!     track_spacing_m: 50.0,
-//! };
+//! });
 //! let pod = pattern_pod(&grid, &sweep, DetectionLaw::InverseCube, &w).unwrap();
 //! assert!((pod.get(5, 2) - 0.789909).abs() < 1e-6); // erf(√π/2)
 //!
@@ -65,7 +65,7 @@ pub use allocation::{
 };
 pub use error::SearchError;
 pub use law::{DetectionLaw, SweepWidth};
-pub use pattern::{Pattern, pattern_pod, pattern_pod_at};
+pub use pattern::{Pattern, Rectangle, pattern_pod, pattern_pod_at};
 pub use pod_layer::PodLayer;
 pub use track::{track_pod, track_pod_at, track_pod_sampled};
 pub use update::{UpdateOutcome, update_after_miss};

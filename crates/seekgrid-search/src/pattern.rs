@@ -12,8 +12,27 @@ use crate::track::{track_pod, track_pod_at};
 use geo::{Area, Coord, LineString, MultiPolygon, Polygon};
 use seekgrid_core::GridSpec;
 
-/// Most legs a pattern may have (protects against a track spacing typed in the wrong unit).
+/// Most legs a pattern may have (protects against a track spacing typed in the wrong unit):
+/// the legs of a rectangle pattern, and the `legs` of an expanding square (1..=`MAX_LEGS`).
 pub const MAX_LEGS: usize = 100_000;
+
+/// Fewest and most sectors of a sector search.
+pub const SECTORS: std::ops::RangeInclusive<usize> = 2..=12;
+
+/// The rectangle of a parallel sweep or creeping line, in the working frame.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Rectangle {
+    /// Centre of the rectangle, working frame, metres.
+    pub center: Coord<f64>,
+    /// Length along the major axis, metres.
+    pub length_m: f64,
+    /// Width across the major axis, metres.
+    pub width_m: f64,
+    /// Grid bearing of the major axis, degrees.
+    pub major_grid_bearing_deg: f64,
+    /// Track spacing S, metres.
+    pub track_spacing_m: f64,
+}
 
 /// A planned or completed search pattern in the working frame.
 #[derive(Clone, Debug, PartialEq)]
@@ -21,32 +40,11 @@ pub enum Pattern {
     /// Parallel sweep of a rectangle: legs along the major axis (`length_m` long), `track_spacing_m`
     /// apart, the first leg on the left of the major bearing and the pattern stepping right.
     /// Legs end `S/2` inside the rectangle; the number of legs is `round(width / S)` (at least 1).
-    ParallelSweep {
-        /// Centre of the rectangle, working frame, metres.
-        center: Coord<f64>,
-        /// Length along the major axis, metres.
-        length_m: f64,
-        /// Width across the major axis, metres.
-        width_m: f64,
-        /// Grid bearing of the major axis and of the first leg, degrees.
-        major_grid_bearing_deg: f64,
-        /// Track spacing S, metres.
-        track_spacing_m: f64,
-    },
+    ParallelSweep(Rectangle),
     /// Creeping line of a rectangle: legs across the major axis (`width_m` long), `S` apart,
-    /// progressing along the major bearing; the first leg runs to the right of it.
-    CreepingLine {
-        /// Centre of the rectangle, working frame, metres.
-        center: Coord<f64>,
-        /// Length along the major axis (the direction of progress), metres.
-        length_m: f64,
-        /// Width across the major axis (the leg direction), metres.
-        width_m: f64,
-        /// Grid bearing of the major axis, degrees.
-        major_grid_bearing_deg: f64,
-        /// Track spacing S, metres.
-        track_spacing_m: f64,
-    },
+    /// progressing along the major bearing (the length is the direction of progress); the first
+    /// leg runs to the right of it.
+    CreepingLine(Rectangle),
     /// Expanding square from the datum: legs of S, S, 2S, 2S, 3S, ... each turning 90° right.
     ExpandingSquare {
         /// Datum and commence search point, working frame, metres.
@@ -120,8 +118,8 @@ impl Pattern {
     #[must_use]
     pub fn kind(&self) -> &'static str {
         match self {
-            Self::ParallelSweep { .. } => "parallel sweep",
-            Self::CreepingLine { .. } => "creeping line",
+            Self::ParallelSweep(_) => "parallel sweep",
+            Self::CreepingLine(_) => "creeping line",
             Self::ExpandingSquare { .. } => "expanding square",
             Self::SectorSearch { .. } => "sector search",
         }
@@ -137,27 +135,21 @@ impl Pattern {
     pub fn validate(&self) -> Result<(), SearchError> {
         let kind = self.kind();
         match *self {
-            Self::ParallelSweep {
-                center,
-                length_m,
-                width_m,
-                major_grid_bearing_deg,
-                track_spacing_m,
-            }
-            | Self::CreepingLine {
-                center,
-                length_m,
-                width_m,
-                major_grid_bearing_deg,
-                track_spacing_m,
-            } => {
+            Self::ParallelSweep(r) | Self::CreepingLine(r) => {
+                let Rectangle {
+                    center,
+                    length_m,
+                    width_m,
+                    major_grid_bearing_deg,
+                    track_spacing_m,
+                } = r;
                 finite(kind, "center.x", center.x)?;
                 finite(kind, "center.y", center.y)?;
                 positive(kind, "length_m", length_m)?;
                 positive(kind, "width_m", width_m)?;
                 positive(kind, "track_spacing_m", track_spacing_m)?;
                 finite(kind, "major_grid_bearing_deg", major_grid_bearing_deg)?;
-                let (leg_len, across) = if matches!(self, Self::ParallelSweep { .. }) {
+                let (leg_len, across) = if matches!(self, Self::ParallelSweep(_)) {
                     (length_m, width_m)
                 } else {
                     (width_m, length_m)
@@ -218,7 +210,7 @@ impl Pattern {
                     "first_leg_grid_bearing_deg",
                     first_leg_grid_bearing_deg,
                 )?;
-                if !(2..=12).contains(&sectors) {
+                if !SECTORS.contains(&sectors) {
                     return Err(SearchError::BadPattern {
                         pattern: kind,
                         field: "sectors",
@@ -238,20 +230,20 @@ impl Pattern {
     #[must_use]
     pub fn area_polygon(&self) -> Polygon<f64> {
         let ring: Vec<Coord<f64>> = match *self {
-            Self::ParallelSweep {
+            Self::ParallelSweep(Rectangle {
                 center,
                 length_m,
                 width_m,
                 major_grid_bearing_deg,
                 ..
-            }
-            | Self::CreepingLine {
+            })
+            | Self::CreepingLine(Rectangle {
                 center,
                 length_m,
                 width_m,
                 major_grid_bearing_deg,
                 ..
-            } => {
+            }) => {
                 let u = unit(major_grid_bearing_deg);
                 let v = unit(major_grid_bearing_deg + 90.0);
                 let (hl, hw) = (0.5 * length_m, 0.5 * width_m);
@@ -315,41 +307,27 @@ impl Pattern {
     pub fn tracks(&self) -> LineString<f64> {
         let mut pts = Vec::new();
         match *self {
-            Self::ParallelSweep {
+            Self::ParallelSweep(Rectangle {
                 center,
                 length_m,
                 width_m,
                 major_grid_bearing_deg,
                 track_spacing_m,
-            } => {
-                let u = unit(major_grid_bearing_deg);
-                let v = unit(major_grid_bearing_deg + 90.0);
+            }) => {
+                let (major, minor) = rectangle_sides(major_grid_bearing_deg, length_m, width_m);
                 // Legs along the major axis, stepping across it.
-                back_and_forth(
-                    &mut pts,
-                    center,
-                    (u, length_m),
-                    (v, width_m),
-                    track_spacing_m,
-                );
+                back_and_forth(&mut pts, center, major, minor, track_spacing_m);
             }
-            Self::CreepingLine {
+            Self::CreepingLine(Rectangle {
                 center,
                 length_m,
                 width_m,
                 major_grid_bearing_deg,
                 track_spacing_m,
-            } => {
-                let u = unit(major_grid_bearing_deg);
-                let v = unit(major_grid_bearing_deg + 90.0);
+            }) => {
+                let (major, minor) = rectangle_sides(major_grid_bearing_deg, length_m, width_m);
                 // Legs across the major axis, creeping along it.
-                back_and_forth(
-                    &mut pts,
-                    center,
-                    (v, width_m),
-                    (u, length_m),
-                    track_spacing_m,
-                );
+                back_and_forth(&mut pts, center, minor, major, track_spacing_m);
             }
             Self::ExpandingSquare {
                 center,
@@ -373,7 +351,7 @@ impl Pattern {
                 first_leg_grid_bearing_deg,
                 sectors,
             } => {
-                let k = sectors.clamp(1, 12);
+                let k = sectors.clamp(*SECTORS.start(), *SECTORS.end());
                 let alpha = 180.0 / k as f64;
                 pts.push(center);
                 for j in 0..k {
@@ -401,12 +379,12 @@ impl Pattern {
     #[must_use]
     pub fn coverage(&self, w: &SweepWidth) -> f64 {
         match *self {
-            Self::ParallelSweep {
+            Self::ParallelSweep(Rectangle {
                 track_spacing_m, ..
-            }
-            | Self::CreepingLine {
+            })
+            | Self::CreepingLine(Rectangle {
                 track_spacing_m, ..
-            }
+            })
             | Self::ExpandingSquare {
                 track_spacing_m, ..
             } => w.metres() / track_spacing_m,
@@ -420,23 +398,92 @@ impl Pattern {
     /// line), rather than along its track (expanding square, sector search).
     #[must_use]
     pub fn is_rectangle(&self) -> bool {
-        matches!(self, Self::ParallelSweep { .. } | Self::CreepingLine { .. })
+        self.rectangle().is_some()
+    }
+
+    /// The rectangle of a parallel sweep or creeping line; `None` for the datum patterns.
+    #[must_use]
+    pub fn rectangle(&self) -> Option<&Rectangle> {
+        match self {
+            Self::ParallelSweep(r) | Self::CreepingLine(r) => Some(r),
+            Self::ExpandingSquare { .. } | Self::SectorSearch { .. } => None,
+        }
+    }
+
+    /// The track spacing of a parallel sweep, creeping line or expanding square, metres;
+    /// `None` for a sector search (its legs fan out from the datum).
+    #[must_use]
+    pub fn track_spacing_m(&self) -> Option<f64> {
+        match self {
+            Self::ParallelSweep(r) | Self::CreepingLine(r) => Some(r.track_spacing_m),
+            Self::ExpandingSquare {
+                track_spacing_m, ..
+            } => Some(*track_spacing_m),
+            Self::SectorSearch { .. } => None,
+        }
+    }
+
+    /// The first `share` of [`Pattern::tracks`] by length, commence search point first: the
+    /// legs of a search cut short after flying that share of its track (`share` in 0..=1, a
+    /// value outside is clamped; NaN is taken as 0). The last point is interpolated on the
+    /// leg where the share ends; `share = 1` gives every leg.
+    /// Meaningful only for a pattern that passes [`Pattern::validate`].
+    #[must_use]
+    pub fn truncated_tracks(&self, share: f64) -> LineString<f64> {
+        let full = self.tracks();
+        let share = if share.is_nan() {
+            0.0
+        } else {
+            share.clamp(0.0, 1.0)
+        };
+        if share >= 1.0 {
+            return full;
+        }
+        let total: f64 = full.lines().map(|l| l.dx().hypot(l.dy())).sum();
+        let target = share * total;
+        let mut pts = vec![full.0[0]];
+        let mut done = 0.0;
+        for l in full.lines() {
+            let len = l.dx().hypot(l.dy());
+            if done + len >= target {
+                let f = if len > 0.0 {
+                    (target - done) / len
+                } else {
+                    0.0
+                };
+                pts.push(Coord {
+                    x: l.start.x + f * l.dx(),
+                    y: l.start.y + f * l.dy(),
+                });
+                break;
+            }
+            pts.push(l.end);
+            done += len;
+        }
+        LineString::from(pts)
     }
 }
 
-/// Legs of a rectangle pattern across `extent_m` at spacing `spacing_m`.
+/// One side of a rectangle: its direction (a unit vector in the working frame) and its
+/// extent that way, metres.
+#[derive(Clone, Copy, Debug)]
+struct RectangleSide {
+    direction: Coord<f64>,
+    extent_m: f64,
+}
+
 /// The turn points of legs of a rectangle's back-and-forth pattern, centred on `center`: legs
-/// along `leg` (direction, extent of the rectangle that way; each leg stops half a spacing short
-/// of the edges), `spacing_m` apart along `step` (direction, extent), alternating in direction.
+/// along `leg` (each stops half a spacing short of the rectangle's edges), `spacing_m` apart
+/// along `step`, alternating in direction.
 fn back_and_forth(
     pts: &mut Vec<Coord<f64>>,
     center: Coord<f64>,
-    leg: (Coord<f64>, f64),
-    step: (Coord<f64>, f64),
+    leg: RectangleSide,
+    step: RectangleSide,
     spacing_m: f64,
 ) {
-    let n = legs_across(step.1, spacing_m);
-    let half_leg = 0.5 * (leg.1 - spacing_m);
+    let n = legs_across(step.extent_m, spacing_m);
+    let half_leg = 0.5 * (leg.extent_m - spacing_m);
     for j in 0..n {
         let off = (j as f64 - 0.5 * (n - 1) as f64) * spacing_m;
         let (s0, s1) = if j % 2 == 0 {
@@ -444,9 +491,28 @@ fn back_and_forth(
         } else {
             (half_leg, -half_leg)
         };
-        pts.push(at(center, leg.0, s0, step.0, off));
-        pts.push(at(center, leg.0, s1, step.0, off));
+        pts.push(at(center, leg.direction, s0, step.direction, off));
+        pts.push(at(center, leg.direction, s1, step.direction, off));
     }
+}
+
+/// The major side (along the major grid bearing, `length_m`) and the minor side (90° clockwise
+/// from it, `width_m`) of a rectangle.
+fn rectangle_sides(
+    major_grid_bearing_deg: f64,
+    length_m: f64,
+    width_m: f64,
+) -> (RectangleSide, RectangleSide) {
+    (
+        RectangleSide {
+            direction: unit(major_grid_bearing_deg),
+            extent_m: length_m,
+        },
+        RectangleSide {
+            direction: unit(major_grid_bearing_deg + 90.0),
+            extent_m: width_m,
+        },
+    )
 }
 
 fn legs_across(extent_m: f64, spacing_m: f64) -> usize {
@@ -501,20 +567,20 @@ pub fn pattern_pod_at(
 ) -> Result<Vec<f64>, SearchError> {
     pattern.validate()?;
     match *pattern {
-        Pattern::ParallelSweep {
+        Pattern::ParallelSweep(Rectangle {
             center,
             length_m,
             width_m,
             major_grid_bearing_deg,
             ..
-        }
-        | Pattern::CreepingLine {
+        })
+        | Pattern::CreepingLine(Rectangle {
             center,
             length_m,
             width_m,
             major_grid_bearing_deg,
             ..
-        } => {
+        }) => {
             let pod = law.pod_from_coverage(pattern.coverage(w));
             let u = unit(major_grid_bearing_deg);
             let v = unit(major_grid_bearing_deg + 90.0);

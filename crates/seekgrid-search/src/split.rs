@@ -353,7 +353,7 @@ impl FarField {
         }
         // Linear convolution by a circular one on a padded array (see `fft_convolve`).
         let (kx, ky) = (src.nx + out.nx - 1, src.ny + out.ny - 1);
-        let (nx, ny) = (fft_length(kx, true), fft_length(ky, false));
+        let (nx, ny) = (fft_length(kx, Parity::Even), fft_length(ky, Parity::Any));
         let dmin_x = out.i0 - src.i0 - (src.nx as i64 - 1);
         let dmin_y = out.j0 - src.j0 - (src.ny as i64 - 1);
         let mut kernel = vec![0.0; nx * ny];
@@ -410,8 +410,18 @@ impl FarField {
     }
 }
 
-/// The smallest `n' ≥ n` whose prime factors are 2, 3 and 5 (fast FFT lengths), even if asked.
-fn fft_length(n: usize, even: bool) -> usize {
+/// Which FFT lengths [`fft_length`] may return.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Parity {
+    /// Even lengths only (the real FFT's axis).
+    Even,
+    /// Any length.
+    Any,
+}
+
+/// The smallest `n' ≥ n` whose prime factors are 2, 3 and 5 (fast FFT lengths), of the given
+/// parity.
+fn fft_length(n: usize, parity: Parity) -> usize {
     let mut m = n.max(2);
     loop {
         let mut r = m;
@@ -420,7 +430,7 @@ fn fft_length(n: usize, even: bool) -> usize {
                 r /= p;
             }
         }
-        if r == 1 && (!even || m.is_multiple_of(2)) {
+        if r == 1 && (parity == Parity::Any || m.is_multiple_of(2)) {
             return m;
         }
         m += 1;
@@ -857,10 +867,10 @@ mod tests {
 
     #[test]
     fn fft_lengths_have_small_prime_factors() {
-        assert_eq!(fft_length(1499, true), 1500);
-        assert_eq!(fft_length(1537, false), 1600);
-        assert_eq!(fft_length(7, true), 8);
-        assert_eq!(fft_length(7, false), 8);
-        assert_eq!(fft_length(9, false), 9);
+        assert_eq!(fft_length(1499, Parity::Even), 1500);
+        assert_eq!(fft_length(1537, Parity::Any), 1600);
+        assert_eq!(fft_length(7, Parity::Even), 8);
+        assert_eq!(fft_length(7, Parity::Any), 8);
+        assert_eq!(fft_length(9, Parity::Any), 9);
     }
 }

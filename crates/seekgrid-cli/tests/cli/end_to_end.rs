@@ -52,6 +52,7 @@ fn help_carries_the_caution_on_every_command() {
         vec!["check", "--help"],
         vec!["demo", "--help"],
         vec!["credibility", "--help"],
+        vec!["review", "--help"],
     ] {
         let o = seekgrid(&args);
         assert!(o.status.success());

@@ -2,8 +2,11 @@
 //! test binary with a module per topic.
 
 mod credibility;
+mod catalogue;
 mod end_to_end;
 mod external;
 mod frame_vs_proj;
 mod golden;
+mod log;
 mod output_folder;
+mod review;

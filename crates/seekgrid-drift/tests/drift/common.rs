@@ -4,6 +4,7 @@ use chrono::{Duration, TimeZone, Utc};
 use geo::Coord;
 use seekgrid_core::Frame;
 use seekgrid_core::units::METRES_PER_NM;
+use seekgrid_core::units::hours_to_s;
 use seekgrid_drift::*;
 
 /// Last known position used by most tests: 2.5 degrees east of the central meridian of its UTM
@@ -16,7 +17,7 @@ pub fn t0() -> Time {
 }
 
 pub fn hours(h: f64) -> Time {
-    t0() + Duration::milliseconds((h * 3_600_000.0).round() as i64)
+    t0() + Duration::milliseconds((hours_to_s(h) * 1000.0).round() as i64)
 }
 
 pub fn frame() -> Frame {

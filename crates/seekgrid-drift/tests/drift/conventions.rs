@@ -3,6 +3,7 @@
 use crate::common::*;
 use approx::assert_abs_diff_eq;
 use geo::Coord;
+use seekgrid_core::units::SECONDS_PER_HOUR;
 use seekgrid_drift::*;
 
 #[test]
@@ -13,7 +14,7 @@ fn wind_from_270_pushes_the_object_east() {
         Environment::Constant(exact(10.0, 270.0)),
         downwind_only(0.03, 0.0),
     );
-    let run = run(&s, 2.0, 3600.0, None);
+    let run = run(&s, 2.0, SECONDS_PER_HOUR, None);
     let snap = run.positions_at(hours(2.0));
     let (e, n) = true_displacement_nm(Coord {
         x: snap.x_m[0],
@@ -31,7 +32,7 @@ fn current_toward_180_pushes_the_object_south() {
         Environment::Constant(exact(0.0, 0.0)),
         Leeway::NONE,
     );
-    let run = run(&s, 3.0, 3600.0, None);
+    let run = run(&s, 3.0, SECONDS_PER_HOUR, None);
     let snap = run.positions_at(hours(3.0));
     let (e, n) = true_displacement_nm(Coord {
         x: snap.x_m[0],

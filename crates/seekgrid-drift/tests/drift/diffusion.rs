@@ -3,6 +3,7 @@
 use crate::common::*;
 use approx::assert_abs_diff_eq;
 use geo::Coord;
+use seekgrid_core::units::{SECONDS_PER_HOUR, hours_to_s};
 use seekgrid_drift::*;
 
 fn true_offsets_m(run: &DriftRun, t: Time) -> (Vec<f64>, Vec<f64>) {
@@ -39,9 +40,9 @@ fn diffusion_alone_grows_the_variance_per_axis_as_2kt() {
     );
     s.diffusivity_m2_s = 10.0;
     s.particles = 20_000;
-    let run = run(&s, 6.0, 3600.0, None);
+    let run = run(&s, 6.0, SECONDS_PER_HOUR, None);
     for h in [3.0, 6.0] {
-        let expect = 2.0 * 10.0 * h * 3600.0;
+        let expect = 2.0 * 10.0 * hours_to_s(h);
         let (e, n) = true_offsets_m(&run, hours(h));
         for axis in [&e, &n] {
             let (m, var) = mean_var(axis);
@@ -69,7 +70,7 @@ fn environment_errors_are_held_per_particle_so_the_spread_grows_linearly() {
         Leeway::NONE,
     );
     s.particles = 20_000;
-    let run = run(&s, 6.0, 3600.0, None);
+    let run = run(&s, 6.0, SECONDS_PER_HOUR, None);
     let nm = seekgrid_core::units::METRES_PER_NM;
     let (e3, n3) = true_offsets_m(&run, hours(3.0));
     let (e6, _) = true_offsets_m(&run, hours(6.0));

@@ -1,6 +1,7 @@
 //! Bad input is refused with an error naming the field, never a panic.
 
 use crate::common::*;
+use seekgrid_core::units::SECONDS_PER_HOUR;
 use seekgrid_drift::*;
 
 fn try_run(s: &DriftScenario, options: &SimulationOptions) -> Result<DriftRun, DriftError> {
@@ -118,6 +119,17 @@ fn zero_particles_and_bad_options_are_refused() {
         try_run(&s, &options(1.0)).unwrap_err(),
         DriftError::NoParticles
     );
+    // The upper limit is checked before anything is allocated.
+    let mut s = ok_scenario();
+    s.particles = seekgrid_drift::MAX_PARTICLES + 1;
+    assert_eq!(
+        s.validate(),
+        Err(DriftError::TooManyParticles {
+            particles: seekgrid_drift::MAX_PARTICLES + 1
+        })
+    );
+    s.particles = seekgrid_drift::MAX_PARTICLES;
+    assert_eq!(s.validate(), Ok(()));
 
     let s = ok_scenario();
     assert!(matches!(
@@ -169,7 +181,7 @@ fn records_that_would_not_fit_in_memory_are_refused() {
     one.particles = 1;
     let tiny_steps = SimulationOptions {
         end: hours(48.0),
-        record_every_s: 3600.0,
+        record_every_s: SECONDS_PER_HOUR,
         step_s: Some(1e-4),
         also_record_at: Vec::new(),
     };

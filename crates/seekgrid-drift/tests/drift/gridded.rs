@@ -8,6 +8,7 @@ use crate::common::*;
 use approx::assert_abs_diff_eq;
 use chrono::Duration;
 use geo::Coord;
+use seekgrid_core::units::{SECONDS_PER_HOUR, hours_to_s};
 use seekgrid_drift::*;
 
 fn at_s(t_s: f64) -> Time {
@@ -137,8 +138,8 @@ fn a_field_uniform_in_space_drifts_like_the_same_time_series() {
     a.position_sigma_m = 300.0;
     let mut b = a.clone();
     b.current = as_series;
-    let ra = run(&a, 6.0, 3600.0, Some(900.0));
-    let rb = run(&b, 6.0, 3600.0, Some(900.0));
+    let ra = run(&a, 6.0, SECONDS_PER_HOUR, Some(900.0));
+    let rb = run(&b, 6.0, SECONDS_PER_HOUR, Some(900.0));
     let (pa, pb) = (ra.positions_at(hours(6.0)), rb.positions_at(hours(6.0)));
     for i in 0..ra.len() {
         assert_abs_diff_eq!(pa.x_m[i], pb.x_m[i], epsilon = 1e-6);
@@ -164,7 +165,7 @@ fn drift_through_a_sheared_field_matches_a_dense_reference() {
         Leeway::NONE,
     );
     s.particles = 4;
-    let r = run(&s, 6.0, 3600.0, None);
+    let r = run(&s, 6.0, SECONDS_PER_HOUR, None);
     let f = frame();
     let vel = |p: Coord<f64>, t_s: f64| {
         let (lon, lat) = f.to_lon_lat(p);
@@ -172,7 +173,7 @@ fn drift_through_a_sheared_field_matches_a_dense_reference() {
         true_kn_to_grid_mps(u, v)
     };
     let mut p = f.to_xy(LKP.0, LKP.1);
-    for k in 0..6 * 3600 {
+    for k in 0..hours_to_s(6.0) as i64 {
         let t = k as f64;
         let mid = p + vel(p, t) * 0.5;
         p = p + vel(mid, t + 0.5);

@@ -3,6 +3,7 @@
 use crate::common::*;
 use approx::assert_abs_diff_eq;
 use geo::Coord;
+use seekgrid_core::units::SECONDS_PER_HOUR;
 use seekgrid_drift::*;
 
 #[test]
@@ -21,7 +22,7 @@ fn the_two_leeway_sides_separate_by_twice_the_crosswind_drift() {
         lw,
     );
     s.particles = 2000;
-    let run = run(&s, 6.0, 3600.0, None);
+    let run = run(&s, 6.0, SECONDS_PER_HOUR, None);
     let snap = run.positions_at(hours(6.0));
     let mut east = Vec::new();
     for i in 0..run.len() {
@@ -64,7 +65,7 @@ fn jibing_objects_spread_across_the_wind_like_a_telegraph_process() {
         lw,
     );
     s.particles = 20_000;
-    let run = run(&s, 6.0, 3600.0, None);
+    let run = run(&s, 6.0, SECONDS_PER_HOUR, None);
     let snap = run.positions_at(hours(6.0));
     let east: Vec<f64> = (0..run.len())
         .map(|i| {

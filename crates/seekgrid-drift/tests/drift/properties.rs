@@ -3,6 +3,7 @@
 use crate::common::*;
 use geo::Coord;
 use proptest::prelude::*;
+use seekgrid_core::units::{SECONDS_PER_HOUR, s_to_hours};
 use seekgrid_drift::*;
 
 proptest! {
@@ -27,13 +28,13 @@ proptest! {
             lw,
         );
         s.particles = 4;
-        let run = run(&s, end_h, 3600.0, None);
+        let run = run(&s, end_h, SECONDS_PER_HOUR, None);
         let snap = run.positions_at(hours(end_h));
         let c = exact(cur_kn, cur_toward).velocity_kn(Convention::CURRENT);
         let d = exact(1.0, wind_from).velocity_kn(Convention::WIND);
         let down = slope * wind_kn + offset;
         // Right of downwind: (d.n, -d.e).
-        let t = (run.end() - t0()).as_seconds_f64() / 3600.0;
+        let t = s_to_hours((run.end() - t0()).as_seconds_f64());
         for i in 0..run.len() {
             let (e, n) = true_displacement_nm(Coord { x: snap.x_m[i], y: snap.y_m[i] });
             let fits = [1.0, -1.0].iter().any(|side| {
@@ -54,7 +55,7 @@ proptest! {
         );
         s.position_sigma_m = 200.0;
         s.seed = seed;
-        let run = run(&s, 1.0, 3600.0, Some(3600.0));
+        let run = run(&s, 1.0, SECONDS_PER_HOUR, Some(SECONDS_PER_HOUR));
         let w = run.initial_weights();
         let scaled: Vec<f64> = w.iter().map(|x| x * scale).collect();
         let a = run.spread_at(hours(1.0), &w).unwrap();

@@ -2,6 +2,7 @@
 
 use crate::common::*;
 use geo::{Coord, MultiPolygon, Rect};
+use seekgrid_core::units::{SECONDS_PER_HOUR, hours_to_s};
 use seekgrid_drift::*;
 use std::sync::Mutex;
 
@@ -57,7 +58,7 @@ fn everything_uncertain(particles: usize) -> DriftScenario {
 fn options(step_s: Option<f64>) -> SimulationOptions {
     SimulationOptions {
         end: hours(8.0),
-        record_every_s: 3600.0,
+        record_every_s: SECONDS_PER_HOUR,
         step_s,
         also_record_at: Vec::new(),
     }
@@ -146,11 +147,11 @@ fn halving_the_automatic_step_moves_the_mean_by_less_than_one_percent_of_the_spr
     }
     // The test can fail: a coarse 4 h step does not meet the property here.
     let coarse_opts = SimulationOptions {
-        record_every_s: 8.0 * 3600.0,
-        ..options(Some(4.0 * 3600.0))
+        record_every_s: hours_to_s(8.0),
+        ..options(Some(hours_to_s(4.0)))
     };
     let half_opts = SimulationOptions {
-        step_s: Some(2.0 * 3600.0),
+        step_s: Some(hours_to_s(2.0)),
         ..coarse_opts.clone()
     };
     let coarse = simulate(&s, &f, None, &coarse_opts, &|_, _| {}).unwrap();
@@ -161,7 +162,7 @@ fn halving_the_automatic_step_moves_the_mean_by_less_than_one_percent_of_the_spr
     );
     let shift = (a.mean.x - b.mean.x).hypot(a.mean.y - b.mean.y);
     assert!(shift > 0.01 * b.rms_radius_m(), "coarse shift {shift} m");
-    assert!(h < 4.0 * 3600.0);
+    assert!(h < hours_to_s(4.0));
 }
 
 #[test]
@@ -172,7 +173,7 @@ fn progress_is_reported_once_per_chunk_up_to_the_total() {
         &s,
         &frame(),
         None,
-        &options(Some(3600.0)),
+        &options(Some(SECONDS_PER_HOUR)),
         &|done, total| {
             calls.lock().unwrap().push((done, total));
         },

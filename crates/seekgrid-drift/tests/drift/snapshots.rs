@@ -3,6 +3,7 @@
 use crate::common::*;
 use approx::assert_abs_diff_eq;
 use geo::Coord;
+use seekgrid_core::units::{SECONDS_PER_HOUR, s_to_hours};
 use seekgrid_drift::*;
 
 #[test]
@@ -16,7 +17,7 @@ fn particles_wait_at_their_start_until_adrift_then_move() {
     );
     s.adrift_latest = hours(2.0);
     s.particles = 200;
-    let run = run(&s, 4.0, 3600.0, None);
+    let run = run(&s, 4.0, SECONDS_PER_HOUR, None);
     let adrift = run.adrift_times();
     assert!(adrift.iter().all(|t| *t >= t0() && *t <= hours(2.0)));
     let early = adrift.iter().filter(|t| **t < hours(1.0)).count();
@@ -27,7 +28,7 @@ fn particles_wait_at_their_start_until_adrift_then_move() {
     for th in [0.0, 0.5, 1.0, 1.7, 2.0, 3.3, 4.0] {
         let snap = run.positions_at(hours(th));
         for (i, adrift_i) in adrift.iter().enumerate() {
-            let since_h = ((hours(th) - *adrift_i).as_seconds_f64() / 3600.0).max(0.0);
+            let since_h = s_to_hours((hours(th) - *adrift_i).as_seconds_f64()).max(0.0);
             let (e, n) = true_displacement_nm(Coord {
                 x: snap.x_m[i],
                 y: snap.y_m[i],
@@ -46,7 +47,7 @@ fn times_outside_the_run_are_clamped_to_its_ends() {
         Environment::Constant(exact(0.0, 0.0)),
         Leeway::NONE,
     );
-    let run = run(&s, 2.0, 3600.0, None);
+    let run = run(&s, 2.0, SECONDS_PER_HOUR, None);
     assert_eq!(run.positions_at(hours(-3.0)), run.positions_at(hours(0.0)));
     assert_eq!(run.positions_at(hours(9.0)), run.positions_at(hours(2.0)));
     assert_eq!(run.record_times(), vec![hours(0.0), hours(1.0), hours(2.0)]);
@@ -61,7 +62,7 @@ fn initial_weights_are_equal_and_sum_to_one() {
         Leeway::NONE,
     );
     s.particles = 7;
-    let run = run(&s, 1.0, 3600.0, None);
+    let run = run(&s, 1.0, SECONDS_PER_HOUR, None);
     let w = run.initial_weights();
     assert_eq!(w.len(), 7);
     assert_abs_diff_eq!(

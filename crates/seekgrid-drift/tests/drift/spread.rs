@@ -3,6 +3,7 @@
 use crate::common::*;
 use approx::assert_abs_diff_eq;
 use geo::Coord;
+use seekgrid_core::units::SECONDS_PER_HOUR;
 use seekgrid_drift::*;
 
 #[test]
@@ -39,7 +40,7 @@ fn an_isotropic_gaussian_cloud_has_a_50_percent_circle_of_1_177_sigma() {
     );
     s.position_sigma_m = 1000.0;
     s.particles = 20_000;
-    let run = run(&s, 1.0, 3600.0, None);
+    let run = run(&s, 1.0, SECONDS_PER_HOUR, None);
     let spread = run.spread_at(hours(1.0), &run.initial_weights()).unwrap();
     let f = frame();
     let lkp = f.to_xy(LKP.0, LKP.1);

@@ -3,6 +3,7 @@
 use crate::common::*;
 use approx::assert_abs_diff_eq;
 use geo::{Coord, MultiPolygon, Rect};
+use seekgrid_core::units::SECONDS_PER_HOUR;
 use seekgrid_drift::*;
 
 /// First entry of the segment p + t d, t in [0, 1], into an axis-aligned box (slab method):
@@ -136,7 +137,7 @@ fn particles_drawn_on_land_are_stranded_from_the_start() {
     let (land, _, _) = island(f.to_xy(LKP.0, LKP.1), 1000.0);
     let options = SimulationOptions {
         end: hours(2.0),
-        record_every_s: 3600.0,
+        record_every_s: SECONDS_PER_HOUR,
         step_s: None,
         also_record_at: Vec::new(),
     };

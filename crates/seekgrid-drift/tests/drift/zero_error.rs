@@ -3,6 +3,7 @@
 use crate::common::*;
 use approx::assert_abs_diff_eq;
 use geo::Coord;
+use seekgrid_core::units::{SECONDS_PER_HOUR, hours_to_s};
 use seekgrid_drift::*;
 
 #[test]
@@ -16,7 +17,7 @@ fn drift_with_no_error_is_the_vector_sum_of_current_and_leeway_times_time() {
         Environment::Constant(exact(12.0, 225.0)),
         downwind_only(0.0, 0.5),
     );
-    let run = run(&s, 6.0, 3600.0, None);
+    let run = run(&s, 6.0, SECONDS_PER_HOUR, None);
     let snap = run.positions_at(hours(6.0));
     for i in 0..run.len() {
         let p = Coord {
@@ -86,7 +87,7 @@ fn series_current_is_integrated_like_a_dense_reference() {
     let run = run(&s, 5.0, 1800.0, None);
     let env = Environment::Series(samples);
     let (mut e, mut n) = (0.0, 0.0);
-    for k in 0..5 * 3600 {
+    for k in 0..hours_to_s(5.0) as i64 {
         let t = t0() + chrono::Duration::milliseconds(k * 1000 + 500);
         let (ve, vn) = env.velocity_mps(LKP.0, LKP.1, t, Convention::CURRENT);
         e += ve;
@@ -127,7 +128,7 @@ fn rotating_wind_leeway_is_integrated_like_a_dense_reference() {
         Environment::Series(samples.clone()),
         lw,
     );
-    let run = run(&s, 6.0, 3600.0, None);
+    let run = run(&s, 6.0, SECONDS_PER_HOUR, None);
     let wind = Environment::Series(samples);
     let cur = exact(0.3, 45.0).velocity_mps(Convention::CURRENT);
     let leeway_mps = |t: Time| {
@@ -138,7 +139,7 @@ fn rotating_wind_leeway_is_integrated_like_a_dense_reference() {
         (cur.0 + l * we / u, cur.1 + l * wn / u)
     };
     let (mut e, mut n) = (0.0, 0.0);
-    for k in 0..6 * 3600 {
+    for k in 0..hours_to_s(6.0) as i64 {
         let (ve, vn) = leeway_mps(t0() + chrono::Duration::milliseconds(k * 1000 + 500));
         e += ve;
         n += vn;

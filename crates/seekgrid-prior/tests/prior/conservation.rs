@@ -4,14 +4,15 @@ use super::common::{c, grid, multi, rect_polygon};
 use proptest::prelude::*;
 use seekgrid_core::neumaier_sum;
 use seekgrid_prior::{
-    Analyst, Pool, RingInterpolation, Scenario, Segment, Shape, auto_extent, combine, scenario_mass,
+    Analyst, Pool, RingInterpolation, Scenario, ScenarioShape, Segment, auto_extent, combine,
+    scenario_mass,
 };
 
-fn shape_strategy() -> impl Strategy<Value = Shape> {
+fn shape_strategy() -> impl Strategy<Value = ScenarioShape> {
     let coord = (-3_000.0..7_000.0f64, -3_000.0..7_000.0f64);
     prop_oneof![
         (coord.clone(), 50.0..3_000.0f64, 0.05..1.0f64, 0.0..360.0f64).prop_map(
-            |((x, y), smaj, ratio, b)| Shape::Point {
+            |((x, y), smaj, ratio, b)| ScenarioShape::Point {
                 center: c(x, y),
                 sigma_major_m: smaj,
                 sigma_minor_m: smaj * ratio,
@@ -22,7 +23,7 @@ fn shape_strategy() -> impl Strategy<Value = Shape> {
             proptest::collection::vec(coord.clone(), 2..5),
             50.0..1_500.0f64
         )
-            .prop_map(|(pts, s)| Shape::Route {
+            .prop_map(|(pts, s)| ScenarioShape::Route {
                 waypoints: pts
                     .into_iter()
                     .enumerate()
@@ -31,31 +32,35 @@ fn shape_strategy() -> impl Strategy<Value = Shape> {
                 cross_track_sigma_m: s,
             }),
         (coord.clone(), 10.0..3_000.0f64, 10.0..3_000.0f64).prop_map(|((x, y), w, h)| {
-            Shape::Area {
+            ScenarioShape::Area {
                 polygons: multi(vec![rect_polygon(x, y, x + w, y + h)]),
             }
         }),
-        (coord.clone(), 0.0..0.6f64, 0.0..0.4f64).prop_map(|((x, y), p1, p2)| Shape::Segments {
-            segments: vec![
-                Segment {
-                    id: "s1".into(),
-                    polygons: multi(vec![rect_polygon(x, y, x + 800.0, y + 500.0)])
-                },
-                Segment {
-                    id: "s2".into(),
-                    polygons: multi(vec![rect_polygon(x + 800.0, y, x + 1_300.0, y + 900.0)])
-                },
-            ],
-            poa: vec![p1, p2],
+        (coord.clone(), 0.0..0.6f64, 0.0..0.4f64).prop_map(|((x, y), p1, p2)| {
+            ScenarioShape::Segments {
+                segments: vec![
+                    Segment {
+                        id: "s1".into(),
+                        polygons: multi(vec![rect_polygon(x, y, x + 800.0, y + 500.0)]),
+                    },
+                    Segment {
+                        id: "s2".into(),
+                        polygons: multi(vec![rect_polygon(x + 800.0, y, x + 1_300.0, y + 900.0)]),
+                    },
+                ],
+                poa: vec![p1, p2],
+            }
         }),
-        (coord, 100.0..2_000.0f64, prop::bool::ANY).prop_map(|((x, y), r, smooth)| Shape::Rings {
-            center: c(x, y),
-            quantiles: vec![(0.25, r), (0.5, 2.0 * r), (0.9, 3.5 * r)],
-            interpolation: if smooth {
-                RingInterpolation::MonotoneCubic
-            } else {
-                RingInterpolation::UniformPerRing
-            },
+        (coord, 100.0..2_000.0f64, prop::bool::ANY).prop_map(|((x, y), r, smooth)| {
+            ScenarioShape::Rings {
+                center: c(x, y),
+                quantiles: vec![(0.25, r), (0.5, 2.0 * r), (0.9, 3.5 * r)],
+                interpolation: if smooth {
+                    RingInterpolation::MonotoneCubic
+                } else {
+                    RingInterpolation::UniformPerRing
+                },
+            }
         }),
     ]
 }
@@ -110,7 +115,7 @@ proptest! {
 
 #[test]
 fn extent_of_a_point_holds_its_mass_to_a_ten_thousandth() {
-    let shape = Shape::Point {
+    let shape = ScenarioShape::Point {
         center: c(1_000.0, 2_000.0),
         sigma_major_m: 1_500.0,
         sigma_minor_m: 300.0,
@@ -124,7 +129,7 @@ fn extent_of_a_point_holds_its_mass_to_a_ten_thousandth() {
 
 #[test]
 fn auto_extent_is_the_union_of_the_scenario_extents() {
-    let s = |id: &str, shape: Shape| Scenario {
+    let s = |id: &str, shape: ScenarioShape| Scenario {
         id: id.into(),
         analyst: "a".into(),
         weight: 1.0,
@@ -133,7 +138,7 @@ fn auto_extent_is_the_union_of_the_scenario_extents() {
     let scenarios = [
         s(
             "p",
-            Shape::Point {
+            ScenarioShape::Point {
                 center: c(0.0, 0.0),
                 sigma_major_m: 100.0,
                 sigma_minor_m: 100.0,
@@ -142,7 +147,7 @@ fn auto_extent_is_the_union_of_the_scenario_extents() {
         ),
         s(
             "r",
-            Shape::Rings {
+            ScenarioShape::Rings {
                 center: c(5_000.0, 5_000.0),
                 quantiles: vec![(0.5, 1_000.0)],
                 interpolation: RingInterpolation::UniformPerRing,

@@ -3,14 +3,15 @@
 use super::common::{c, grid, multi, rect_polygon};
 use geo::{LineString, MultiPolygon, Polygon};
 use seekgrid_prior::{
-    Analyst, Pool, PriorError, RingInterpolation, Scenario, Segment, Shape, ShapeError, combine,
+    Analyst, Pool, PriorError, RingInterpolation, Scenario, ScenarioShape, Segment, ShapeError,
+    combine,
 };
 
 /// A check that an error is the expected one.
 type Expect = fn(&ShapeError) -> bool;
 
-fn ok_point() -> Shape {
-    Shape::Point {
+fn ok_point() -> ScenarioShape {
+    ScenarioShape::Point {
         center: c(500.0, 500.0),
         sigma_major_m: 200.0,
         sigma_minor_m: 100.0,
@@ -34,7 +35,7 @@ fn an(id: &str, w: f64) -> Analyst {
     }
 }
 
-fn sc(id: &str, who: &str, w: f64, shape: Shape) -> Scenario {
+fn sc(id: &str, who: &str, w: f64, shape: ScenarioShape) -> Scenario {
     Scenario {
         id: id.into(),
         analyst: who.into(),
@@ -118,7 +119,7 @@ fn bad_shapes_are_refused_naming_scenario_analyst_and_field() {
             "drift start",
             "ann",
             1.0,
-            Shape::Point {
+            ScenarioShape::Point {
                 center: c(0.0, 0.0),
                 sigma_major_m: -5.0,
                 sigma_minor_m: 1.0,
@@ -145,9 +146,9 @@ fn bad_shapes_are_refused_naming_scenario_analyst_and_field() {
 
 #[test]
 fn each_kind_of_bad_shape_has_its_own_error() {
-    let cases: Vec<(Shape, Expect)> = vec![
+    let cases: Vec<(ScenarioShape, Expect)> = vec![
         (
-            Shape::Point {
+            ScenarioShape::Point {
                 center: c(0.0, 0.0),
                 sigma_major_m: 100.0,
                 sigma_minor_m: 0.0,
@@ -164,7 +165,7 @@ fn each_kind_of_bad_shape_has_its_own_error() {
             },
         ),
         (
-            Shape::Point {
+            ScenarioShape::Point {
                 center: c(0.0, 0.0),
                 sigma_major_m: 100.0,
                 sigma_minor_m: 200.0,
@@ -173,7 +174,7 @@ fn each_kind_of_bad_shape_has_its_own_error() {
             |e| matches!(e, ShapeError::MinorExceedsMajor { .. }),
         ),
         (
-            Shape::Point {
+            ScenarioShape::Point {
                 center: c(f64::NAN, 0.0),
                 sigma_major_m: 100.0,
                 sigma_minor_m: 100.0,
@@ -182,21 +183,21 @@ fn each_kind_of_bad_shape_has_its_own_error() {
             |e| matches!(e, ShapeError::NotFinite { .. }),
         ),
         (
-            Shape::Route {
+            ScenarioShape::Route {
                 waypoints: vec![c(0.0, 0.0)],
                 cross_track_sigma_m: 100.0,
             },
             |e| matches!(e, ShapeError::RouteTooShort { points: 1 }),
         ),
         (
-            Shape::Route {
+            ScenarioShape::Route {
                 waypoints: vec![c(1.0, 1.0), c(1.0, 1.0)],
                 cross_track_sigma_m: 100.0,
             },
             |e| matches!(e, ShapeError::RouteZeroLength),
         ),
         (
-            Shape::Route {
+            ScenarioShape::Route {
                 waypoints: vec![c(0.0, 0.0), c(1.0, 1.0)],
                 cross_track_sigma_m: 0.0,
             },
@@ -211,13 +212,13 @@ fn each_kind_of_bad_shape_has_its_own_error() {
             },
         ),
         (
-            Shape::Area {
+            ScenarioShape::Area {
                 polygons: MultiPolygon(vec![]),
             },
             |e| matches!(e, ShapeError::EmptyPolygon { .. }),
         ),
         (
-            Shape::Area {
+            ScenarioShape::Area {
                 polygons: MultiPolygon(vec![Polygon::new(
                     LineString::from(vec![
                         (0.0, 0.0),
@@ -232,7 +233,7 @@ fn each_kind_of_bad_shape_has_its_own_error() {
             |e| matches!(e, ShapeError::InvalidPolygon { .. }),
         ),
         (
-            Shape::Area {
+            ScenarioShape::Area {
                 polygons: multi(vec![
                     rect_polygon(0.0, 0.0, 10.0, 10.0),
                     rect_polygon(5.0, 5.0, 15.0, 15.0),
@@ -250,35 +251,35 @@ fn each_kind_of_bad_shape_has_its_own_error() {
             },
         ),
         (
-            Shape::Segments {
+            ScenarioShape::Segments {
                 segments: vec![seg("A", 0.0), seg("B", 20.0)],
                 poa: vec![0.7, 0.4],
             },
             |e| matches!(e, ShapeError::PoaSumAboveOne { .. }),
         ),
         (
-            Shape::Segments {
+            ScenarioShape::Segments {
                 segments: vec![seg("A", 0.0)],
                 poa: vec![-0.1],
             },
             |e| matches!(e, ShapeError::BadPoa { .. }),
         ),
         (
-            Shape::Segments {
+            ScenarioShape::Segments {
                 segments: vec![seg("A", 0.0)],
                 poa: vec![],
             },
             |e| matches!(e, ShapeError::PoaCountMismatch { .. }),
         ),
         (
-            Shape::Segments {
+            ScenarioShape::Segments {
                 segments: vec![],
                 poa: vec![],
             },
             |e| matches!(e, ShapeError::NoSegments),
         ),
         (
-            Shape::Segments {
+            ScenarioShape::Segments {
                 segments: vec![seg("A", 0.0), seg("A", 20.0)],
                 poa: vec![0.1, 0.1],
             },
@@ -321,8 +322,8 @@ fn seg(id: &str, x: f64) -> Segment {
     }
 }
 
-fn rings(quantiles: Vec<(f64, f64)>) -> Shape {
-    Shape::Rings {
+fn rings(quantiles: Vec<(f64, f64)>) -> ScenarioShape {
+    ScenarioShape::Rings {
         center: c(0.0, 0.0),
         quantiles,
         interpolation: RingInterpolation::UniformPerRing,

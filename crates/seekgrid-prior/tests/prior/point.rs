@@ -2,10 +2,10 @@
 //! dense integration.
 
 use super::common::{c, dense_integral, ellipse_pdf, fixture, grid};
-use seekgrid_prior::{Shape, scenario_mass};
+use seekgrid_prior::{ScenarioShape, scenario_mass};
 
-fn point(x: f64, y: f64, smaj: f64, smin: f64, bearing: f64) -> Shape {
-    Shape::Point {
+fn point(x: f64, y: f64, smaj: f64, smin: f64, bearing: f64) -> ScenarioShape {
+    ScenarioShape::Point {
         center: c(x, y),
         sigma_major_m: smaj,
         sigma_minor_m: smin,
@@ -133,7 +133,7 @@ fn rotated_ellipse_cells_match_a_slow_dense_integration() {
         (point(10.0, 10.0, 2000.0, 40.0, 91.0), 500.0),
     ];
     for (shape, cell) in cases {
-        let Shape::Point {
+        let ScenarioShape::Point {
             center,
             sigma_major_m,
             sigma_minor_m,

@@ -4,8 +4,8 @@
 use super::common::{grid, multi, rect_polygon};
 use geo::{Area, Contains, LineString, MultiPolygon, Point, Polygon};
 use seekgrid_prior::{
-    Analyst, Pool, PriorError, Scenario, Segment, Shape, ShapeError, combine, scenario_mass,
-    segment_table,
+    Analyst, Pool, PriorError, Scenario, ScenarioShape, Segment, ShapeError, combine,
+    scenario_mass, segment_table,
 };
 
 /// Brute force: fraction of n x n sub-cell centres of the cell inside the polygons.
@@ -58,7 +58,7 @@ fn area_cell_masses_match_brute_force_supersampling() {
     let area = polys.unsigned_area();
     let g = grid(-300.0, 3_000.0, 170.0, 20, 26);
     let m = scenario_mass(
-        &Shape::Area {
+        &ScenarioShape::Area {
             polygons: polys.clone(),
         },
         &g,
@@ -81,7 +81,7 @@ fn area_partly_off_the_grid_reports_the_rest_as_outside_grid() {
     // A 1000 x 1000 m square, of which the grid holds the west 300 m: 0.3 (exact geometry).
     let polys = multi(vec![rect_polygon(700.0, 0.0, 1_700.0, 1_000.0)]);
     let g = grid(0.0, 1_000.0, 100.0, 10, 10);
-    let m = scenario_mass(&Shape::Area { polygons: polys }, &g).unwrap();
+    let m = scenario_mass(&ScenarioShape::Area { polygons: polys }, &g).unwrap();
     assert!((m.cells.sum() - 0.3).abs() < 1e-14);
     assert!((m.outside_grid - 0.7).abs() < 1e-14);
 }
@@ -90,13 +90,13 @@ fn area_partly_off_the_grid_reports_the_rest_as_outside_grid() {
 fn a_polygon_smaller_than_a_cell_puts_all_its_mass_in_that_cell() {
     let polys = multi(vec![rect_polygon(130.0, 140.0, 160.0, 190.0)]);
     let g = grid(0.0, 1_000.0, 100.0, 10, 10);
-    let m = scenario_mass(&Shape::Area { polygons: polys }, &g).unwrap();
+    let m = scenario_mass(&ScenarioShape::Area { polygons: polys }, &g).unwrap();
     assert!((m.cells[[8, 1]] - 1.0).abs() < 1e-14);
 }
 
-fn segments(poa: [f64; 3]) -> Shape {
+fn segments(poa: [f64; 3]) -> ScenarioShape {
     // Segments whose edges follow the 100 m cell edges, so that segment_table is exact.
-    Shape::Segments {
+    ScenarioShape::Segments {
         segments: vec![
             Segment {
                 id: "A".into(),
@@ -139,7 +139,7 @@ fn three_planners_reproduce_the_mattson_consensus() {
         .collect();
     let g = grid(-500.0, 2_500.0, 100.0, 30, 40);
     let prior = combine(&analysts, &scenarios, &g, Pool::Linear).unwrap();
-    let Shape::Segments { segments: segs, .. } = segments([0.0; 3]) else {
+    let ScenarioShape::Segments { segments: segs, .. } = segments([0.0; 3]) else {
         unreachable!()
     };
     let table = segment_table(&prior.cells, &g, &segs);
@@ -161,7 +161,7 @@ fn segment_table_of_a_non_aligned_segment_weights_cells_by_overlap() {
     // edges: POA 0.5 (exact for a uniform map).
     let g = grid(0.0, 1_000.0, 300.0, 4, 4);
     let m = scenario_mass(
-        &Shape::Area {
+        &ScenarioShape::Area {
             polygons: multi(vec![rect_polygon(0.0, -200.0, 1_200.0, 1_000.0)]),
         },
         &g,
@@ -188,7 +188,7 @@ fn segments_rest_of_world_is_one_minus_the_poa_sum() {
 
 #[test]
 fn overlapping_segments_are_refused_naming_both() {
-    let shape = Shape::Segments {
+    let shape = ScenarioShape::Segments {
         segments: vec![
             Segment {
                 id: "ridge".into(),
@@ -211,7 +211,7 @@ fn overlapping_segments_are_refused_naming_both() {
     );
     assert!(err.to_string().contains("\"ridge\" and \"valley\" overlap"));
     // Sharing an edge is fine.
-    let shape = Shape::Segments {
+    let shape = ScenarioShape::Segments {
         segments: vec![
             Segment {
                 id: "ridge".into(),
@@ -238,7 +238,7 @@ fn area_mass_is_conserved_wherever_the_square_sits_on_the_lattice() {
             2_300.0 + dx,
             3_100.0 + dx,
         )]);
-        let m = scenario_mass(&Shape::Area { polygons: polys }, &g).unwrap();
+        let m = scenario_mass(&ScenarioShape::Area { polygons: polys }, &g).unwrap();
         assert!((m.cells.sum() - 1.0).abs() < 1e-12);
     }
 }

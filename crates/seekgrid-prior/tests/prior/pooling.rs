@@ -1,7 +1,7 @@
 //! Opinion pools and diagnostics.
 
 use super::common::{c, grid, multi, rect_polygon};
-use seekgrid_prior::{Analyst, Pool, Scenario, Shape, combine};
+use seekgrid_prior::{Analyst, Pool, Scenario, ScenarioShape, combine};
 
 fn analyst(id: &str, weight: f64) -> Analyst {
     Analyst {
@@ -15,7 +15,7 @@ fn area(id: &str, who: &str, x0: f64, y0: f64, x1: f64, y1: f64) -> Scenario {
         id: id.into(),
         analyst: who.into(),
         weight: 1.0,
-        shape: Shape::Area {
+        shape: ScenarioShape::Area {
             polygons: multi(vec![rect_polygon(x0, y0, x1, y1)]),
         },
     }
@@ -26,7 +26,7 @@ fn point(id: &str, who: &str, weight: f64, x: f64, y: f64, s: f64) -> Scenario {
         id: id.into(),
         analyst: who.into(),
         weight,
-        shape: Shape::Point {
+        shape: ScenarioShape::Point {
             center: c(x, y),
             sigma_major_m: s,
             sigma_minor_m: s,
@@ -179,7 +179,7 @@ fn result_is_identical_whatever_the_thread_count() {
             id: "a2".into(),
             analyst: "a".into(),
             weight: 2.0,
-            shape: Shape::Point {
+            shape: ScenarioShape::Point {
                 center: c(9_000.0, 12_000.0),
                 sigma_major_m: 2_500.0,
                 sigma_minor_m: 400.0,
@@ -190,7 +190,7 @@ fn result_is_identical_whatever_the_thread_count() {
             id: "b1".into(),
             analyst: "b".into(),
             weight: 1.0,
-            shape: Shape::Route {
+            shape: ScenarioShape::Route {
                 waypoints: vec![
                     c(2_000.0, 2_000.0),
                     c(15_000.0, 9_000.0),

@@ -1,10 +1,11 @@
 //! Rings scenarios: published ring densities, SciPy's PCHIP, and a slow dense integration.
 
 use super::common::{c, fixture, grid};
-use seekgrid_prior::{RingInterpolation, Shape, scenario_mass};
+use seekgrid_core::units::M2_PER_KM2;
+use seekgrid_prior::{RingInterpolation, ScenarioShape, scenario_mass};
 
-fn rings(interpolation: RingInterpolation, quantiles: Vec<(f64, f64)>) -> Shape {
-    Shape::Rings {
+fn rings(interpolation: RingInterpolation, quantiles: Vec<(f64, f64)>) -> ScenarioShape {
+    ScenarioShape::Rings {
         center: c(0.0, 0.0),
         quantiles,
         interpolation,
@@ -29,7 +30,7 @@ fn uniform_rings_reproduce_the_published_ring_densities() {
     assert!(m.outside_grid < 1e-12);
     let per_km2 = |x: f64, y: f64| {
         let (r, col) = g.locate(c(x, y)).unwrap();
-        m.cells[[r, col]] / (g.cell_area_m2() / 1e6)
+        m.cells[[r, col]] / (g.cell_area_m2() / M2_PER_KM2)
     };
     // Cells wholly inside one ring.
     for ((x, y), want) in [

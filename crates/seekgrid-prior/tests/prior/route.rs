@@ -2,7 +2,7 @@
 
 use super::common::{c, dense_integral, gauss_legendre, grid};
 use geo::Coord;
-use seekgrid_prior::{Shape, scenario_mass};
+use seekgrid_prior::{ScenarioShape, scenario_mass};
 
 /// The route density at (x, y), with the along-track integral done numerically (200 panels of
 /// 8-point Gauss-Legendre along each leg, of the isotropic normal): slow and obviously correct.
@@ -47,7 +47,7 @@ fn route_cells_match_a_slow_dense_numeric_integration() {
             (10_000.0 / cell) as usize,
             (10_000.0 / cell) as usize,
         );
-        let shape = Shape::Route {
+        let shape = ScenarioShape::Route {
             waypoints: waypoints.clone(),
             cross_track_sigma_m: sigma,
         };
@@ -81,7 +81,7 @@ fn route_far_inside_the_grid_holds_all_its_mass_and_splits_by_leg_length() {
     let waypoints = vec![c(0.0, 0.0), c(6_000.0, 0.0), c(6_000.0, 2_000.0)];
     let g = grid(-10_000.0, 10_000.0, 200.0, 100, 100);
     let m = scenario_mass(
-        &Shape::Route {
+        &ScenarioShape::Route {
             waypoints,
             cross_track_sigma_m: 300.0,
         },
@@ -110,7 +110,7 @@ fn cross_track_profile_is_normal() {
     let waypoints = vec![c(-40_000.0, 0.0), c(40_000.0, 0.0)];
     let g = grid(-10_000.0, 5_000.0, 500.0, 20, 40);
     let m = scenario_mass(
-        &Shape::Route {
+        &ScenarioShape::Route {
             waypoints,
             cross_track_sigma_m: sigma,
         },

@@ -3,7 +3,8 @@
 use geo::{Area, Coord};
 use seekgrid_core::{DEFAULT_MAX_CELLS, GridSpec};
 use seekgrid_search::{
-    DetectionLaw, Pattern, SearchError, SweepWidth, pattern_pod, pattern_pod_at, track_pod,
+    DetectionLaw, Pattern, Rectangle, SearchError, SweepWidth, pattern_pod, pattern_pod_at,
+    track_pod,
 };
 
 fn c(x: f64, y: f64) -> Coord<f64> {
@@ -11,13 +12,13 @@ fn c(x: f64, y: f64) -> Coord<f64> {
 }
 
 fn sweep(bearing: f64) -> Pattern {
-    Pattern::ParallelSweep {
+    Pattern::ParallelSweep(Rectangle {
         center: c(1000.0, 1000.0),
         length_m: 1200.0,
         width_m: 600.0,
         major_grid_bearing_deg: bearing,
         track_spacing_m: 100.0,
-    }
+    })
 }
 
 #[test]
@@ -37,13 +38,13 @@ fn parallel_sweep_has_the_expected_legs_and_area() {
 
 #[test]
 fn creeping_line_legs_cross_the_major_axis() {
-    let p = Pattern::CreepingLine {
+    let p = Pattern::CreepingLine(Rectangle {
         center: c(0.0, 0.0),
         length_m: 1000.0,
         width_m: 400.0,
         major_grid_bearing_deg: 90.0,
         track_spacing_m: 100.0,
-    };
+    });
     p.validate().unwrap();
     let t = p.tracks();
     assert_eq!(t.0.len(), 20); // 10 legs of 300 m, stepping east
@@ -155,13 +156,13 @@ fn expanding_square_pod_is_its_track_pod() {
 
 #[test]
 fn bad_patterns_name_the_field() {
-    let bad = Pattern::ParallelSweep {
+    let bad = Pattern::ParallelSweep(Rectangle {
         center: c(0.0, 0.0),
         length_m: 1000.0,
         width_m: 500.0,
         major_grid_bearing_deg: 0.0,
         track_spacing_m: -5.0,
-    };
+    });
     let err = bad.validate().unwrap_err();
     assert!(matches!(
         err,
@@ -186,15 +187,63 @@ fn bad_patterns_name_the_field() {
     ));
     let grid = GridSpec::new(0.0, 100.0, 10.0, 10, 10, DEFAULT_MAX_CELLS).unwrap();
     let w = SweepWidth::new(10.0, &[]).unwrap();
-    let far = Pattern::ParallelSweep {
+    let far = Pattern::ParallelSweep(Rectangle {
         center: c(1e6, 1e6),
         length_m: 1000.0,
         width_m: 500.0,
         major_grid_bearing_deg: 0.0,
         track_spacing_m: 50.0,
-    };
+    });
     assert!(matches!(
         pattern_pod(&grid, &far, DetectionLaw::DefiniteRange, &w),
         Err(SearchError::PatternOutsideGrid { .. })
     ));
+}
+
+fn length(l: &geo::LineString<f64>) -> f64 {
+    l.lines().map(|s| s.dx().hypot(s.dy())).sum()
+}
+
+#[test]
+fn a_pattern_cut_short_keeps_the_first_share_of_its_track_by_length() {
+    // Expanding square, S = 100 m, first leg north: legs of 100, 100, 200, 200 m turning right
+    // (N, E, S, W); 600 m in all (computed by hand from the leg rule S, S, 2S, 2S).
+    let p = Pattern::ExpandingSquare {
+        center: c(0.0, 0.0),
+        track_spacing_m: 100.0,
+        legs: 4,
+        first_leg_grid_bearing_deg: 0.0,
+    };
+    p.validate().unwrap();
+    assert!((p.track_length_m() - 600.0).abs() < 1e-9);
+    // Half of it: the first two legs (200 m) and half of the third (100 m of 200 m south).
+    let half = p.truncated_tracks(0.5);
+    assert!((length(&half) - 300.0).abs() < 1e-9);
+    assert_eq!(half.0.len(), 4);
+    let end = half.0[3];
+    assert!(
+        (end.x - 100.0).abs() < 1e-9 && end.y.abs() < 1e-9,
+        "{end:?}"
+    );
+    // The whole share is the pattern itself; a share ending on a turn point adds no extra point.
+    assert_eq!(p.truncated_tracks(1.0), p.tracks());
+    let two_legs = p.truncated_tracks(200.0 / 600.0);
+    assert!((length(&two_legs) - 200.0).abs() < 1e-9);
+    // Out-of-range shares are clamped.
+    assert_eq!(p.truncated_tracks(1.5), p.tracks());
+    assert!(length(&p.truncated_tracks(-1.0)) < 1e-12);
+}
+
+#[test]
+fn a_rectangle_pattern_cut_short_follows_its_legs_in_order() {
+    let p = sweep(0.0);
+    let full = p.tracks();
+    let total = p.track_length_m();
+    for share in [0.1, 0.37, 0.5, 0.93] {
+        let cut = p.truncated_tracks(share);
+        assert!((length(&cut) - share * total).abs() < 1e-6 * total);
+        // Every point but the last is a turn point of the full pattern, in order.
+        let n = cut.0.len();
+        assert_eq!(&cut.0[..n - 1], &full.0[..n - 1]);
+    }
 }
