@@ -6,7 +6,7 @@
 
 use crate::{Failure, commit, credibility_report, map_incident, open_output, plan_incident};
 use seekgrid_render::OutputDir;
-use seekgrid_render::outputs::OutputSelection;
+use seekgrid_render::layers::OutputSelection;
 use std::path::Path;
 
 /// One bundled file: its path inside the demo's input folder and its contents.
@@ -121,7 +121,7 @@ pub(crate) fn run(out: &Path, force: bool, run_id: &str) -> Result<(), Failure> 
         // Read from the staging folder, where the inputs are until the demo is complete.
         let incident = seekgrid_incident::load(&input.path().join("incident.toml"))?;
         let map_dir = case.subdir("map").map_err(failed)?;
-        let summary = map_incident(&incident, &map_dir, None, &OutputSelection::all())?;
+        let summary = map_incident(&incident, &map_dir, None, &OutputSelection::map_default())?;
         eprintln!(
             "{name}: {} -> {} (POC in grid {:.4}, {} search(es), cumulative POS {:.4})",
             incident.title,
@@ -134,7 +134,12 @@ pub(crate) fn run(out: &Path, force: bool, run_id: &str) -> Result<(), Failure> 
             .map(|d| d.with_timezone(&chrono::Utc))
             .map_err(|e| Failure::failed(e.to_string()))?;
         let plan_dir = case.subdir("plan").map_err(failed)?;
-        let plan = plan_incident(&incident, &plan_dir, start)?;
+        let plan = plan_incident(
+            &incident,
+            &plan_dir,
+            start,
+            &OutputSelection::plan_default(),
+        )?;
         eprintln!(
             "{name}: plan from {plan_start} -> {} (plan POS {:.4}, best possible {:.4})",
             out.join(name).join("plan").display(),

@@ -291,6 +291,7 @@ pub fn run(args: &LogArgs, now: DateTime<Utc>) -> Result<String, Failure> {
         Source::Plan => None,
         Source::Track | Source::Pattern => Some(grid_extent(incident, end)?),
     };
+    let is_track = matches!(source, Source::Track);
     let check = |new: &Incident| -> Result<(), String> {
         let prepared = seekgrid_engine::prepare::prepare(new).map_err(|e| e.to_string())?;
         let Some(b) = &grid_box else {
@@ -301,27 +302,17 @@ pub fn run(args: &LogArgs, now: DateTime<Utc>) -> Result<String, Failure> {
             .iter()
             .find(|s| s.def.id == id)
             .ok_or_else(|| format!("internal: the new search \"{id}\" is missing"))?;
+        // Named after what the planner gave: a pattern cut short is scored as a track.
+        let (what, fix) = if is_track {
+            ("track", "track file")
+        } else {
+            ("area", "--center")
+        };
         if s.reaches(b) {
             Ok(())
         } else {
             Err(format!(
-                "the {} of search \"{id}\" lies wholly outside the incident's grid (more than one sweep width beyond it), where it can find nothing; check the {} (longitude first, [lon, lat])",
-                if matches!(
-                    s.geometry,
-                    seekgrid_engine::prepare::PreparedGeometry::Track { .. }
-                ) {
-                    "track"
-                } else {
-                    "area"
-                },
-                if matches!(
-                    s.geometry,
-                    seekgrid_engine::prepare::PreparedGeometry::Track { .. }
-                ) {
-                    "track file"
-                } else {
-                    "--center"
-                }
+                "the {what} of search \"{id}\" lies wholly outside the incident's grid (more than one sweep width beyond it), where it can find nothing; check the {fix} (longitude first, [lon, lat])"
             ))
         }
     };

@@ -4,16 +4,18 @@
 mod demo;
 mod log;
 
-use clap::{Parser, Subcommand};
+use clap::builder::PossibleValue;
+use clap::{Parser, Subcommand, ValueEnum};
 use seekgrid_engine::timeline::{MapError, MapOptions};
 use seekgrid_incident::model::Item;
 use seekgrid_incident::{Incident, IncidentErrors};
-use seekgrid_render::outputs::OutputSelection;
+use seekgrid_render::layers::{Computed, Layer, OutputSelection};
 use seekgrid_render::summary::CAUTION;
 use seekgrid_render::{OutputDir, OutputOptions, RenderError};
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
+use std::sync::LazyLock;
 
 const AFTER_HELP: &str = "CAUTION: seekgrid is decision support. Its output is only as good as its inputs (positions, errors, sweep widths, leeway, environment), and it ships no authoritative sweep widths or leeway values. The search mission coordinator decides, following the governing SAR manual, local procedures and licensed practice.";
 
@@ -51,10 +53,11 @@ enum Command {
         /// drift is carried to it. Default: the end of the last logged search
         #[arg(long)]
         at: Option<String>,
-        /// Comma-separated outputs to write (default: all): summary, probability, containment,
-        /// heatmap, segments, searches, pod, particles, drift
-        #[arg(long)]
-        outputs: Option<String>,
+        /// Comma-separated output layers to write (default: every layer listed here); a layer
+        /// with nothing to show (no search, no drift, no segment) writes nothing and
+        /// summary.json says why
+        #[arg(long, value_enum, value_delimiter = ',')]
+        outputs: Vec<MapLayer>,
         /// Also print the summary as JSON on standard output
         #[arg(long)]
         json: bool,
@@ -77,6 +80,10 @@ enum Command {
         /// unit: it appears whole when the run ends, never half-written
         #[arg(long)]
         out: PathBuf,
+        /// Comma-separated output layers to write (default: summary, probability, containment,
+        /// heatmap, segments and every plan layer: plan, routes, briefing, plan-map, effort)
+        #[arg(long, value_enum, value_delimiter = ',')]
+        outputs: Vec<PlanLayer>,
         /// Also print the summary as JSON on standard output
         #[arg(long)]
         json: bool,
@@ -145,6 +152,58 @@ enum Command {
     },
 }
 
+/// A layer `seekgrid map` can write: its `--outputs` values and their help come from the
+/// registry ([`Layer`]), so a new layer is offered and explained without touching this file.
+#[derive(Debug, Clone, Copy)]
+struct MapLayer(Layer);
+
+impl ValueEnum for MapLayer {
+    fn value_variants<'a>() -> &'a [Self] {
+        static LAYERS: LazyLock<Vec<MapLayer>> = LazyLock::new(|| {
+            Layer::ALL
+                .iter()
+                .filter(|l| !l.plan_only())
+                .map(|l| MapLayer(*l))
+                .collect()
+        });
+        &LAYERS
+    }
+
+    fn to_possible_value(&self) -> Option<PossibleValue> {
+        Some(layer_value(self.0))
+    }
+}
+
+/// A layer `seekgrid plan` can write: any layer.
+#[derive(Debug, Clone, Copy)]
+struct PlanLayer(Layer);
+
+impl ValueEnum for PlanLayer {
+    fn value_variants<'a>() -> &'a [Self] {
+        static LAYERS: LazyLock<Vec<PlanLayer>> =
+            LazyLock::new(|| Layer::ALL.iter().map(|l| PlanLayer(*l)).collect());
+        &LAYERS
+    }
+
+    fn to_possible_value(&self) -> Option<PossibleValue> {
+        Some(layer_value(self.0))
+    }
+}
+
+/// A layer as `--help` shows it: its name, then its files and what they hold.
+fn layer_value(layer: Layer) -> PossibleValue {
+    let sidecars = if layer.sidecars().is_empty() {
+        String::new()
+    } else {
+        format!(" (+ {})", layer.sidecars().join(", "))
+    };
+    PossibleValue::new(layer.name()).help(format!(
+        "{}{sidecars}: {}",
+        layer.files().join(", "),
+        layer.description()
+    ))
+}
+
 /// An error with the exit code it deserves.
 struct Failure {
     code: u8,
@@ -211,9 +270,11 @@ fn run(cli: Cli) -> Result<(), Failure> {
             json,
             force,
         } => {
-            let selection = match outputs {
-                Some(list) => OutputSelection::parse(&list).map_err(Failure::bad_input)?,
-                None => OutputSelection::all(),
+            let layers: Vec<Layer> = outputs.iter().map(|l| l.0).collect();
+            let selection = if layers.is_empty() {
+                OutputSelection::map_default()
+            } else {
+                OutputSelection::of(&layers)
             };
             let at = at.map(|t| parse_time(&t, "--at")).transpose()?;
             let incident = seekgrid_incident::load(&file)?;
@@ -236,14 +297,21 @@ fn run(cli: Cli) -> Result<(), Failure> {
             file,
             start,
             out,
+            outputs,
             json,
             force,
         } => {
+            let layers: Vec<Layer> = outputs.iter().map(|l| l.0).collect();
+            let selection = if layers.is_empty() {
+                OutputSelection::plan_default()
+            } else {
+                OutputSelection::of(&layers)
+            };
             let start = parse_time(&start, "--start")?;
             let incident = seekgrid_incident::load(&file)?;
             sized(&incident)?;
             let dir = open_output(&out, force, &run_id, &incident.input_files())?;
-            let summary = plan_incident(&incident, &dir, start)?;
+            let summary = plan_incident(&incident, &dir, start, &selection)?;
             commit(dir)?;
             if json {
                 println!(
@@ -429,7 +497,7 @@ fn map_incident(
         MapError::Belief(_) => Failure::failed(format!("{}: {e}", incident.path.display())),
         other => located(incident, other.item(), &other.to_string()),
     })?;
-    seekgrid_render::outputs::write(incident, &m, dir, selection)
+    seekgrid_render::layers::write(&Computed::map(incident, &m), dir, selection)
         .map_err(|e| Failure::failed(e.to_string()))
 }
 
@@ -438,11 +506,12 @@ fn plan_incident(
     incident: &Incident,
     dir: &OutputDir,
     start: chrono::DateTime<chrono::Utc>,
+    selection: &OutputSelection,
 ) -> Result<seekgrid_render::summary::Summary, Failure> {
     let result =
         with_progress(|progress| seekgrid_engine::planning::plan_at(incident, start, progress));
     let run = result.map_err(|e| located(incident, e.item(), &e.to_string()))?;
-    seekgrid_render::plan_outputs::write(incident, &run, dir)
+    seekgrid_render::layers::write(&Computed::plan(incident, &run), dir, selection)
         .map_err(|e| Failure::failed(e.to_string()))
 }
 

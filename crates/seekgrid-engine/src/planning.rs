@@ -5,10 +5,6 @@ use crate::timeline::{IncidentMap, MapError, MapOptions, Progress, map};
 use seekgrid_incident::model::{Incident, Time, UnitDef};
 use seekgrid_plan as plan;
 
-/// Search speed above which a unit is treated as an aircraft (knots); only the briefing
-/// wording depends on it.
-const AIRCRAFT_SPEED_KN: f64 = 40.0;
-
 /// A computed plan.
 #[derive(Debug)]
 pub struct PlanRun {
@@ -43,25 +39,6 @@ pub enum PlanRunError {
     Plan(#[from] plan::PlanError),
 }
 
-fn unit_spec(u: &UnitDef) -> plan::UnitSpec {
-    let kind = match u.searchers {
-        Some(searchers) => plan::UnitKind::GroundTeam { searchers },
-        None if u.speed_mps / seekgrid_core::units::MPS_PER_KNOT > AIRCRAFT_SPEED_KN => {
-            plan::UnitKind::Aircraft
-        }
-        None => plan::UnitKind::Vessel,
-    };
-    plan::UnitSpec {
-        id: u.id.clone(),
-        speed_mps: u.speed_mps,
-        hours_on_scene: u.hours_on_scene,
-        sweep_width_m: u.sweep_width_m,
-        track_spacing_min_m: u.track_spacing_min_m,
-        law: u.detection,
-        kind,
-    }
-}
-
 /// Plans the period starting at `start` against the belief at that time.
 ///
 /// # Errors
@@ -75,7 +52,7 @@ pub fn plan_at(
         return Err(PlanRunError::NoUnits);
     }
     let m = map(incident, &MapOptions { at: Some(start) }, progress)?;
-    let units: Vec<plan::UnitSpec> = incident.units.iter().map(unit_spec).collect();
+    let units: Vec<plan::UnitSpec> = incident.units.iter().map(UnitDef::spec).collect();
     let options = plan::PlanOptions::default();
     let bound = plan::optimal_bound(&m.belief, &units, &options)?;
     let teams: Vec<plan::UnitSpec> = units

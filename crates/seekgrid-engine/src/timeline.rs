@@ -3,7 +3,7 @@
 
 use crate::prepare::{PrepareError, Prepared, PreparedGeometry, PreparedSearch, prepare};
 use crate::slices;
-use geo::Coord;
+use geo::{Coord, Euclidean, Length};
 use ndarray::Array2;
 use seekgrid_core::units::SECONDS_PER_HOUR;
 use seekgrid_core::{Belief, CoreError, Frame, GridSpec, Particles, ProjectedBox};
@@ -750,7 +750,7 @@ impl SearchReport {
             sweep_width_m: sw.metres(),
             detection: s.law.name(),
             track_spacing_m,
-            track_length_m: euclid_length(&pod.track),
+            track_length_m: Euclidean.length(&pod.track),
             coverage,
             pod_pattern,
             pos: outcome.pos,
@@ -852,12 +852,6 @@ impl Searched<'_> {
             0.0
         };
     }
-}
-
-fn euclid_length(l: &geo::LineString<f64>) -> f64 {
-    l.0.windows(2)
-        .map(|w| (w[1].x - w[0].x).hypot(w[1].y - w[0].y))
-        .sum()
 }
 
 /// POD at every particle of a search cut into parts: each part's stretch of track scored

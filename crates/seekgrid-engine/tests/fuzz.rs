@@ -1531,14 +1531,12 @@ fn check_incident(inc: &Incident) -> Result<(), TestCaseError> {
             } => {
                 pos(*position, "rings")?;
                 ensure(!quantiles.is_empty(), || "no rings".to_owned())?;
-                // Validator gap found by this target and left to the validator's owner: a
-                // percentage key that is positive but too small to survive the division by 100
-                // (`5e-324 = 1.1`) is accepted as the fraction 0. Checked as not negative until
-                // the validator refuses it.
+                // A percentage too small to survive the division by 100 (`5e-324 = 1.1`) is
+                // refused by the prior crate's check, which the loader calls.
                 ensure(
                     quantiles
                         .iter()
-                        .all(|(f, r)| *f >= 0.0 && *f <= 1.0 && positive(*r))
+                        .all(|(f, r)| *f > 0.0 && *f <= 1.0 && positive(*r))
                         && quantiles
                             .windows(2)
                             .all(|w| w[0].0 < w[1].0 && w[0].1 < w[1].1),
@@ -1601,39 +1599,14 @@ fn check_incident(inc: &Incident) -> Result<(), TestCaseError> {
         }
     }
     for u in &inc.units {
-        // Validator gap found by this target and left to the validator's owner: a positive
-        // speed too small to survive the conversion to m/s (`speed_kmh = 5e-324`) is accepted
-        // and becomes 0 m/s. Checked as not negative until the validator refuses it.
+        // A speed too small to survive the conversion to m/s (`speed_kmh = 5e-324`) is refused
+        // by the plan crate's unit check, which the loader calls.
         ensure(
-            non_negative(u.speed_mps) && positive(u.hours_on_scene) && positive(u.sweep_width_m),
+            positive(u.speed_mps) && positive(u.hours_on_scene) && positive(u.sweep_width_m),
             || format!("unit {u:?}"),
         )?;
     }
     Ok(())
-}
-
-/// Whether a search's pattern spans less than 1e12 m (the Earth is 4e7 m round).
-///
-/// A known gap found by `incident_file` and left to the validator's owner: sizes are checked
-/// to be finite and positive, not bounded, so `track_spacing_m = 1.7976931348623157e308` in an
-/// expanding square passes `parse` and `prepare`, and then `PreparedSearch::extent` (used by
-/// the timeline to size the map) panics inside `geo`'s `orient` on corners that overflowed to
-/// infinity. Until a rule bounds them, larger patterns are not taken this step further.
-fn pattern_within_reach(def: &seekgrid_incident::model::SearchDef) -> bool {
-    const REACH_M: f64 = 1e12;
-    let sizes: Vec<f64> = match &def.geometry {
-        SearchGeometry::Track { .. } => Vec::new(),
-        SearchGeometry::Pattern(PatternDef::ParallelSweep(r) | PatternDef::CreepingLine(r)) => {
-            vec![r.length_m, r.width_m, r.track_spacing_m]
-        }
-        SearchGeometry::Pattern(PatternDef::ExpandingSquare {
-            track_spacing_m,
-            legs,
-            ..
-        }) => vec![track_spacing_m * *legs as f64],
-        SearchGeometry::Pattern(PatternDef::SectorSearch { radius_m, .. }) => vec![*radius_m],
-    };
-    sizes.iter().all(|v| *v < REACH_M)
 }
 
 /// One step further: projects the incident and evaluates every drift environment at a few
@@ -1643,10 +1616,10 @@ fn prepare_and_sample(inc: &Incident) {
     let Ok(prepared) = seekgrid_engine::prepare::prepare(inc) else {
         return;
     };
+    // Pattern sizes are bounded by the search crate's check (at most 10 000 km), so every
+    // extent is computed.
     for s in &prepared.searches {
-        if pattern_within_reach(&s.def) {
-            let _ = s.extent();
-        }
+        let _ = s.extent();
     }
     for d in &prepared.drift {
         let sc = &d.scenario;

@@ -925,8 +925,8 @@ sweep_width_m = 800            # invented
             "{e}"
         );
         assert!(
-            e.to_string()
-                .contains("sweep_width_m must be a positive number"),
+            e.to_string().contains("sweep_width_m")
+                && e.to_string().contains("positive number of metres"),
             "{e}"
         );
         untouched(dir.path(), &path, FILE);

@@ -498,6 +498,18 @@ impl Validator<'_> {
                 });
             }
         }
+        self.analysts_have_scenarios(raw, analysts, &with_scenarios);
+        out
+    }
+
+    /// Every analyst has a scenario, and their scenarios' weights are within
+    /// [`MAX_WEIGHT_RATIO`] of one another.
+    fn analysts_have_scenarios(
+        &mut self,
+        raw: &RawFile,
+        analysts: &[AnalystDef],
+        with_scenarios: &HashSet<String>,
+    ) {
         for (i, a) in analysts.iter().enumerate() {
             if !with_scenarios.contains(&a.id) && !raw.scenarios.is_empty() {
                 self.err(
@@ -525,7 +537,6 @@ impl Validator<'_> {
                 &format!("weights of analyst \"{}\"'s scenarios", a.id),
             );
         }
-        out
     }
 
     /// The scenario's kind, read by the step of its kind, then checked by the prior crate.
@@ -1062,7 +1073,6 @@ impl Validator<'_> {
         let mut out = Vec::new();
         for (i, u) in raw.units.iter().enumerate() {
             let at = p("unit").index(i);
-            self.id(&at.key("id"), &u.id, "unit id");
             if !seen.insert(u.id.clone()) {
                 self.err(&at.key("id"), format!("unit id \"{}\" is used twice", u.id));
             }
@@ -1073,36 +1083,18 @@ impl Validator<'_> {
         out
     }
 
+    /// One unit: its speed in m/s, then checked by the plan crate.
     fn unit(&mut self, at: FieldPath, u: &RawUnit) -> Option<UnitDef> {
+        let detection = self.detection(&at.key("detection"), u.detection.as_deref());
         let speed_mps = match (u.speed_kn, u.speed_kmh) {
-            (Some(kn), None) => self
-                .positive(&at.key("speed_kn"), kn, "speed_kn")
-                .then(|| seekgrid_core::units::knots_to_mps(kn)),
-            (None, Some(kmh)) => self
-                .positive(&at.key("speed_kmh"), kmh, "speed_kmh")
-                .then_some(kmh * seekgrid_core::units::MPS_PER_KMH),
+            (Some(kn), None) => seekgrid_core::units::knots_to_mps(kn),
+            (None, Some(kmh)) => seekgrid_core::units::kmh_to_mps(kmh),
             _ => {
                 self.err(&at, "give exactly one of speed_kn or speed_kmh");
-                None
+                return None;
             }
         };
-        let ok = self.positive(
-            &at.key("hours_on_scene"),
-            u.hours_on_scene,
-            "hours_on_scene",
-        ) & self.positive(&at.key("sweep_width_m"), u.sweep_width_m, "sweep_width_m");
-        if let Some(m) = u.track_spacing_min_m {
-            self.positive(&at.key("track_spacing_min_m"), m, "track_spacing_min_m");
-        }
-        if u.searchers == Some(0) {
-            self.err(
-                &at.key("searchers"),
-                "a ground team needs at least one searcher",
-            );
-        }
-        let detection = self.detection(&at.key("detection"), u.detection.as_deref());
-        let speed_mps = speed_mps?;
-        ok.then(|| UnitDef {
+        let def = UnitDef {
             id: u.id.clone(),
             speed_mps,
             hours_on_scene: u.hours_on_scene,
@@ -1111,7 +1103,15 @@ impl Validator<'_> {
             detection,
             searchers: u.searchers,
             at,
-        })
+        };
+        match def.spec().validate() {
+            Ok(()) => Some(def),
+            Err(e) => {
+                let (path, message) = checks::unit(&def.at, u, &e);
+                self.err(&path, message);
+                None
+            }
+        }
     }
 
     fn outcome(&mut self, o: &RawOutcome, reference_time: Option<Time>) -> Option<Outcome> {

@@ -13,6 +13,7 @@ use chrono::{DateTime, Utc};
 use geo::{Coord, LineString, MultiPolygon, Polygon};
 use seekgrid_core::UtmZone;
 use seekgrid_drift as drift;
+use seekgrid_plan as plan;
 use seekgrid_prior as prior;
 use seekgrid_search as search;
 use std::path::PathBuf;
@@ -769,5 +770,33 @@ impl DriftDef {
             particles: self.particles,
             seed: self.seed,
         })
+    }
+}
+
+/// Search speed above which a unit is treated as an aircraft (knots); only the briefing
+/// wording depends on it.
+pub const AIRCRAFT_SPEED_KN: f64 = 40.0;
+
+impl UnitDef {
+    /// The planner's unit: a ground team when it has searchers, an aircraft above
+    /// [`AIRCRAFT_SPEED_KN`], a vessel otherwise.
+    #[must_use]
+    pub fn spec(&self) -> plan::UnitSpec {
+        let kind = match self.searchers {
+            Some(searchers) => plan::UnitKind::GroundTeam { searchers },
+            None if seekgrid_core::units::mps_to_knots(self.speed_mps) > AIRCRAFT_SPEED_KN => {
+                plan::UnitKind::Aircraft
+            }
+            None => plan::UnitKind::Vessel,
+        };
+        plan::UnitSpec {
+            id: self.id.clone(),
+            speed_mps: self.speed_mps,
+            hours_on_scene: self.hours_on_scene,
+            sweep_width_m: self.sweep_width_m,
+            track_spacing_min_m: self.track_spacing_min_m,
+            law: self.detection,
+            kind,
+        }
     }
 }

@@ -1155,6 +1155,12 @@ const RING_RULES: &[Row] = &[
         &["outside 0..100"],
     ),
     (
+        // Positive as written, but the fraction 0 once divided by 100.
+        Key("scenario[5].distance_quantiles_km.5e-324"),
+        Replace("25 = 1.1", "5e-324 = 1.1"),
+        &["percentage 5e-324 is outside 0..100"],
+    ),
+    (
         Key("scenario[5].distance_quantiles_km.50"),
         Replace("50 = 2.0", "50 = 0"),
         &["a ring distance must be a positive number"],
@@ -1645,6 +1651,26 @@ const PATTERN_RULES: &[Row] = &[
         &["the spacing must be shorter than the legs"],
     ),
     (
+        Key("search[0].pattern.length_m"),
+        Replace("length_m = 9000", "length_m = 2e7"),
+        &["at most 10 000 km"],
+    ),
+    (
+        // Corners that would overflow to infinity in the working frame.
+        Key("search[2].pattern.track_spacing_m"),
+        Replace(
+            "track_spacing_m = 700",
+            "track_spacing_m = 1.7976931348623157e308",
+        ),
+        &["at most 10 000 km"],
+    ),
+    (
+        // 16 legs, the last of 8 spacings of 2000 km.
+        Key("search[2].pattern.legs"),
+        Replace("track_spacing_m = 700", "track_spacing_m = 2000000"),
+        &["last leg would be longer than 10 000 km"],
+    ),
+    (
         // 8000 m crept at 1 cm: 800 000 legs.
         Key("search[1].pattern.track_spacing_m"),
         Replace("track_spacing_m = 800 }", "track_spacing_m = 0.01 }"),
@@ -1737,6 +1763,12 @@ const UNIT_RULES: &[Row] = &[
         Key("unit[0].id"),
         Replace("id = \"boat-4\"", "id = \"\""),
         &["the unit id is empty"],
+    ),
+    (
+        // Positive as written, but 0 m/s once converted: the plan crate's check sees it.
+        Key("unit[1].speed_kmh"),
+        Replace("speed_kmh = 2.5", "speed_kmh = 5e-324"),
+        &["speed_kmh must be a positive number, got 5e-324"],
     ),
     (
         Key("unit[0].detection"),
@@ -2070,7 +2102,7 @@ const CSV_RULES: &[Row] = &[
     (
         InFile("current-field.csv", Some(1)),
         WriteBytes("current-field.csv", b"lon,lat,time,u_kn,\xff\xfe\n"),
-        &["unreadable header"],
+        &["not UTF-8", "save the file as UTF-8"],
     ),
     (
         InFile("wind.csv", Some(4)),
@@ -2329,7 +2361,14 @@ const ACCEPTED_EDGES: &[(Edit, &str)] = &[
         "a bearing may be written past 360",
     ),
     (Replace("legs = 16", "legs = 1"), "the fewest legs"),
-    (Replace("legs = 16", "legs = 100000"), "the most legs"),
+    (
+        // The last leg, 50 000 spacings of 200 m, is exactly 10 000 km.
+        Replace(
+            "track_spacing_m = 700, legs = 16",
+            "track_spacing_m = 200, legs = 100000",
+        ),
+        "the most legs, and the longest last leg",
+    ),
     (Replace("sectors = 4", "sectors = 12"), "the most sectors"),
     (Replace("sectors = 4", "sectors = 2"), "the fewest sectors"),
     (

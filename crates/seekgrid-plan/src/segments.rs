@@ -41,6 +41,11 @@ pub struct SegmentPlan {
     pub notes: Vec<String>,
 }
 
+/// `n` and the noun, singular for 1 ("1 team", "3 teams").
+fn counted(n: u64, one: &str, many: &str) -> String {
+    format!("{n} {}", if n == 1 { one } else { many })
+}
+
 fn validate_segments(segments: &[(String, f64, f64)]) -> Result<(), PlanError> {
     if segments.is_empty() {
         return Err(PlanError::NoSegments);
@@ -173,8 +178,10 @@ pub fn assign_teams_to_segments(
             }
         }
         notes.push(format!(
-            "exact: all {} assignments of {n} teams to {m} segments enumerated",
-            combos.unwrap_or(0)
+            "exact: all {} of {} to {} enumerated",
+            counted(combos.unwrap_or(0), "assignment", "assignments"),
+            counted(n as u64, "team", "teams"),
+            counted(m as u64, "segment", "segments")
         ));
         best
     } else {
@@ -245,8 +252,10 @@ pub fn assign_teams_to_segments(
             }
         }
         notes.push(format!(
-            "greedy: more than {} assignments of {n} teams to {m} segments, so teams were placed in order of effort on the segment of largest marginal gain in joint POS, then {moves} move(s) of one team or exchange(s) between two improved it; the result may fall short of the optimum",
-            options.max_exact_assignments
+            "greedy: more than {} of {} to {}, so teams were placed in order of effort on the segment of largest marginal gain in joint POS, then {moves} move(s) of one team or exchange(s) between two improved it; the result may fall short of the optimum",
+            counted(options.max_exact_assignments, "assignment", "assignments"),
+            counted(n as u64, "team", "teams"),
+            counted(m as u64, "segment", "segments")
         ));
         assign
     };

@@ -413,16 +413,12 @@ fn climb_on(
         placed: ev.placed,
         overlap_tolerance_m: ev.overlap_tolerance_m,
     };
-    let Steps {
-        m: mut dm,
-        deg: mut dd,
-        rel: mut ds,
-    } = steps;
+    let mut st = steps;
     let mut cur = start;
     let mut cur_score = cur.fast_score(u, &lev).unwrap_or(f64::NEG_INFINITY);
     for _ in 0..400 {
         let mut best: Option<(CandidateArea, f64)> = None;
-        for m in neighbours(&cur, dm, dd, ds) {
+        for m in neighbours(&cur, st) {
             if let Some(sc) = m.fast_score(u, &lev)
                 && best.as_ref().is_none_or(|(_, b)| sc > *b)
             {
@@ -435,24 +431,16 @@ fn climb_on(
                 cur_score = sc;
             }
             _ => {
-                if dm < stop_m && dd < 0.2 && ds < 0.004 {
+                if st.m < stop_m && st.deg < 0.2 && st.rel < 0.004 {
                     break;
                 }
-                dm *= 0.5;
-                dd *= 0.5;
-                ds *= 0.5;
+                st.m *= 0.5;
+                st.deg *= 0.5;
+                st.rel *= 0.5;
             }
         }
     }
-    (
-        cur,
-        cur_score,
-        Steps {
-            m: dm,
-            deg: dd,
-            rel: ds,
-        },
-    )
+    (cur, cur_score, st)
 }
 
 /// Both phases of the local search, then the exact score on the residual: coarse phase for
@@ -487,7 +475,15 @@ pub(crate) fn refine(
         .collect()
 }
 
-fn neighbours(s: &CandidateArea, dm: f64, dd: f64, ds: f64) -> Vec<CandidateArea> {
+/// The candidates one step away: the centre moved by `steps.m` along each axis, the
+/// orientation turned by `±steps.deg` (when above 0), the spacing or radius scaled by
+/// `1 + steps.rel` either way, and for a rectangle one leg more or fewer.
+fn neighbours(s: &CandidateArea, steps: Steps) -> Vec<CandidateArea> {
+    let Steps {
+        m: dm,
+        deg: dd,
+        rel: ds,
+    } = steps;
     let mut out = Vec::with_capacity(10);
     match *s {
         CandidateArea::Rect {
@@ -544,12 +540,16 @@ fn neighbours(s: &CandidateArea, dm: f64, dd: f64, ds: f64) -> Vec<CandidateArea
             theta_deg,
             spacing_m,
         } => centred_neighbours(
-            (center, theta_deg, spacing_m),
-            (dm, dd, ds),
-            |center, theta_deg, spacing_m| CandidateArea::Square {
+            Centred {
                 center,
                 theta_deg,
-                spacing_m,
+                size_m: spacing_m,
+            },
+            steps,
+            |c| CandidateArea::Square {
+                center: c.center,
+                theta_deg: c.theta_deg,
+                spacing_m: c.size_m,
             },
             &mut out,
         ),
@@ -558,12 +558,16 @@ fn neighbours(s: &CandidateArea, dm: f64, dd: f64, ds: f64) -> Vec<CandidateArea
             theta_deg,
             radius_m,
         } => centred_neighbours(
-            (center, theta_deg, radius_m),
-            (dm, dd, ds),
-            |center, theta_deg, radius_m| CandidateArea::Sector {
+            Centred {
                 center,
                 theta_deg,
-                radius_m,
+                size_m: radius_m,
+            },
+            steps,
+            |c| CandidateArea::Sector {
+                center: c.center,
+                theta_deg: c.theta_deg,
+                radius_m: c.size_m,
             },
             &mut out,
         ),
@@ -571,30 +575,50 @@ fn neighbours(s: &CandidateArea, dm: f64, dd: f64, ds: f64) -> Vec<CandidateArea
     out
 }
 
-/// Neighbours of a pattern fixed by its centre, orientation and one size (an expanding
-/// square's spacing, a sector search's radius): the centre moved by `dm` along each axis, the
-/// orientation turned by `±dd` (when `dd > 0`), and the size scaled by `1 + ds` either way.
+/// A pattern fixed by its centre, orientation (grid bearing, degrees) and one size, metres (an
+/// expanding square's spacing, a sector search's radius).
+#[derive(Clone, Copy, Debug)]
+struct Centred {
+    center: Coord<f64>,
+    theta_deg: f64,
+    size_m: f64,
+}
+
+/// Neighbours of a centred pattern: the centre moved by `steps.m` along each grid axis, the
+/// orientation turned by `±steps.deg` (when above 0), and the size scaled by `1 + steps.rel`
+/// either way; `make` turns each into a candidate.
 fn centred_neighbours(
-    (center, theta_deg, size_m): (Coord<f64>, f64, f64),
-    (dm, dd, ds): (f64, f64, f64),
-    make: impl Fn(Coord<f64>, f64, f64) -> CandidateArea,
+    p: Centred,
+    steps: Steps,
+    make: impl Fn(Centred) -> CandidateArea,
     out: &mut Vec<CandidateArea>,
 ) {
+    let Steps {
+        m: dm,
+        deg: dd,
+        rel: ds,
+    } = steps;
     for (dx, dy) in [(dm, 0.0), (-dm, 0.0), (0.0, dm), (0.0, -dm)] {
-        let moved = Coord {
-            x: center.x + dx,
-            y: center.y + dy,
+        let center = Coord {
+            x: p.center.x + dx,
+            y: p.center.y + dy,
         };
-        out.push(make(moved, theta_deg, size_m));
+        out.push(make(Centred { center, ..p }));
     }
-    for t in [theta_deg + dd, theta_deg - dd]
+    for t in [p.theta_deg + dd, p.theta_deg - dd]
         .into_iter()
         .filter(|_| dd > 0.0)
     {
-        out.push(make(center, wrap360(t), size_m));
+        out.push(make(Centred {
+            theta_deg: wrap360(t),
+            ..p
+        }));
     }
     for f in [1.0 + ds, 1.0 / (1.0 + ds)] {
-        out.push(make(center, theta_deg, size_m * f));
+        out.push(make(Centred {
+            size_m: p.size_m * f,
+            ..p
+        }));
     }
 }
 

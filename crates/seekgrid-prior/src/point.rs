@@ -99,63 +99,56 @@ pub(crate) fn point_window(
         let t = (y - my) / sy;
         s * (k * k - t * t).max(0.0).sqrt()
     };
-    w.cells
-        .axis_iter_mut(Axis(0))
-        .into_par_iter()
-        .enumerate()
-        .for_each(|(i, mut row)| {
-            let r = r0 + i;
-            let ya = (-((r + 1) as f64) * h).max(my - k * sy);
-            let yb = (-(r as f64) * h).min(my + k * sy);
-            if ya >= yb {
-                return;
+    w.fill_rows(|r, mut row| {
+        let ya = (-((r + 1) as f64) * h).max(my - k * sy);
+        let yb = (-(r as f64) * h).min(my + k * sy);
+        if ya >= yb {
+            return;
+        }
+        let xl = if (ya..=yb).contains(&y_left) {
+            mx - k * sx
+        } else {
+            (mx + slope * (ya - my) - half_width(ya)).min(mx + slope * (yb - my) - half_width(yb))
+        };
+        let xr = if (ya..=yb).contains(&y_right) {
+            mx + k * sx
+        } else {
+            (mx + slope * (ya - my) + half_width(ya)).max(mx + slope * (yb - my) + half_width(yb))
+        };
+        let ca = ((xl / h).floor().max(c0 as f64) as usize).min(c1);
+        let cb = ((xr / h).ceil().min(c1 as f64) as usize).max(ca);
+        if ca >= cb {
+            return;
+        }
+        let rule = Composite::for_ratio((yb - ya) / scale);
+        let n_edges = cb - ca + 1;
+        let mut g = vec![0.0; n_edges];
+        let out = row.as_slice_mut().expect("window rows are contiguous");
+        for (t, wt) in rule.nodes.iter().zip(&rule.weights) {
+            let y = ya + (yb - ya) * t;
+            let weight = (yb - ya) * wt * phi_pdf((y - my) / sy) / sy;
+            if weight == 0.0 {
+                continue;
             }
-            let xl = if (ya..=yb).contains(&y_left) {
-                mx - k * sx
-            } else {
-                (mx + slope * (ya - my) - half_width(ya))
-                    .min(mx + slope * (yb - my) - half_width(yb))
-            };
-            let xr = if (ya..=yb).contains(&y_right) {
-                mx + k * sx
-            } else {
-                (mx + slope * (ya - my) + half_width(ya))
-                    .max(mx + slope * (yb - my) + half_width(yb))
-            };
-            let ca = ((xl / h).floor().max(c0 as f64) as usize).min(c1);
-            let cb = ((xr / h).ceil().min(c1 as f64) as usize).max(ca);
-            if ca >= cb {
-                return;
+            let m = mx + slope * (y - my);
+            // g[e] = Φ(z) for z < 0 and Φ(z) - 1 = -Q(z) for z >= 0, so that differences
+            // keep their precision in both tails; crossing z = 0 adds the 1 back.
+            let mut split = n_edges;
+            for (e, ge) in g.iter_mut().enumerate() {
+                let z = ((ca + e) as f64 * h - m) / s;
+                *ge = if z < 0.0 {
+                    0.5 * crate::erfc::erfc(-z * FRAC_1_SQRT_2)
+                } else {
+                    split = split.min(e);
+                    -0.5 * crate::erfc::erfc(z * FRAC_1_SQRT_2)
+                };
             }
-            let rule = Composite::for_ratio((yb - ya) / scale);
-            let n_edges = cb - ca + 1;
-            let mut g = vec![0.0; n_edges];
-            let out = row.as_slice_mut().expect("window rows are contiguous");
-            for (t, wt) in rule.nodes.iter().zip(&rule.weights) {
-                let y = ya + (yb - ya) * t;
-                let weight = (yb - ya) * wt * phi_pdf((y - my) / sy) / sy;
-                if weight == 0.0 {
-                    continue;
-                }
-                let m = mx + slope * (y - my);
-                // g[e] = Φ(z) for z < 0 and Φ(z) - 1 = -Q(z) for z >= 0, so that differences
-                // keep their precision in both tails; crossing z = 0 adds the 1 back.
-                let mut split = n_edges;
-                for (e, ge) in g.iter_mut().enumerate() {
-                    let z = ((ca + e) as f64 * h - m) / s;
-                    *ge = if z < 0.0 {
-                        0.5 * crate::erfc::erfc(-z * FRAC_1_SQRT_2)
-                    } else {
-                        split = split.min(e);
-                        -0.5 * crate::erfc::erfc(z * FRAC_1_SQRT_2)
-                    };
-                }
-                for e in 0..n_edges - 1 {
-                    let one = if e + 1 == split { 1.0 } else { 0.0 };
-                    let d = (g[e + 1] - g[e] + one).max(0.0);
-                    out[ca - c0 + e] += weight * d;
-                }
+            for e in 0..n_edges - 1 {
+                let one = if e + 1 == split { 1.0 } else { 0.0 };
+                let d = (g[e + 1] - g[e] + one).max(0.0);
+                out[ca - c0 + e] += weight * d;
             }
-        });
+        }
+    });
     Some(w)
 }

@@ -16,8 +16,6 @@ use crate::model::RingInterpolation;
 use crate::quad::GaussLegendre;
 use crate::window::Window;
 use geo::Coord;
-use ndarray::Axis;
-use ndarray::parallel::prelude::*;
 use seekgrid_core::GridSpec;
 use std::f64::consts::PI;
 
@@ -75,7 +73,7 @@ pub(crate) fn rings_window(
 
 /// Fills the window with uniform-per-ring masses; (cx, cy) is the centre in grid-local metres.
 fn uniform_cells(w: &mut Window, an: &Annuli, h: f64, cx: f64, cy: f64) {
-    let (r0, c0) = (w.row0, w.col0);
+    let c0 = w.col0;
     let k_total = an.radii_m.len();
     let dens = |k: usize| {
         if k < k_total {
@@ -84,90 +82,80 @@ fn uniform_cells(w: &mut Window, an: &Annuli, h: f64, cx: f64, cy: f64) {
             0.0
         }
     };
-    w.cells
-        .axis_iter_mut(Axis(0))
-        .into_par_iter()
-        .enumerate()
-        .for_each(|(i, mut row)| {
-            let r = r0 + i;
-            let y1 = -(r as f64) * h - cy;
-            let y0 = y1 - h;
-            for (j, v) in row.iter_mut().enumerate() {
-                let x0 = (c0 + j) as f64 * h - cx;
-                let x1 = x0 + h;
-                let nx = 0.0_f64.clamp(x0, x1);
-                let ny = 0.0_f64.clamp(y0, y1);
-                let dmin = nx.hypot(ny);
-                let dmax = x0.abs().max(x1.abs()).hypot(y0.abs().max(y1.abs()));
-                let klo = an.radii_m.partition_point(|&rk| rk <= dmin);
-                let khi = an.radii_m.partition_point(|&rk| rk < dmax);
-                let mut m = h * h * dens(khi);
-                for k in klo..khi.min(k_total) {
-                    m += disc_rect_area(x0, x1, y0, y1, an.radii_m[k]) * (dens(k) - dens(k + 1));
-                }
-                *v = m.max(0.0);
+    w.fill_rows(|r, mut row| {
+        let y1 = -(r as f64) * h - cy;
+        let y0 = y1 - h;
+        for (j, v) in row.iter_mut().enumerate() {
+            let x0 = (c0 + j) as f64 * h - cx;
+            let x1 = x0 + h;
+            let nx = 0.0_f64.clamp(x0, x1);
+            let ny = 0.0_f64.clamp(y0, y1);
+            let dmin = nx.hypot(ny);
+            let dmax = x0.abs().max(x1.abs()).hypot(y0.abs().max(y1.abs()));
+            let klo = an.radii_m.partition_point(|&rk| rk <= dmin);
+            let khi = an.radii_m.partition_point(|&rk| rk < dmax);
+            let mut m = h * h * dens(khi);
+            for k in klo..khi.min(k_total) {
+                m += disc_rect_area(x0, x1, y0, y1, an.radii_m[k]) * (dens(k) - dens(k + 1));
             }
-        });
+            *v = m.max(0.0);
+        }
+    });
 }
 
 /// Fills the window with monotone-cubic masses; (cx, cy) is the centre in grid-local metres.
 fn cubic_cells(w: &mut Window, pchip: &Pchip, h: f64, cx: f64, cy: f64) {
-    let (r0, c0) = (w.row0, w.col0);
+    let c0 = w.col0;
     let outer = *pchip.x.last().expect("at least one quantile");
     let gl = GaussLegendre::new(12);
-    w.cells
-        .axis_iter_mut(Axis(0))
-        .into_par_iter()
-        .enumerate()
-        .for_each(|(i, mut row)| {
-            let r = r0 + i;
-            let y1 = -(r as f64) * h - cy;
-            let y0 = y1 - h;
-            let mut cuts = Vec::with_capacity(16 + pchip.x.len());
-            for (j, v) in row.iter_mut().enumerate() {
-                let x0 = (c0 + j) as f64 * h - cx;
-                let x1 = x0 + h;
-                let dmin = 0.0_f64.clamp(x0, x1).hypot(0.0_f64.clamp(y0, y1));
-                let dmax = x0
-                    .abs()
-                    .max(x1.abs())
-                    .hypot(y0.abs().max(y1.abs()))
-                    .min(outer);
-                if dmin >= dmax {
-                    *v = 0.0;
+    w.fill_rows(|r, mut row| {
+        let y1 = -(r as f64) * h - cy;
+        let y0 = y1 - h;
+        let mut cuts = Vec::with_capacity(16 + pchip.x.len());
+        for (j, v) in row.iter_mut().enumerate() {
+            let x0 = (c0 + j) as f64 * h - cx;
+            let x1 = x0 + h;
+            let dmin = 0.0_f64.clamp(x0, x1).hypot(0.0_f64.clamp(y0, y1));
+            let dmax = x0
+                .abs()
+                .max(x1.abs())
+                .hypot(y0.abs().max(y1.abs()))
+                .min(outer);
+            if dmin >= dmax {
+                *v = 0.0;
+                continue;
+            }
+            cuts.clear();
+            cuts.extend([dmin, dmax, x0.abs(), x1.abs(), y0.abs(), y1.abs()]);
+            for &xx in &[x0, x1] {
+                for &yy in &[y0, y1] {
+                    cuts.push(xx.hypot(yy));
+                }
+            }
+            cuts.extend(pchip.x.iter().copied());
+            cuts.retain(|&c| c >= dmin && c <= dmax);
+            cuts.sort_by(f64::total_cmp);
+            cuts.dedup();
+            let mut m = 0.0;
+            for piece in cuts.windows(2) {
+                let (a, b) = (piece[0], piece[1]);
+                if b - a <= 0.0 {
                     continue;
                 }
-                cuts.clear();
-                cuts.extend([dmin, dmax, x0.abs(), x1.abs(), y0.abs(), y1.abs()]);
-                for &xx in &[x0, x1] {
-                    for &yy in &[y0, y1] {
-                        cuts.push(xx.hypot(yy));
-                    }
+                let k = pchip.interval(0.5 * (a + b));
+                let mut acc = 0.0;
+                for (t, wt) in gl.nodes.iter().zip(&gl.weights) {
+                    // r = a + (b - a)(1 - cos(pi t))/2, dr = (b - a) pi sin(pi t)/2 dt.
+                    let (sn, cs) = (PI * t).sin_cos();
+                    let rr = a + 0.5 * (b - a) * (1.0 - cs);
+                    let jac = 0.5 * (b - a) * PI * sn;
+                    acc += wt * jac * pchip.slope(k, rr) * arc_angle(x0, x1, y0, y1, rr);
                 }
-                cuts.extend(pchip.x.iter().copied());
-                cuts.retain(|&c| c >= dmin && c <= dmax);
-                cuts.sort_by(f64::total_cmp);
-                cuts.dedup();
-                let mut m = 0.0;
-                for piece in cuts.windows(2) {
-                    let (a, b) = (piece[0], piece[1]);
-                    if b - a <= 0.0 {
-                        continue;
-                    }
-                    let k = pchip.interval(0.5 * (a + b));
-                    let mut acc = 0.0;
-                    for (t, wt) in gl.nodes.iter().zip(&gl.weights) {
-                        // r = a + (b - a)(1 - cos(pi t))/2, dr = (b - a) pi sin(pi t)/2 dt.
-                        let (sn, cs) = (PI * t).sin_cos();
-                        let rr = a + 0.5 * (b - a) * (1.0 - cs);
-                        let jac = 0.5 * (b - a) * PI * sn;
-                        acc += wt * jac * pchip.slope(k, rr) * arc_angle(x0, x1, y0, y1, rr);
-                    }
-                    m += acc;
-                }
-                *v = (m / (2.0 * PI)).max(0.0);
+                m += acc;
             }
-        });
+            *v = (m / (2.0 * PI)).max(0.0);
+        }
+    });
 }
 
 /// Area of the intersection of the rectangle [x0, x1] x [y0, y1] with the disc of radius `r`

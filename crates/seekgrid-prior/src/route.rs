@@ -18,7 +18,6 @@ use crate::point::CUTOFF_SIGMAS;
 use crate::quad::{Composite, normal_interval};
 use crate::window::Window;
 use geo::Coord;
-use ndarray::Axis;
 use ndarray::parallel::prelude::*;
 use seekgrid_core::GridSpec;
 
@@ -117,26 +116,21 @@ pub(crate) fn route_window(
         })
         .collect();
     let mut w = Window::zeros(r0..r1, c0..c1);
-    w.cells
-        .axis_iter_mut(Axis(0))
-        .into_par_iter()
-        .enumerate()
-        .for_each(|(i, mut row)| {
-            let r = r0 + i;
-            let out = row.as_slice_mut().expect("window rows are contiguous");
-            for n in &nodes {
-                if r < n.row0 || r >= n.row0 + n.py.len() {
-                    continue;
-                }
-                let f = n.weight * n.py[r - n.row0];
-                if f == 0.0 {
-                    continue;
-                }
-                let dst = &mut out[n.col0 - c0..n.col0 - c0 + n.px.len()];
-                for (d, p) in dst.iter_mut().zip(&n.px) {
-                    *d += f * p;
-                }
+    w.fill_rows(|r, mut row| {
+        let out = row.as_slice_mut().expect("window rows are contiguous");
+        for n in &nodes {
+            if r < n.row0 || r >= n.row0 + n.py.len() {
+                continue;
             }
-        });
+            let f = n.weight * n.py[r - n.row0];
+            if f == 0.0 {
+                continue;
+            }
+            let dst = &mut out[n.col0 - c0..n.col0 - c0 + n.px.len()];
+            for (d, p) in dst.iter_mut().zip(&n.px) {
+                *d += f * p;
+            }
+        }
+    });
     Some(w)
 }

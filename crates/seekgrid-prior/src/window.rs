@@ -1,7 +1,8 @@
 //! A rectangular window of cell masses inside a grid: what every scenario kernel returns, so
 //! that a scenario touching few cells costs little memory.
 
-use ndarray::{Array2, ArrayViewMut2, Axis, Slice};
+use ndarray::parallel::prelude::*;
+use ndarray::{Array2, ArrayViewMut1, ArrayViewMut2, Axis, Slice};
 
 /// Cell masses for rows `row0..row0 + cells.nrows()` and columns `col0..col0 + cells.ncols()`.
 #[derive(Debug, Clone, PartialEq)]
@@ -18,6 +19,17 @@ impl Window {
             col0: cols.start,
             cells: Array2::zeros((rows.len(), cols.len())),
         }
+    }
+
+    /// Calls `fill(r, row)` for every row of the window, `r` its grid row, rows in parallel
+    /// (each row is filled on its own, so the result does not depend on the number of threads).
+    pub fn fill_rows(&mut self, fill: impl Fn(usize, ArrayViewMut1<'_, f64>) + Sync + Send) {
+        let row0 = self.row0;
+        self.cells
+            .axis_iter_mut(Axis(0))
+            .into_par_iter()
+            .enumerate()
+            .for_each(|(i, row)| fill(row0 + i, row));
     }
 
     /// One window covering all parts, holding their sum; `None` when there are none.

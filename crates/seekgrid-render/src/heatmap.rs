@@ -355,173 +355,252 @@ pub fn heatmap_png(
     };
     check_layer("heatmap values", grid, values, hi)?;
     let prj = utm_wkt1_esri(frame.epsg())?;
-    let k = pixels_per_cell(grid);
-    let (rows, cols) = (grid.rows(), grid.cols());
-    let map_w = cols as u64 * u64::from(k);
-    let map_h = rows as u64 * u64::from(k);
-    if map_w * map_h > MAX_PIXELS {
-        return Err(RenderError::PictureTooLarge {
-            width: map_w,
-            height: map_h,
-            limit: MAX_PIXELS,
-        });
-    }
-    let (map_w, map_h) = (map_w as i32, map_h as i32);
     let colouring = Colouring::new(style.scale, values, grid.cell_area_m2() / 1e6);
-    // Decorations (text, legend, arrow) are drawn twice as large around big maps, so that
-    // the text stays readable when the picture is printed to a page.
-    let u = if map_w.max(map_h) > 1800 { 2 } else { 1 };
-    let (pad, line_h) = (PAD * u, LINE_H * u);
+    let legend = legend_entries(overlays);
+    let layout = Layout::new(grid, style, legend.len())?;
+    let mut cv = Canvas::new(layout.width as u32, layout.height as u32, WHITE, layout.u);
 
-    // Layout: title block, then map (with graticule labels left and below) and the panel to
-    // its right, then the scale bar under the map, then the caution line(s) at the bottom.
-    let title_h = if style.title.is_empty() { 0 } else { 40 * u };
-    let sub_h = if style.subtitle.is_empty() {
-        0
-    } else {
-        line_h + 4 * u
-    };
-    let map_x = pad + 90 * u;
-    let map_y = pad + title_h + 8 * u + sub_h + 14 * u;
-    let panel_x = map_x + map_w + GAP * u;
-    let panel_w = PANEL_W * u;
-    let legend_lines = wrap(style.legend_label, (PANEL_W / 10) as usize);
-    let legend_entries = legend_entries(overlays);
-    let bar_h = 300 * u;
-    let panel_h = 150 * u
-        + legend_lines.len() as i32 * line_h
-        + 12 * u
-        + bar_h
-        + 20 * u
-        + (34 + legend_entries.len() as i32 * (LINE_H + 10)) * u
-        + 20 * u
-        + 3 * line_h;
-    let width_from_title =
-        2 * pad + text_width(style.title, BODY, 2 * u).max(text_width(style.subtitle, BODY, u));
-    let width = (panel_x + panel_w + pad).max(width_from_title).max(640 * u);
-    let caution_lines = wrap(style.caution, ((width - 2 * pad) / (10 * u)) as usize);
-    let scale_y = map_y + map_h + 30 * u + 12 * u;
-    let scale_h = 84 * u;
-    let body_bottom = (scale_y + scale_h).max(map_y + panel_h);
-    let height = body_bottom + 8 * u + caution_lines.len() as i32 * line_h + pad;
-    let total = width as u64 * height as u64;
-    if total > MAX_PIXELS * 2 {
-        return Err(RenderError::PictureTooLarge {
-            width: width as u64,
-            height: height as u64,
-            limit: MAX_PIXELS * 2,
-        });
-    }
-    let mut cv = Canvas::new(width as u32, height as u32, WHITE, u);
-
-    // Raster: each pixel its cell's colour.
-    for r in 0..rows {
-        for c in 0..cols {
-            let col = colouring.colour(values[[r, c]]);
-            cv.fill_rect(
-                i64::from(map_x) + (c as i64) * i64::from(k),
-                i64::from(map_y) + (r as i64) * i64::from(k),
-                i64::from(k),
-                i64::from(k),
-                col,
-            );
-        }
-    }
-    // Frame just outside the map area, so no map pixel is covered.
-    let _ = Rectangle::new(
-        Point::new(map_x - 1, map_y - 1),
-        Size::new(map_w as u32 + 2, map_h as u32 + 2),
-    )
-    .into_styled(PrimitiveStyle::with_stroke(rgb(MUTED), 1))
-    .draw(&mut cv);
-
-    let pixel_m = grid.cell_m() / f64::from(k);
+    draw_raster(&mut cv, &layout, values, &colouring);
+    let pixel_m = layout.pixel_m(grid);
     let to_px = |p: Coord<f64>| -> (f64, f64) {
         (
-            f64::from(map_x) + (p.x - grid.west_m()) / pixel_m,
-            f64::from(map_y) + (grid.north_m() - p.y) / pixel_m,
+            f64::from(layout.map.x) + (p.x - grid.west_m()) / pixel_m,
+            f64::from(layout.map.y) + (grid.north_m() - p.y) / pixel_m,
         )
     };
-    let map = (map_x, map_y, map_w, map_h);
-    draw_overlays(&mut cv, overlays, &to_px, map);
-    draw_graticule_ticks(&mut cv, frame, grid, map, pixel_m);
+    draw_overlays(&mut cv, overlays, &to_px, &layout.map);
+    draw_graticule_ticks(&mut cv, frame, grid, &layout.map, pixel_m);
+    draw_titles(&mut cv, &layout, style);
+    draw_panel(&mut cv, &layout, frame, grid, &colouring, &legend);
+    let scale_w = layout.map.w.max(400 * layout.u);
+    draw_scale_bar(&mut cv, layout.map.x, layout.scale_y, pixel_m, scale_w);
+    draw_caution(&mut cv, &layout);
 
+    let png = encode_png(&cv, &layout)?;
+    let placement = PixelGeometry {
+        west_m: grid.west_m() - f64::from(layout.map.x) * pixel_m,
+        north_m: grid.north_m() + f64::from(layout.map.y) * pixel_m,
+        pixel_m,
+    };
+    Ok(GeoreferencedPng {
+        png,
+        world_file: placement.world_file(),
+        aux_xml: aux_xml(frame.epsg()),
+        prj,
+        placement,
+        pixels_per_cell: layout.k,
+        map_origin_px: (layout.map.x as u32, layout.map.y as u32),
+    })
+}
+
+/// The map area of a picture, in pixels: upper-left corner and size.
+#[derive(Debug, Clone, Copy)]
+struct MapArea {
+    x: i32,
+    y: i32,
+    w: i32,
+    h: i32,
+}
+
+/// The right-hand panel: the top of each of its blocks, top to bottom.
+#[derive(Debug, Clone, Copy)]
+struct Panel {
+    x: i32,
+    w: i32,
+    /// North arrow.
+    arrow_y: i32,
+    /// Legend label (wrapped).
+    label_y: i32,
+    /// Colour bar, and its height.
+    bar_y: i32,
+    bar_h: i32,
+    /// Key: the zero swatch, then one row per overlay legend entry.
+    key_y: i32,
+    /// CRS lines.
+    crs_y: i32,
+    /// Below the last line.
+    bottom: i32,
+}
+
+impl Panel {
+    /// Height of the zero swatch's row in the key.
+    const ZERO_ROW: i32 = 34;
+    /// Height of an overlay entry's row in the key.
+    const ENTRY_ROW: i32 = LINE_H + 10;
+    /// Lines of CRS text.
+    const CRS_LINES: i32 = 3;
+
+    /// Top of the key's overlay entry `i`.
+    fn entry_y(&self, i: usize, u: i32) -> i32 {
+        self.key_y + (Self::ZERO_ROW + i as i32 * Self::ENTRY_ROW) * u
+    }
+}
+
+/// Where everything goes in a picture, computed once and used both to size the canvas and to
+/// draw: title block, then the map (graticule labels left and below) with the panel to its
+/// right, then the scale bar under the map, then the caution line(s) at the bottom.
+#[derive(Debug, Clone)]
+struct Layout {
+    /// Pixels per grid cell.
+    k: u32,
+    /// Decoration scale: 2 around big maps, so text stays readable when printed.
+    u: i32,
+    pad: i32,
+    line_h: i32,
+    title_h: i32,
+    map: MapArea,
+    panel: Panel,
+    legend_lines: Vec<String>,
+    scale_y: i32,
+    caution_y: i32,
+    caution_lines: Vec<String>,
+    width: i32,
+    height: i32,
+}
+
+impl Layout {
+    /// The layout of a picture of `grid` with `style` and `legend_entries` overlay entries.
+    ///
+    /// # Errors
+    /// [`RenderError::PictureTooLarge`] when the map or the whole picture is over the limit.
+    fn new(grid: &GridSpec, style: &MapStyle, legend_entries: usize) -> Result<Self, RenderError> {
+        let k = pixels_per_cell(grid);
+        let map_w = grid.cols() as u64 * u64::from(k);
+        let map_h = grid.rows() as u64 * u64::from(k);
+        if map_w * map_h > MAX_PIXELS {
+            return Err(RenderError::PictureTooLarge {
+                width: map_w,
+                height: map_h,
+                limit: MAX_PIXELS,
+            });
+        }
+        let (map_w, map_h) = (map_w as i32, map_h as i32);
+        let u = if map_w.max(map_h) > 1800 { 2 } else { 1 };
+        let (pad, line_h) = (PAD * u, LINE_H * u);
+        let title_h = if style.title.is_empty() { 0 } else { 40 * u };
+        let sub_h = if style.subtitle.is_empty() {
+            0
+        } else {
+            line_h + 4 * u
+        };
+        let map = MapArea {
+            x: pad + 90 * u,
+            y: pad + title_h + 8 * u + sub_h + 14 * u,
+            w: map_w,
+            h: map_h,
+        };
+        let legend_lines = wrap(style.legend_label, (PANEL_W / 10) as usize);
+        let panel = {
+            let arrow_y = map.y;
+            let label_y = arrow_y + 150 * u;
+            let bar_y = label_y + legend_lines.len() as i32 * line_h + 12 * u;
+            let bar_h = 300 * u;
+            let key_y = bar_y + bar_h + 20 * u;
+            let mut p = Panel {
+                x: map.x + map.w + GAP * u,
+                w: PANEL_W * u,
+                arrow_y,
+                label_y,
+                bar_y,
+                bar_h,
+                key_y,
+                crs_y: 0,
+                bottom: 0,
+            };
+            p.crs_y = p.entry_y(legend_entries, u) + 20 * u;
+            p.bottom = p.crs_y + Panel::CRS_LINES * line_h;
+            p
+        };
+        let width_from_title =
+            2 * pad + text_width(style.title, BODY, 2 * u).max(text_width(style.subtitle, BODY, u));
+        let width = (panel.x + panel.w + pad).max(width_from_title).max(640 * u);
+        let caution_lines = wrap(style.caution, ((width - 2 * pad) / (10 * u)) as usize);
+        let scale_y = map.y + map.h + 30 * u + 12 * u;
+        let scale_h = 84 * u;
+        let caution_y = (scale_y + scale_h).max(panel.bottom) + 8 * u;
+        let height = caution_y + caution_lines.len() as i32 * line_h + pad;
+        if width as u64 * height as u64 > MAX_PIXELS * 2 {
+            return Err(RenderError::PictureTooLarge {
+                width: width as u64,
+                height: height as u64,
+                limit: MAX_PIXELS * 2,
+            });
+        }
+        Ok(Self {
+            k,
+            u,
+            pad,
+            line_h,
+            title_h,
+            map,
+            panel,
+            legend_lines,
+            scale_y,
+            caution_y,
+            caution_lines,
+            width,
+            height,
+        })
+    }
+
+    /// Size of a map pixel on the ground, metres.
+    fn pixel_m(&self, grid: &GridSpec) -> f64 {
+        grid.cell_m() / f64::from(self.k)
+    }
+}
+
+/// The raster (each pixel its cell's colour) and a frame just outside the map area, so no map
+/// pixel is covered.
+fn draw_raster(cv: &mut Canvas, layout: &Layout, values: &Array2<f64>, colouring: &Colouring) {
+    let (map, k) = (&layout.map, i64::from(layout.k));
+    for ((r, c), v) in values.indexed_iter() {
+        cv.fill_rect(
+            i64::from(map.x) + (c as i64) * k,
+            i64::from(map.y) + (r as i64) * k,
+            k,
+            k,
+            colouring.colour(*v),
+        );
+    }
+    let _ = Rectangle::new(
+        Point::new(map.x - 1, map.y - 1),
+        Size::new(map.w as u32 + 2, map.h as u32 + 2),
+    )
+    .into_styled(PrimitiveStyle::with_stroke(rgb(MUTED), 1))
+    .draw(cv);
+}
+
+/// Title and subtitle, top left.
+fn draw_titles(cv: &mut Canvas, layout: &Layout, style: &MapStyle) {
+    let (pad, u) = (layout.pad, layout.u);
     if !style.title.is_empty() {
         cv.text(style.title, pad, pad, INK, 2);
     }
     if !style.subtitle.is_empty() {
-        cv.text(style.subtitle, pad, pad + title_h + 6 * u, MUTED, 1);
+        cv.text(style.subtitle, pad, pad + layout.title_h + 6 * u, MUTED, 1);
     }
+}
 
-    // Right panel: north arrow, legend, overlay key, CRS.
-    let mut y = map_y;
+/// The right panel: north arrow, legend label, colour bar, key, CRS.
+fn draw_panel(
+    cv: &mut Canvas,
+    layout: &Layout,
+    frame: &Frame,
+    grid: &GridSpec,
+    colouring: &Colouring,
+    legend: &[&Overlay],
+) {
+    let p = &layout.panel;
     let (clon, clat) = frame.to_lon_lat(Coord {
-        x: grid.west_m() + cols as f64 * grid.cell_m() / 2.0,
-        y: grid.north_m() - rows as f64 * grid.cell_m() / 2.0,
+        x: grid.west_m() + grid.cols() as f64 * grid.cell_m() / 2.0,
+        y: grid.north_m() - grid.rows() as f64 * grid.cell_m() / 2.0,
     });
-    draw_north_arrow(&mut cv, panel_x, y, frame.convergence_deg(clon, clat));
-    y += 150 * u;
-    for line in &legend_lines {
-        cv.text(line, panel_x, y, INK, 1);
-        y += line_h;
+    draw_north_arrow(cv, p.x, p.arrow_y, frame.convergence_deg(clon, clat));
+    for (i, line) in layout.legend_lines.iter().enumerate() {
+        cv.text(line, p.x, p.label_y + i as i32 * layout.line_h, INK, 1);
     }
-    y += 12 * u;
-    draw_colour_bar(&mut cv, &colouring, panel_x, y, bar_h);
-    y += bar_h + 20 * u;
-    let swatch = |cv: &mut Canvas, y: i32, fill: Option<Rgba8>, edge: Option<(Rgba8, u32)>| {
-        if let Some(f) = fill {
-            cv.fill_rect(
-                i64::from(panel_x),
-                i64::from(y),
-                i64::from(28 * u),
-                i64::from(20 * u),
-                f,
-            );
-        }
-        if let Some((c, w)) = edge {
-            let _ = Rectangle::new(
-                Point::new(panel_x, y),
-                Size::new(28 * u as u32, 20 * u as u32),
-            )
-            .into_styled(PrimitiveStyle::with_stroke(rgb(c), w))
-            .draw(cv);
-        }
-    };
-    swatch(&mut cv, y, Some(ZERO_CELL), Some((MUTED, 1)));
-    cv.text("0 (none)", panel_x + 40 * u, y, INK, 1);
-    y += 34 * u;
-    for o in &legend_entries {
-        let c = [o.colour[0], o.colour[1], o.colour[2], 255];
-        match &o.shape {
-            Shape::Line(_) => {
-                let yy = f64::from(y + 10 * u);
-                cv.stroke_path(
-                    &[(f64::from(panel_x), yy), (f64::from(panel_x + 28 * u), yy)],
-                    f64::from(o.width_px.max(1)),
-                    c,
-                    (0, 0, i64::from(width), i64::from(height)),
-                );
-            }
-            Shape::Polygon(_) => {
-                swatch(
-                    &mut cv,
-                    y,
-                    o.fill,
-                    (o.width_px > 0).then_some((c, o.width_px)),
-                );
-            }
-            Shape::Points(_) => draw_point(&mut cv, panel_x + 14 * u, y + 10 * u, c, o.width_px),
-        }
-        cv.text(
-            o.legend.as_deref().unwrap_or(""),
-            panel_x + 40 * u,
-            y,
-            INK,
-            1,
-        );
-        y += (LINE_H + 10) * u;
-    }
-    y += 20 * u;
+    draw_colour_bar(cv, colouring, p.x, p.bar_y, p.bar_h);
+    draw_key(cv, layout, legend);
     let zone = frame.zone();
     let hemi = match zone.hemisphere() {
         Hemisphere::North => 'N',
@@ -533,40 +612,74 @@ pub fn heatmap_png(
         format!("cell {} m", fmt_len(grid.cell_m())),
     ];
     for (i, line) in crs_lines.iter().enumerate() {
-        cv.text(line, panel_x, y + i as i32 * line_h, MUTED, 1);
+        cv.text(line, p.x, p.crs_y + i as i32 * layout.line_h, MUTED, 1);
     }
+}
 
-    draw_scale_bar(&mut cv, map_x, scale_y, pixel_m, map_w.max(400 * u));
-
-    let mut cy = body_bottom + 8 * u;
-    for line in &caution_lines {
-        cv.text(line, pad, cy, CAUTION_INK, 1);
-        cy += line_h;
+/// The key: the swatch of cells without value, then one row per overlay legend entry.
+fn draw_key(cv: &mut Canvas, layout: &Layout, legend: &[&Overlay]) {
+    let (p, u) = (&layout.panel, layout.u);
+    let swatch = |cv: &mut Canvas, y: i32, fill: Option<Rgba8>, edge: Option<(Rgba8, u32)>| {
+        if let Some(f) = fill {
+            cv.fill_rect(
+                i64::from(p.x),
+                i64::from(y),
+                i64::from(28 * u),
+                i64::from(20 * u),
+                f,
+            );
+        }
+        if let Some((c, w)) = edge {
+            let _ = Rectangle::new(Point::new(p.x, y), Size::new(28 * u as u32, 20 * u as u32))
+                .into_styled(PrimitiveStyle::with_stroke(rgb(c), w))
+                .draw(cv);
+        }
+    };
+    swatch(cv, p.key_y, Some(ZERO_CELL), Some((MUTED, 1)));
+    cv.text("0 (none)", p.x + 40 * u, p.key_y, INK, 1);
+    let whole = (0, 0, i64::from(layout.width), i64::from(layout.height));
+    for (i, o) in legend.iter().enumerate() {
+        let y = p.entry_y(i, u);
+        let c = [o.colour[0], o.colour[1], o.colour[2], 255];
+        match &o.shape {
+            Shape::Line(_) => {
+                let yy = f64::from(y + 10 * u);
+                cv.stroke_path(
+                    &[(f64::from(p.x), yy), (f64::from(p.x + 28 * u), yy)],
+                    f64::from(o.width_px.max(1)),
+                    c,
+                    whole,
+                );
+            }
+            Shape::Polygon(_) => {
+                swatch(cv, y, o.fill, (o.width_px > 0).then_some((c, o.width_px)));
+            }
+            Shape::Points(_) => draw_point(cv, p.x + 14 * u, y + 10 * u, c, o.width_px),
+        }
+        cv.text(o.legend.as_deref().unwrap_or(""), p.x + 40 * u, y, INK, 1);
     }
+}
 
+/// The caution line(s) at the bottom.
+fn draw_caution(cv: &mut Canvas, layout: &Layout) {
+    for (i, line) in layout.caution_lines.iter().enumerate() {
+        let y = layout.caution_y + i as i32 * layout.line_h;
+        cv.text(line, layout.pad, y, CAUTION_INK, 1);
+    }
+}
+
+/// The canvas as an RGBA PNG.
+fn encode_png(cv: &Canvas, layout: &Layout) -> Result<Vec<u8>, RenderError> {
     let mut png = Vec::new();
     image::codecs::png::PngEncoder::new(&mut png)
         .write_image(
             cv.img.as_raw(),
-            width as u32,
-            height as u32,
+            layout.width as u32,
+            layout.height as u32,
             image::ExtendedColorType::Rgba8,
         )
         .map_err(|e| RenderError::Png(e.to_string()))?;
-    let placement = PixelGeometry {
-        west_m: grid.west_m() - f64::from(map_x) * pixel_m,
-        north_m: grid.north_m() + f64::from(map_y) * pixel_m,
-        pixel_m,
-    };
-    Ok(GeoreferencedPng {
-        png,
-        world_file: placement.world_file(),
-        aux_xml: aux_xml(frame.epsg()),
-        prj,
-        placement,
-        pixels_per_cell: k,
-        map_origin_px: (map_x as u32, map_y as u32),
-    })
+    Ok(png)
 }
 
 fn legend_entries(overlays: &[Overlay]) -> Vec<&Overlay> {
@@ -601,9 +714,14 @@ fn draw_overlays(
     cv: &mut Canvas,
     overlays: &[Overlay],
     to_px: &dyn Fn(Coord<f64>) -> (f64, f64),
-    map: (i32, i32, i32, i32),
+    map: &MapArea,
 ) {
-    let (mx, my, mw, mh) = map;
+    let MapArea {
+        x: mx,
+        y: my,
+        w: mw,
+        h: mh,
+    } = *map;
     let u = cv.ui;
     let clip = (
         i64::from(mx),
@@ -734,10 +852,15 @@ fn draw_graticule_ticks(
     cv: &mut Canvas,
     frame: &Frame,
     grid: &GridSpec,
-    map: (i32, i32, i32, i32),
+    map: &MapArea,
     pixel_m: f64,
 ) {
-    let (mx, my, mw, mh) = map;
+    let MapArea {
+        x: mx,
+        y: my,
+        w: mw,
+        h: mh,
+    } = *map;
     let u = cv.ui;
     let (west, north) = (grid.west_m(), grid.north_m());
     let east = west + f64::from(mw) * pixel_m;
@@ -926,9 +1049,21 @@ fn nice_unit(v: f64) -> f64 {
     10f64.powf(v.log10().floor())
 }
 
-/// Writes `stem.png`, `stem.pgw`, `stem.png.aux.xml` and `stem.prj` into `dir`, each atomically.
-/// The picture carries the run id ([`OutputDir::run_id`]) in a `tEXt` chunk with keyword
-/// `run_id`.
+/// The names of a georeferenced picture's files: `stem.png`, then its sidecars `stem.pgw`
+/// (world file), `stem.png.aux.xml` (GDAL PAM) and `stem.prj` (ESRI WKT1).
+#[must_use]
+pub fn png_set_names(stem: &str) -> [String; 4] {
+    [
+        format!("{stem}.png"),
+        format!("{stem}.pgw"),
+        format!("{stem}.png.aux.xml"),
+        format!("{stem}.prj"),
+    ]
+}
+
+/// Writes `stem.png`, `stem.pgw`, `stem.png.aux.xml` and `stem.prj` ([`png_set_names`]) into
+/// `dir`, each atomically. The picture carries the run id ([`OutputDir::run_id`]) in a `tEXt`
+/// chunk with keyword `run_id`.
 ///
 /// # Errors
 /// As [`OutputDir::write`]; [`RenderError::Png`] when `png` is not a PNG stream.
@@ -937,12 +1072,20 @@ pub fn write_png_set(
     stem: &str,
     png: &GeoreferencedPng,
 ) -> Result<(), RenderError> {
-    let tagged = with_text_chunk(&png.png, "run_id", dir.run_id())?;
-    dir.write(&format!("{stem}.png"), &tagged)?;
-    dir.write(&format!("{stem}.pgw"), png.world_file.as_bytes())?;
-    dir.write(&format!("{stem}.png.aux.xml"), png.aux_xml.as_bytes())?;
-    dir.write(&format!("{stem}.prj"), png.prj.as_bytes())?;
+    let [main, world, aux, prj] = png_set_names(stem);
+    dir.write(&main, &tagged_png(png, dir.run_id())?)?;
+    dir.write(&world, png.world_file.as_bytes())?;
+    dir.write(&aux, png.aux_xml.as_bytes())?;
+    dir.write(&prj, png.prj.as_bytes())?;
     Ok(())
+}
+
+/// The PNG file of `png` carrying `run_id` in a `tEXt` chunk with keyword `run_id`.
+///
+/// # Errors
+/// [`RenderError::Png`] when `png` is not a PNG stream.
+pub(crate) fn tagged_png(png: &GeoreferencedPng, run_id: &str) -> Result<Vec<u8>, RenderError> {
+    with_text_chunk(&png.png, "run_id", run_id)
 }
 
 /// `png` with a `tEXt` chunk `keyword`, `text` (ISO 8859-1) inserted after its `IHDR` chunk.

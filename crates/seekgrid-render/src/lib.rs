@@ -15,6 +15,10 @@
 //! * [`review::write`]: an incident review as `review.json`, `review.md` and GeoJSON layers.
 //! * [`geojson_bytes`], [`polygon_to_geojson`], [`line_to_geojson`], [`point_to_geojson`]: the
 //!   shared GeoJSON writer and working-frame-to-lon/lat helpers for other layers.
+//! * [`layers`]: the registry of a run's output layers ([`layers::Layer`]: `--outputs` name,
+//!   files, description, one writer each), which writes a computed map or plan and lists every
+//!   file written in the summary ([`summary`]); the writers live in [`outputs`] (the map's
+//!   layers) and [`plan_outputs`] (the plan's).
 //!
 //! ```
 //! use ndarray::Array2;
@@ -50,6 +54,7 @@ pub mod error;
 pub mod georef;
 pub mod gpx;
 mod heatmap;
+pub mod layers;
 pub mod output;
 pub mod outputs;
 pub mod plan_outputs;
@@ -65,8 +70,8 @@ pub use error::RenderError;
 pub use georef::{PixelGeometry, aux_xml, utm_wkt1_esri};
 pub use heatmap::{
     ColourScale, GeoreferencedPng, MapStyle, Overlay, Rgb, heatmap_png, pixels_per_cell,
-    write_png_set,
+    png_set_names, write_png_set,
 };
 pub use output::{OutputDir, OutputOptions};
-pub use probability::{CellLayer, ProbabilityExport, probability_geojson};
+pub use probability::{CellLayer, CellLimit, ProbabilityExport, probability_geojson};
 pub use vector::{geojson_bytes, line_to_geojson, point_to_geojson, polygon_to_geojson};

@@ -1,80 +1,28 @@
-//! Writing the layers of a computed map into an output folder, through seekgrid-render.
+//! The writers of the map's layers: one function per [`Layer`], each taking the computed result
+//! and writing through the [`Recorder`] (see [`crate::layers`] for the registry).
 
-use crate::summary::{CAUTION, Summary, summarise};
-use crate::{self as render, ColourScale, MapStyle, OutputDir, Overlay, RenderError};
+use crate::layers::{Computed, Layer, Recorder};
+use crate::summary::{CAUTION, FileDetails};
+use crate::{self as render, CellLimit, ColourScale, MapStyle, Overlay, RenderError};
 use geojson::{Feature, FeatureCollection, JsonObject, JsonValue};
-use ndarray::Array2;
 use seekgrid_engine::IncidentMap;
 use seekgrid_incident::model::Incident;
-use std::collections::BTreeSet;
-
-/// The outputs that can be chosen with `--outputs`.
-pub const OUTPUT_NAMES: [&str; 9] = [
-    "summary",
-    "probability",
-    "containment",
-    "heatmap",
-    "segments",
-    "searches",
-    "pod",
-    "particles",
-    "drift",
-];
 
 /// Particles written per drift scenario to `particles.geojson` at most.
 pub const MAX_PARTICLE_FEATURES: usize = 5_000;
 
-/// Cells written to `probability.geojson` at most before it is limited to the top share.
+/// Cells written to `probability.geojson` at most. Beyond it the file holds only the densest
+/// cells and says which share of the grid's mass it holds: a GeoJSON polygon per cell costs
+/// about 200 bytes, so 200,000 cells make a file of about 40 MB, as much as GIS viewers open
+/// comfortably; every cell is drawn in the heatmap.
 pub const MAX_PROBABILITY_FEATURES: usize = 200_000;
 
-/// The share of grid mass written when `probability.geojson` is limited.
+/// The share of the grid's mass at which `probability.geojson` stops when more than
+/// [`MAX_PROBABILITY_FEATURES`] cells hold mass (it stops earlier at that many cells).
 pub const TOP_SHARE: f64 = 0.999;
 
-/// Which outputs to write.
-#[derive(Debug, Clone, PartialEq, Eq)]
-pub struct OutputSelection(BTreeSet<&'static str>);
-
-impl OutputSelection {
-    /// Every output.
-    #[must_use]
-    pub fn all() -> Self {
-        Self(OUTPUT_NAMES.into_iter().collect())
-    }
-
-    /// Parses a comma-separated list such as `summary,heatmap`.
-    ///
-    /// # Errors
-    /// Names the unknown output and lists the known ones.
-    pub fn parse(list: &str) -> Result<Self, String> {
-        let mut set = BTreeSet::new();
-        for name in list.split(',').map(str::trim).filter(|s| !s.is_empty()) {
-            match OUTPUT_NAMES.iter().find(|n| **n == name) {
-                Some(n) => {
-                    set.insert(*n);
-                }
-                None => {
-                    return Err(format!(
-                        "unknown output \"{name}\"; choose from {}",
-                        OUTPUT_NAMES.join(", ")
-                    ));
-                }
-            }
-        }
-        if set.is_empty() {
-            return Err(format!(
-                "no output named; choose from {}",
-                OUTPUT_NAMES.join(", ")
-            ));
-        }
-        Ok(Self(set))
-    }
-
-    /// Whether an output is chosen.
-    #[must_use]
-    pub fn has(&self, name: &str) -> bool {
-        self.0.contains(name)
-    }
-}
+/// The levels of `containment.geojson`.
+const CONTAINMENT_LEVELS: [f64; 3] = [0.5, 0.9, 0.95];
 
 fn foreign(incident: &Incident, m: &IncidentMap, run_id: &str) -> JsonObject {
     let mut f = JsonObject::new();
@@ -135,163 +83,197 @@ fn search_overlays(m: &IncidentMap) -> Vec<Overlay> {
     o
 }
 
-/// Writes the chosen outputs; returns the summary (with its `outputs` member filled in).
-///
-/// # Errors
-/// [`RenderError`] from the writer (a file that cannot be written, a layer that cannot be drawn).
-pub fn write(
-    incident: &Incident,
-    m: &IncidentMap,
-    dir: &OutputDir,
-    selection: &OutputSelection,
-) -> Result<Summary, RenderError> {
-    let frame = &m.prepared.frame;
-    let grid = &m.grid;
-    let poc = &m.poc;
-    let mut summary = summarise(incident, m);
-    summary.run_id = Some(dir.run_id().to_owned());
-    let mut written = serde_json::Map::new();
-    let cell_km2 = grid.cell_area_m2() / 1e6;
-
-    if selection.has("probability") {
-        let layer = render::CellLayer {
-            frame,
-            grid,
-            poc,
-            pod_cumulative: m.pod_cumulative.as_ref(),
-        };
-        let export = render::probability_geojson(
-            &layer,
-            TOP_SHARE,
-            MAX_PROBABILITY_FEATURES,
-            "probability",
-            foreign(incident, m, dir.run_id()),
-        )?;
-        dir.write("probability.geojson", &export.geojson)?;
-        written.insert(
-            "probability.geojson".into(),
-            serde_json::json!({
-                "cells_written": export.cells_written,
-                "poc_written": export.mass_written,
-                "limited_to_top_share": export.limited.then_some(TOP_SHARE),
-            }),
-        );
-    }
-    if selection.has("containment") {
-        let bytes = render::containment_geojson(
-            frame,
-            grid,
-            poc,
-            &[0.5, 0.9, 0.95],
-            "containment",
-            foreign(incident, m, dir.run_id()),
-        )?;
-        dir.write("containment.geojson", &bytes)?;
-        written.insert(
-            "containment.geojson".into(),
-            serde_json::json!({"levels": [0.5, 0.9, 0.95], "of": "mass in the grid"}),
-        );
-    }
-    if selection.has("heatmap") {
-        let density = poc.mapv(|p| p / cell_km2);
-        let sub = subtitle(m, "Probability map");
-        let style = MapStyle {
-            title: &incident.title,
-            subtitle: &sub,
-            caution: CAUTION,
-            legend_label: "probability per km²",
-            scale: ColourScale::Density,
-        };
-        let mut overlays = base_overlays(incident, m);
-        overlays.extend(search_overlays(m));
-        let png = render::heatmap_png(frame, grid, &density, &style, &overlays)?;
-        render::write_png_set(dir, "heatmap", &png)?;
-        written.insert("heatmap.png".into(), serde_json::json!({"pixels_per_cell": png.pixels_per_cell, "sidecars": ["heatmap.pgw", "heatmap.png.aux.xml", "heatmap.prj"]}));
-    }
-    if selection.has("pod")
-        && let Some(pod) = &m.pod_cumulative
-    {
-        let sub = subtitle(m, "Cumulative POD");
-        let style = MapStyle {
-            title: &incident.title,
-            subtitle: &sub,
-            caution: CAUTION,
-            legend_label: "cumulative POD",
-            scale: ColourScale::Fraction,
-        };
-        let mut overlays = base_overlays(incident, m);
-        overlays.extend(search_overlays(m));
-        let png = render::heatmap_png(frame, grid, pod, &style, &overlays)?;
-        render::write_png_set(dir, "pod", &png)?;
-        written.insert(
-            "pod.png".into(),
-            serde_json::json!({"pixels_per_cell": png.pixels_per_cell}),
-        );
-    }
-    if selection.has("segments")
-        && let Some(segments) = &m.prepared.segments
-    {
-        let (csv, geojson) = segment_tables(m, segments, poc, dir.run_id())?;
-        dir.write("segments.csv", csv.as_bytes())?;
-        dir.write("segments.geojson", &geojson)?;
-        written.insert(
-            "segments.csv".into(),
-            serde_json::json!({"segments": segments.len()}),
-        );
-    }
-    if selection.has("searches") && !m.searches.is_empty() {
-        dir.write(
-            "searches.geojson",
-            &searches_geojson(incident, m, dir.run_id())?,
-        )?;
-        written.insert(
-            "searches.geojson".into(),
-            serde_json::json!({"searches": m.searches.len()}),
-        );
-    }
-    if !m.drift_runs.is_empty() {
-        if selection.has("particles") {
-            dir.write("particles.geojson", &particles_geojson(m, dir.run_id())?)?;
-            written.insert(
-                "particles.geojson".into(),
-                serde_json::json!({"thinned_to_at_most_per_scenario": MAX_PARTICLE_FEATURES, "weight": "mass of the particles each point stands for"}),
-            );
-        }
-        if selection.has("drift") {
-            dir.write("drift.geojson", &drift_geojson(m, dir.run_id())?)?;
-            written.insert(
-                "drift.geojson".into(),
-                serde_json::json!({"mean_track": "hourly weighted mean", "ellipses": [0.5, 0.9], "weights": "the belief's weights at the map time"}),
-            );
-        }
-    }
-    summary.outputs = written;
-    if selection.has("summary") {
-        write_summary(dir, &summary)?;
-    }
-    Ok(summary)
+/// The probability layer's writer: `probability.geojson`, stating the share of the grid's mass
+/// it holds.
+pub(crate) fn probability(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
+    let m = c.map;
+    let layer = render::CellLayer {
+        frame: &m.prepared.frame,
+        grid: &m.grid,
+        poc: &m.poc,
+        pod_cumulative: m.pod_cumulative.as_ref(),
+    };
+    let mut members = foreign(c.incident, m, out.run_id());
+    members.insert(
+        "full_grid".into(),
+        "every cell of the grid is drawn in the heatmap layer (heatmap.png); no file holds every cell's value yet".into(),
+    );
+    let export = render::probability_geojson(
+        &layer,
+        TOP_SHARE,
+        MAX_PROBABILITY_FEATURES,
+        "probability",
+        members,
+    )?;
+    let details = FileDetails::Probability {
+        cells_with_mass: export.cells_with_mass,
+        cells_written: export.cells_written,
+        poc_written: export.mass_written,
+        share_of_grid_mass_written: export.share_written,
+        limited_by: export.limited_by.map(CellLimit::name),
+        top_share: TOP_SHARE,
+        max_cells: MAX_PROBABILITY_FEATURES,
+    };
+    let l = Layer::Probability;
+    out.write(l, l.files()[0], &export.geojson, Some(details))
 }
 
-/// Writes `summary.json` (pretty JSON, ending with a newline).
-///
-/// # Errors
-/// [`RenderError`] when it cannot be serialised or written.
-pub(crate) fn write_summary(dir: &OutputDir, summary: &Summary) -> Result<(), RenderError> {
-    let mut bytes =
-        serde_json::to_vec_pretty(summary).map_err(|e| RenderError::Json(e.to_string()))?;
-    bytes.push(b'\n');
-    dir.write("summary.json", &bytes)?;
-    Ok(())
+/// The containment layer's writer: `containment.geojson`.
+pub(crate) fn containment(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
+    let m = c.map;
+    let bytes = render::containment_geojson(
+        &m.prepared.frame,
+        &m.grid,
+        &m.poc,
+        &CONTAINMENT_LEVELS,
+        "containment",
+        foreign(c.incident, m, out.run_id()),
+    )?;
+    let details = FileDetails::Containment {
+        levels: CONTAINMENT_LEVELS.to_vec(),
+        of: "mass in the grid",
+    };
+    let l = Layer::Containment;
+    out.write(l, l.files()[0], &bytes, Some(details))
+}
+
+/// The heatmap layer's writer: `heatmap.png` and its sidecars.
+pub(crate) fn heatmap(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
+    let m = c.map;
+    let cell_km2 = m.grid.cell_area_m2() / 1e6;
+    let density = m.poc.mapv(|p| p / cell_km2);
+    let sub = subtitle(m, "Probability map");
+    let style = MapStyle {
+        title: &c.incident.title,
+        subtitle: &sub,
+        caution: CAUTION,
+        legend_label: "probability per km²",
+        scale: ColourScale::Density,
+    };
+    let mut overlays = base_overlays(c.incident, m);
+    overlays.extend(search_overlays(m));
+    let png = render::heatmap_png(&m.prepared.frame, &m.grid, &density, &style, &overlays)?;
+    out.write_picture(Layer::Heatmap, &png)
+}
+
+/// The POD layer's writer: `pod.png` and its sidecars, when searches were applied.
+pub(crate) fn pod(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
+    let m = c.map;
+    let Some(pod) = &m.pod_cumulative else {
+        out.skip(Layer::Pod, NO_SEARCH);
+        return Ok(());
+    };
+    let sub = subtitle(m, "Cumulative POD");
+    let style = MapStyle {
+        title: &c.incident.title,
+        subtitle: &sub,
+        caution: CAUTION,
+        legend_label: "cumulative POD",
+        scale: ColourScale::Fraction,
+    };
+    let mut overlays = base_overlays(c.incident, m);
+    overlays.extend(search_overlays(m));
+    let png = render::heatmap_png(&m.prepared.frame, &m.grid, pod, &style, &overlays)?;
+    out.write_picture(Layer::Pod, &png)
+}
+
+/// Why the search layers can be empty.
+const NO_SEARCH: &str = "no search was applied by the map time";
+/// Why the drift layers can be empty.
+const NO_DRIFT: &str = "no scenario drifts";
+
+/// The segments layer's writer: `segments.csv` and `segments.geojson`, when segments are used.
+pub(crate) fn segments(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
+    let m = c.map;
+    let Some(segments) = &m.prepared.segments else {
+        out.skip(Layer::Segments, "the incident uses no segments");
+        return Ok(());
+    };
+    let rows = segment_rows(m, segments);
+    let l = Layer::Segments;
+    let details = || {
+        Some(FileDetails::Segments {
+            segments: segments.len(),
+        })
+    };
+    let geojson = segments_geojson(m, segments, &rows, out.run_id())?;
+    out.write(l, l.files()[0], &segments_csv(&rows)?, details())?;
+    out.write(l, l.files()[1], &geojson, details())
+}
+
+/// The searches layer's writer: `searches.geojson`, when searches were applied.
+pub(crate) fn searches(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
+    let m = c.map;
+    if m.searches.is_empty() {
+        out.skip(Layer::Searches, NO_SEARCH);
+        return Ok(());
+    }
+    let details = FileDetails::Searches {
+        searches: m.searches.len(),
+    };
+    let l = Layer::Searches;
+    out.write(
+        l,
+        l.files()[0],
+        &searches_geojson(c.incident, m, out.run_id())?,
+        Some(details),
+    )
+}
+
+/// The particles layer's writer: `particles.geojson`, when a scenario drifts.
+pub(crate) fn particles(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
+    let m = c.map;
+    if m.drift_runs.is_empty() {
+        out.skip(Layer::Particles, NO_DRIFT);
+        return Ok(());
+    }
+    let details = FileDetails::Particles {
+        thinned_to_at_most_per_scenario: MAX_PARTICLE_FEATURES,
+        weight: "mass of the particles each point stands for",
+    };
+    let l = Layer::Particles;
+    out.write(
+        l,
+        l.files()[0],
+        &particles_geojson(m, out.run_id())?,
+        Some(details),
+    )
+}
+
+/// The drift layer's writer: `drift.geojson`, when a scenario drifts.
+pub(crate) fn drift(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
+    let m = c.map;
+    if m.drift_runs.is_empty() {
+        out.skip(Layer::Drift, NO_DRIFT);
+        return Ok(());
+    }
+    let details = FileDetails::Drift {
+        ellipses: [0.5, 0.9],
+        mean_track: "hourly weighted mean",
+        weights: "the belief's weights at the map time",
+    };
+    let l = Layer::Drift;
+    out.write(
+        l,
+        l.files()[0],
+        &drift_geojson(m, out.run_id())?,
+        Some(details),
+    )
+}
+
+/// One segment's row: POA now, area, density, and after searches cumulative POD and POS.
+struct SegmentRow {
+    id: String,
+    area_km2: f64,
+    poa: f64,
+    density_km2: f64,
+    /// Cumulative POD and POS, after searches.
+    searched: Option<(f64, f64)>,
 }
 
 /// Per segment: POA now, area, density, and after searches cumulative POD and POS.
-fn segment_tables(
-    m: &IncidentMap,
-    segments: &[seekgrid_prior::Segment],
-    poc: &Array2<f64>,
-    run_id: &str,
-) -> Result<(String, Vec<u8>), RenderError> {
-    let now = seekgrid_prior::segment_table(poc, &m.grid, segments);
+fn segment_rows(m: &IncidentMap, segments: &[seekgrid_prior::Segment]) -> Vec<SegmentRow> {
+    let now = seekgrid_prior::segment_table(&m.poc, &m.grid, segments);
     // Cumulative POD of a segment: its prior mass weighted by each cell's cumulative POD,
     // over its prior mass; its POS: that weighted mass itself (share of the original prior).
     let before = m.belief_before_searches.cells();
@@ -302,31 +284,71 @@ fn segment_tables(
             seekgrid_prior::segment_table(&found, &m.grid, segments),
         )
     });
-    let mut csv = String::from("segment,area_km2,poa,density_km2,pod_cumulative,pos_cumulative\n");
+    now.iter()
+        .enumerate()
+        .map(|(k, row)| SegmentRow {
+            id: row.id.clone(),
+            area_km2: row.area_m2 / 1e6,
+            poa: row.poa,
+            density_km2: row.density_per_km2,
+            searched: match &searched {
+                Some((b, f)) if b[k].poa > 0.0 => Some((f[k].poa / b[k].poa, f[k].poa)),
+                Some(_) => Some((0.0, 0.0)),
+                None => None,
+            },
+        })
+        .collect()
+}
+
+/// `segments.csv` (RFC 4180 through the `csv` crate: an id holding a comma or a quote is
+/// quoted), numbers with six decimals, POD and POS empty before any search.
+fn segments_csv(rows: &[SegmentRow]) -> Result<Vec<u8>, RenderError> {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    let bad = |e: csv::Error| RenderError::Internal(format!("CSV writer: {e}"));
+    w.write_record([
+        "segment",
+        "area_km2",
+        "poa",
+        "density_km2",
+        "pod_cumulative",
+        "pos_cumulative",
+    ])
+    .map_err(bad)?;
+    let fmt = |v: f64| format!("{v:.6}");
+    for r in rows {
+        let (pod, pos) = r
+            .searched
+            .map_or((String::new(), String::new()), |(d, s)| (fmt(d), fmt(s)));
+        w.write_record([
+            r.id.clone(),
+            fmt(r.area_km2),
+            fmt(r.poa),
+            fmt(r.density_km2),
+            pod,
+            pos,
+        ])
+        .map_err(bad)?;
+    }
+    w.into_inner()
+        .map_err(|e| RenderError::Internal(format!("CSV writer: {e}")))
+}
+
+/// `segments.geojson`: each segment's polygons with the same numbers as `segments.csv`.
+fn segments_geojson(
+    m: &IncidentMap,
+    segments: &[seekgrid_prior::Segment],
+    rows: &[SegmentRow],
+    run_id: &str,
+) -> Result<Vec<u8>, RenderError> {
     let mut features = Vec::new();
-    for (k, row) in now.iter().enumerate() {
-        let (pod, pos) = match &searched {
-            Some((b, f)) if b[k].poa > 0.0 => (Some(f[k].poa / b[k].poa), Some(f[k].poa)),
-            Some(_) => (Some(0.0), Some(0.0)),
-            None => (None, None),
-        };
-        let fmt = |v: Option<f64>| v.map_or(String::new(), |v| format!("{v:.6}"));
-        csv.push_str(&format!(
-            "{},{:.6},{:.6},{:.6},{},{}\n",
-            row.id,
-            row.area_m2 / 1e6,
-            row.poa,
-            row.density_per_km2,
-            fmt(pod),
-            fmt(pos)
-        ));
-        for poly in &segments[k].polygons {
+    for (row, segment) in rows.iter().zip(segments) {
+        for poly in &segment.polygons {
             let mut props = JsonObject::new();
             props.insert("segment".into(), row.id.clone().into());
-            props.insert("area_km2".into(), (row.area_m2 / 1e6).into());
+            props.insert("area_km2".into(), row.area_km2.into());
             props.insert("poa".into(), row.poa.into());
-            props.insert("density_km2".into(), row.density_per_km2.into());
-            if let (Some(pod), Some(pos)) = (pod, pos) {
+            props.insert("density_km2".into(), row.density_km2.into());
+            if let Some((pod, pos)) = row.searched {
                 props.insert("pod_cumulative".into(), pod.into());
                 props.insert("pos_cumulative".into(), pos.into());
             }
@@ -337,7 +359,7 @@ fn segment_tables(
             });
         }
     }
-    Ok((csv, collection_bytes(features, named("segments", run_id))?))
+    collection_bytes(features, named("segments", run_id))
 }
 
 /// A feature collection with its foreign members, as RFC 7946 bytes.
@@ -509,4 +531,52 @@ fn drift_geojson(m: &IncidentMap, run_id: &str) -> Result<Vec<u8>, RenderError> 
         });
     }
     collection_bytes(features, named("drift", run_id))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_segment_id_with_a_comma_or_a_quote_stays_one_field_in_segments_csv() {
+        let row = |id: &str, searched| SegmentRow {
+            id: id.to_owned(),
+            area_km2: 1.5,
+            poa: 0.25,
+            density_km2: 0.1,
+            searched,
+        };
+        let rows = [
+            row("North, upper slope", Some((0.5, 0.125))),
+            row("the \"Gap\"", None),
+        ];
+        let bytes = segments_csv(&rows).unwrap();
+        let text = String::from_utf8(bytes.clone()).unwrap();
+        // RFC 4180: a field holding a comma or a quote is quoted, quotes doubled.
+        assert!(
+            text.contains("\"North, upper slope\",1.500000,0.250000,0.100000,0.500000,0.125000\n"),
+            "{text}"
+        );
+        assert!(
+            text.contains("\"the \"\"Gap\"\"\",1.500000,0.250000,0.100000,,\n"),
+            "{text}"
+        );
+        let mut reader = csv::Reader::from_reader(bytes.as_slice());
+        let records: Vec<csv::StringRecord> = reader.records().map(Result::unwrap).collect();
+        assert_eq!(records.len(), 2);
+        assert!(records.iter().all(|r| r.len() == 6));
+        assert_eq!(&records[0][0], "North, upper slope");
+        assert_eq!(&records[1][0], "the \"Gap\"");
+        assert_eq!(
+            reader.headers().unwrap().iter().collect::<Vec<_>>(),
+            [
+                "segment",
+                "area_km2",
+                "poa",
+                "density_km2",
+                "pod_cumulative",
+                "pos_cumulative"
+            ]
+        );
+    }
 }

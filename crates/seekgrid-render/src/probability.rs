@@ -23,6 +23,26 @@ pub struct CellLayer<'a> {
     pub pod_cumulative: Option<&'a Array2<f64>>,
 }
 
+/// Which rule stopped [`probability_geojson`] before every cell with mass was written.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum CellLimit {
+    /// The densest cells reached the requested share of the grid's mass.
+    TopShare,
+    /// The cap on the number of cells was reached before that share.
+    MaxCells,
+}
+
+impl CellLimit {
+    /// The name written in files: `"top_share"` or `"max_cells"`.
+    #[must_use]
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::TopShare => "top_share",
+            Self::MaxCells => "max_cells",
+        }
+    }
+}
+
 /// The result of [`probability_geojson`].
 #[derive(Debug, Clone)]
 pub struct ProbabilityExport {
@@ -30,19 +50,32 @@ pub struct ProbabilityExport {
     pub geojson: Vec<u8>,
     /// Number of cell features written.
     pub cells_written: usize,
-    /// Sum of the `poc` of the cells written.
+    /// Number of cells of the grid with `poc > 0`.
+    pub cells_with_mass: usize,
+    /// Sum of the `poc` of the cells written (compensated sum).
     pub mass_written: f64,
-    /// True when only the highest-density cells holding the top share of the mass were written.
+    /// Sum of the `poc` of every cell of the grid (compensated sum).
+    pub grid_mass: f64,
+    /// `mass_written / grid_mass`: the share of the grid's mass the file holds (None when the
+    /// grid holds no mass).
+    pub share_written: Option<f64>,
+    /// True when only the highest-density cells were written.
     pub limited: bool,
+    /// Which rule stopped the writing, when `limited`.
+    pub limited_by: Option<CellLimit>,
 }
 
 /// Collection members this function writes itself.
-const OWN_MEMBERS: [&str; 5] = [
+const OWN_MEMBERS: [&str; 9] = [
     "name",
     "cells_written",
+    "cells_with_mass",
     "poc_written",
+    "share_of_grid_mass_written",
     "limited",
+    "limited_by",
     "top_share",
+    "max_cells",
 ];
 
 /// Checks that a layer has the grid's shape and holds finite values in `lo..=hi`.
@@ -231,12 +264,16 @@ pub(crate) fn push_num(out: &mut Vec<u8>, v: f64) {
 /// (poc per square kilometre of grid area), `row`, `col` and, when given, `pod_cumulative`.
 /// Cells with `poc == 0` are omitted; features come in row-major order (north row first).
 ///
-/// When more than `max_features` cells have mass, only the highest-density cells whose mass adds
-/// up to `top_share` of the grid mass are written (at most `max_features` of them), and the
-/// result says so: `limited` is true and the collection carries `"limited": true` and
-/// `"top_share"`. The collection also carries `name`, `cells_written`, `poc_written` and the
-/// `foreign` members (such as a caution text or the time), and a `bbox` unless it crosses the
-/// antimeridian (where cells are split into MultiPolygons, RFC 7946 3.1.9).
+/// When more than `max_features` cells have mass, only the highest-density cells are written:
+/// those whose mass first adds up to `top_share` of the grid's mass, or the `max_features`
+/// densest when that comes first. The file then may hold much less than `top_share` of the mass
+/// (a flat grid of a million cells capped at 200,000 holds 20 %), so it says exactly what it
+/// holds: the collection carries `cells_with_mass`, `cells_written`, `poc_written` (the sum of
+/// the `poc` written), `share_of_grid_mass_written` (`poc_written` over the sum of every
+/// cell's `poc`; `null` for a grid without mass), `limited`, and when limited `limited_by`
+/// (`"top_share"` or `"max_cells"`), `top_share` and `max_cells`. It also carries `name` and
+/// the `foreign` members (such as a caution text or the time), and a `bbox` unless it crosses
+/// the antimeridian (where cells are split into MultiPolygons, RFC 7946 3.1.9).
 ///
 /// Cell edges are straight in lon/lat between projected corners; the error against the true
 /// projected edge is far below a millimetre for cells under a few kilometres.
@@ -281,13 +318,16 @@ pub fn probability_geojson(
     let mut selected: Vec<bool> = flat.iter().map(|&v| v > 0.0).collect();
     let with_mass = selected.iter().filter(|s| **s).count();
     let limited = with_mass > max_features;
+    let mut limited_by = None;
     if limited {
-        let keep = top_share_cells(&flat, top_share, max_features);
+        let (keep, limit) = top_share_cells(&flat, top_share, max_features);
+        limited_by = Some(limit);
         selected.iter_mut().for_each(|s| *s = false);
         for i in keep {
             selected[i] = true;
         }
     }
+    let grid_mass = neumaier_sum(flat.iter().copied());
 
     let decimals = decimals_for_cell(grid.cell_m());
     let cell_area_km2 = grid.cell_area_m2() / 1e6;
@@ -351,14 +391,23 @@ pub fn probability_geojson(
         }
     }
     let mass_written = neumaier_sum(mass_parts.iter().copied());
-    out.extend_from_slice(b"],\"cells_written\":");
-    let _ = write!(out, "{cells_written}");
+    let share_written = (grid_mass > 0.0).then(|| (mass_written / grid_mass).min(1.0));
+    let _ = write!(
+        out,
+        "],\"cells_with_mass\":{with_mass},\"cells_written\":{cells_written}"
+    );
     out.extend_from_slice(b",\"poc_written\":");
     push_num(&mut out, mass_written);
+    out.extend_from_slice(b",\"share_of_grid_mass_written\":");
+    match share_written {
+        Some(v) => push_num(&mut out, v),
+        None => out.extend_from_slice(b"null"),
+    }
     let _ = write!(out, ",\"limited\":{limited}");
-    if limited {
-        out.extend_from_slice(b",\"top_share\":");
+    if let Some(limit) = limited_by {
+        let _ = write!(out, ",\"limited_by\":\"{}\",\"top_share\":", limit.name());
         push_num(&mut out, top_share);
+        let _ = write!(out, ",\"max_cells\":{max_features}");
     }
     if cells_written > 0 && !split_any {
         out.extend_from_slice(b",\"bbox\":[");
@@ -375,8 +424,12 @@ pub fn probability_geojson(
     Ok(ProbabilityExport {
         geojson: out,
         cells_written,
+        cells_with_mass: with_mass,
         mass_written,
+        grid_mass,
+        share_written,
         limited,
+        limited_by,
     })
 }
 
@@ -471,12 +524,16 @@ fn push_json(out: &mut Vec<u8>, v: &Value) -> Result<(), RenderError> {
 }
 
 /// Indices of the highest cells (ties broken by index) whose sum first reaches
-/// `share * total`, at most `max` of them.
-pub(crate) fn top_share_cells(values: &[f64], share: f64, max: usize) -> Vec<usize> {
+/// `share * total`, at most `max` of them, and which of the two rules stopped the count.
+pub(crate) fn top_share_cells(values: &[f64], share: f64, max: usize) -> (Vec<usize>, CellLimit) {
     let order = descending_order(values);
     let total = neumaier_sum(values.iter().copied());
-    let n = count_to_reach(values, &order, share * total).min(max);
-    order[..n].to_vec()
+    let n = count_to_reach(values, &order, share * total);
+    if n <= max {
+        (order[..n].to_vec(), CellLimit::TopShare)
+    } else {
+        (order[..max].to_vec(), CellLimit::MaxCells)
+    }
 }
 
 /// Indices of the cells with mass, in descending value (ties: ascending index).
@@ -769,9 +826,52 @@ mod tests {
         // Under the feature limit, everything with mass is written.
         let all = probability_geojson(&layer, 0.5, 100, "p", Map::new()).unwrap();
         assert_eq!((all.cells_written, all.limited), (100, false));
+        assert_eq!(ex.limited_by, Some(CellLimit::TopShare));
+        assert_eq!(v["limited_by"], "top_share");
+        // Under the feature limit, everything with mass is written.
+        let all = probability_geojson(&layer, 0.5, 100, "p", Map::new()).unwrap();
+        assert_eq!((all.cells_written, all.limited), (100, false));
+        assert_eq!(parse(&all.geojson)["share_of_grid_mass_written"], 1.0);
         // The feature limit caps the count even when the share would need more.
         let capped = probability_geojson(&layer, 0.99, 20, "p", Map::new()).unwrap();
         assert_eq!((capped.cells_written, capped.limited), (20, true));
+        assert_eq!(capped.limited_by, Some(CellLimit::MaxCells));
+    }
+
+    #[test]
+    fn a_capped_flat_grid_states_the_share_of_the_mass_it_holds() {
+        // A flat grid of 300 x 300 cells holding 0.9 of the probability (0.1 outside the grid),
+        // capped at 18,000 cells: the file can hold only 18,000 / 90,000 = 20 % of the grid's
+        // mass, far below the top share asked for, and must say so (computed).
+        let (rows, cols, cap) = (300, 300, 18_000);
+        let (frame, grid) = setup(rows, cols);
+        let poc = Array2::from_elem((rows, cols), 0.9 / (rows * cols) as f64);
+        let layer = CellLayer {
+            frame: &frame,
+            grid: &grid,
+            poc: &poc,
+            pod_cumulative: None,
+        };
+        let ex = probability_geojson(&layer, 0.999, cap, "p", Map::new()).unwrap();
+        assert_eq!(ex.limited_by, Some(CellLimit::MaxCells));
+        let v = parse(&ex.geojson);
+        let in_file: Vec<f64> = v["features"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|f| f["properties"]["poc"].as_f64().unwrap())
+            .collect();
+        let sum = neumaier_sum(in_file.iter().copied());
+        let share = v["share_of_grid_mass_written"].as_f64().unwrap();
+        assert_eq!(in_file.len(), cap);
+        assert_eq!(v["cells_written"], cap);
+        assert_eq!(v["cells_with_mass"], rows * cols);
+        assert_eq!(v["limited_by"], "max_cells");
+        assert_eq!(v["max_cells"], cap);
+        assert!((v["poc_written"].as_f64().unwrap() - sum).abs() < 1e-12);
+        assert!((share * ex.grid_mass - sum).abs() < 1e-12, "{share} {sum}");
+        assert!((share - 0.2).abs() < 1e-12, "{share}");
+        assert!((ex.grid_mass - 0.9).abs() < 1e-12);
     }
 
     #[test]

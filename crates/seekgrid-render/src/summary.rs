@@ -1,8 +1,12 @@
 //! `summary.json`: what a run computed, in numbers a reviewer can check.
 
+use crate::RenderError;
+use crate::layers::{Computed, Layer, Recorder};
+use crate::plan_outputs::{self, PlanSummary};
 use seekgrid_engine::IncidentMap;
 use seekgrid_incident::model::Incident;
 use serde::Serialize;
+use std::collections::BTreeMap;
 
 /// The caution every output carries.
 pub const CAUTION: &str = "Decision support only: seekgrid's output is only as good as its inputs. The search mission coordinator decides, following the governing SAR manual, local procedures and licensed practice.";
@@ -110,6 +114,93 @@ pub struct DriftSummary {
     pub stranded_at_map_time: usize,
 }
 
+/// One file written, as `summary.json` lists it under `outputs` (keyed by file name).
+#[derive(Debug, Clone, Serialize)]
+pub struct FileRecord {
+    /// The layer that wrote it (its `--outputs` name).
+    pub layer: Layer,
+    /// For a sidecar (world file, `.aux.xml`, `.prj`): the picture it belongs to.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub sidecar_of: Option<String>,
+    /// What the file holds, for the layers with something to state.
+    #[serde(flatten)]
+    pub details: Option<FileDetails>,
+}
+
+impl FileRecord {
+    /// A record.
+    #[must_use]
+    pub fn new(layer: Layer, sidecar_of: Option<String>, details: Option<FileDetails>) -> Self {
+        Self {
+            layer,
+            sidecar_of,
+            details,
+        }
+    }
+}
+
+/// What a written file holds, stated beside its name in `summary.json`.
+#[derive(Debug, Clone, Serialize)]
+#[serde(untagged)]
+#[non_exhaustive]
+pub enum FileDetails {
+    /// `probability.geojson`: which cells it holds and how much of the mass.
+    Probability {
+        /// Cells of the grid with `poc > 0`.
+        cells_with_mass: usize,
+        /// Cells written.
+        cells_written: usize,
+        /// Sum of the `poc` of the cells written.
+        poc_written: f64,
+        /// `poc_written` over the sum of every cell's `poc` (None for a grid without mass).
+        share_of_grid_mass_written: Option<f64>,
+        /// `"top_share"` or `"max_cells"` when not every cell with mass was written.
+        limited_by: Option<&'static str>,
+        /// Share of the grid's mass at which the writing stops when there are too many cells.
+        top_share: f64,
+        /// Most cells written.
+        max_cells: usize,
+    },
+    /// `containment.geojson`: its levels.
+    Containment {
+        /// Shares of the mass the regions hold.
+        levels: Vec<f64>,
+        /// Of what mass.
+        of: &'static str,
+    },
+    /// A georeferenced picture.
+    Picture {
+        /// Pixels per grid cell along each side.
+        pixels_per_cell: u32,
+    },
+    /// `segments.csv`, `segments.geojson`.
+    Segments {
+        /// Segments listed.
+        segments: usize,
+    },
+    /// `searches.geojson`.
+    Searches {
+        /// Searches drawn.
+        searches: usize,
+    },
+    /// `particles.geojson`.
+    Particles {
+        /// Most points written per drift scenario.
+        thinned_to_at_most_per_scenario: usize,
+        /// What the `weight` of a point is.
+        weight: &'static str,
+    },
+    /// `drift.geojson`.
+    Drift {
+        /// Levels of the spread ellipses.
+        ellipses: [f64; 2],
+        /// What the mean track is.
+        mean_track: &'static str,
+        /// Which weights the means and ellipses use.
+        weights: &'static str,
+    },
+}
+
 /// The whole summary.
 #[derive(Debug, Clone, Serialize)]
 pub struct Summary {
@@ -157,23 +248,58 @@ pub struct Summary {
     pub pos_cumulative: f64,
     /// Drift scenarios.
     pub drift: Vec<DriftSummary>,
-    /// What each output file holds (filled in by the writer).
-    pub outputs: serde_json::Map<String, serde_json::Value>,
-    /// Plans only: joint POS of the practical plan.
+    /// Every file written, by name, with the layer that wrote it (sidecars included).
+    pub outputs: BTreeMap<String, FileRecord>,
+    /// Chosen layers that wrote nothing, by `--outputs` name, with the reason.
+    #[serde(skip_serializing_if = "BTreeMap::is_empty")]
+    pub outputs_not_written: BTreeMap<&'static str, String>,
+    /// Plans only: joint POS of the practical plan, all units together (search areas and
+    /// ground teams; see `plan.pos_plan_covers`).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub pos_plan: Option<f64>,
-    /// Plans only: POS of the optimal allocation of the same effort under exponential
+    /// Plans only: POS of the optimal allocation of all units' effort under exponential
     /// detection (an upper bound for exponential-law units only; docs/references.md §4).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub pos_optimal_bound: Option<f64>,
-    /// Plans only: the plan per unit.
+    /// Plans only: the plan, its parts and each unit.
     #[serde(skip_serializing_if = "Option::is_none")]
-    pub plan: Option<serde_json::Value>,
+    pub plan: Option<PlanSummary>,
 }
 
-/// The summary of a computed map.
+/// The summary of a computed result: the map, the plan when there is one, and the files
+/// `out` has written.
 #[must_use]
-pub fn summarise(incident: &Incident, m: &IncidentMap) -> Summary {
+pub fn summarise(c: &Computed, out: &Recorder) -> Summary {
+    let mut s = summarise_map(c.incident, c.map);
+    s.run_id = Some(out.run_id().to_owned());
+    s.outputs = out.files().clone();
+    s.outputs_not_written = out.not_written().clone();
+    if let Some(run) = c.plan {
+        let plan = plan_outputs::plan_summary(run);
+        s.pos_plan = Some(plan.pos_plan);
+        s.pos_optimal_bound = Some(plan.pos_optimal_bound);
+        s.plan = Some(plan);
+    }
+    s
+}
+
+/// The summary layer's writer: `summary.json` (pretty JSON, ending with a newline), listing
+/// itself and every file written before it.
+///
+/// # Errors
+/// [`RenderError`] when it cannot be serialised or written.
+pub(crate) fn write(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
+    let layer = Layer::Summary;
+    out.write_listing(layer, layer.files()[0], |out| {
+        let mut bytes = serde_json::to_vec_pretty(&summarise(c, out))
+            .map_err(|e| RenderError::Json(e.to_string()))?;
+        bytes.push(b'\n');
+        Ok(bytes)
+    })
+}
+
+/// The summary of a computed map, without outputs or plan.
+fn summarise_map(incident: &Incident, m: &IncidentMap) -> Summary {
     let g = &m.grid;
     let e = g.extent();
     let b = &m.belief;
@@ -284,7 +410,8 @@ pub fn summarise(incident: &Incident, m: &IncidentMap) -> Summary {
         searches_pending: m.searches_pending.clone(),
         pos_cumulative: m.pos_cumulative,
         drift,
-        outputs: serde_json::Map::new(),
+        outputs: BTreeMap::new(),
+        outputs_not_written: BTreeMap::new(),
         pos_plan: None,
         pos_optimal_bound: None,
         plan: None,

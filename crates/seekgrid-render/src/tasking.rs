@@ -1,7 +1,8 @@
 //! Writing a plan's `tasking.toml`: what each unit was asked to do, at full precision, for
 //! `seekgrid log --plan` (the format is `seekgrid_incident::tasking`).
 
-use crate::{OutputDir, RenderError};
+use crate::RenderError;
+use crate::layers::{Computed, Layer, Recorder};
 use seekgrid_core::Frame;
 use seekgrid_core::units::normalise_deg;
 use seekgrid_engine::PlanRun;
@@ -12,16 +13,15 @@ use seekgrid_incident::tasking::{
 use seekgrid_plan::UnitKind;
 use seekgrid_search::{Pattern, Rectangle};
 
-/// Writes `tasking.toml` into the plan folder, under the folder's run id.
+/// The tasking layer's writer: `tasking.toml` in the plan folder, under the folder's run id.
 ///
 /// # Errors
 /// [`RenderError`] when the file cannot be written, or (a bug) a value cannot be written as TOML.
-pub fn write(incident: &Incident, run: &PlanRun, dir: &OutputDir) -> Result<(), RenderError> {
-    let text = tasking(incident, run, dir.run_id())
+pub(crate) fn write(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(), RenderError> {
+    let text = tasking(c.incident, run, out.run_id())
         .to_toml()
         .map_err(RenderError::Internal)?;
-    dir.write(TASKING_FILE, text.as_bytes())?;
-    Ok(())
+    out.write(Layer::Tasking, TASKING_FILE, text.as_bytes(), None)
 }
 
 /// The tasking of a plan: per unit its period, law, sweep width and pattern (in lon/lat and

@@ -9,12 +9,17 @@ use crate::error::SearchError;
 use crate::law::{DetectionLaw, SweepWidth};
 use crate::pod_layer::PodLayer;
 use crate::track::{track_pod, track_pod_at};
-use geo::{Area, Coord, LineString, MultiPolygon, Polygon};
+use geo::{Area, Coord, Euclidean, Length, LineString, MultiPolygon, Polygon};
 use seekgrid_core::GridSpec;
 
 /// Most legs a pattern may have (protects against a track spacing typed in the wrong unit):
 /// the legs of a rectangle pattern, and the `legs` of an expanding square (1..=`MAX_LEGS`).
 pub const MAX_LEGS: usize = 100_000;
+
+/// Largest length, width, spacing or radius of a pattern, and longest leg of an expanding
+/// square, metres (10 000 km: a quarter of the Earth's circumference; a working frame is a few
+/// hundred kilometres wide).
+pub const MAX_PATTERN_M: f64 = 1e7;
 
 /// Fewest and most sectors of a sector search.
 pub const SECTORS: std::ops::RangeInclusive<usize> = 2..=12;
@@ -88,14 +93,14 @@ fn at(c: Coord<f64>, u: Coord<f64>, along: f64, v: Coord<f64>, across: f64) -> C
 }
 
 fn positive(pattern: &'static str, field: &'static str, value: f64) -> Result<(), SearchError> {
-    if value.is_finite() && value > 0.0 {
+    if value.is_finite() && value > 0.0 && value <= MAX_PATTERN_M {
         Ok(())
     } else {
         Err(SearchError::BadPattern {
             pattern,
             field,
             value,
-            fix: "give a positive number of metres",
+            fix: "give a positive number of metres, at most 10 000 km",
         })
     }
 }
@@ -129,7 +134,8 @@ impl Pattern {
     ///
     /// # Errors
     /// [`SearchError::BadPattern`] naming the field: a non-finite centre or bearing, a
-    /// non-positive length, width, radius or spacing, a spacing that leaves no room for a leg
+    /// non-positive length, width, radius or spacing (or one over [`MAX_PATTERN_M`]; for the
+    /// expanding square, a last leg over it), a spacing that leaves no room for a leg
     /// (parallel sweep: `S < length`; creeping line: `S < width`), more than [`MAX_LEGS`] legs,
     /// zero legs, or sectors outside 2..=12.
     pub fn validate(&self) -> Result<(), SearchError> {
@@ -192,6 +198,15 @@ impl Pattern {
                         field: "legs",
                         value: legs as f64,
                         fix: "give 1 to 100000 legs",
+                    });
+                }
+                // The last leg is ceil(legs / 2) spacings long.
+                if legs.div_ceil(2) as f64 * track_spacing_m > MAX_PATTERN_M {
+                    return Err(SearchError::BadPattern {
+                        pattern: kind,
+                        field: "legs",
+                        value: legs as f64,
+                        fix: "its last leg would be longer than 10 000 km; give fewer legs or a smaller spacing",
                     });
                 }
                 Ok(())
@@ -307,27 +322,16 @@ impl Pattern {
     pub fn tracks(&self) -> LineString<f64> {
         let mut pts = Vec::new();
         match *self {
-            Self::ParallelSweep(Rectangle {
-                center,
-                length_m,
-                width_m,
-                major_grid_bearing_deg,
-                track_spacing_m,
-            }) => {
-                let (major, minor) = rectangle_sides(major_grid_bearing_deg, length_m, width_m);
-                // Legs along the major axis, stepping across it.
-                back_and_forth(&mut pts, center, major, minor, track_spacing_m);
-            }
-            Self::CreepingLine(Rectangle {
-                center,
-                length_m,
-                width_m,
-                major_grid_bearing_deg,
-                track_spacing_m,
-            }) => {
-                let (major, minor) = rectangle_sides(major_grid_bearing_deg, length_m, width_m);
-                // Legs across the major axis, creeping along it.
-                back_and_forth(&mut pts, center, minor, major, track_spacing_m);
+            Self::ParallelSweep(r) | Self::CreepingLine(r) => {
+                let (major, minor) = r.sides();
+                // A parallel sweep's legs run along the major axis, stepping across it; a
+                // creeping line's run across it, creeping along it.
+                let (leg, step) = if matches!(self, Self::ParallelSweep(_)) {
+                    (major, minor)
+                } else {
+                    (minor, major)
+                };
+                back_and_forth(&mut pts, r.center, leg, step, r.track_spacing_m);
             }
             Self::ExpandingSquare {
                 center,
@@ -370,7 +374,7 @@ impl Pattern {
     /// Length of [`Pattern::tracks`], metres.
     #[must_use]
     pub fn track_length_m(&self) -> f64 {
-        self.tracks().lines().map(|l| l.dx().hypot(l.dy())).sum()
+        Euclidean.length(&self.tracks())
     }
 
     /// Coverage of the pattern with sweep width `w`: `W / S` for the parallel sweep, creeping
@@ -496,23 +500,21 @@ fn back_and_forth(
     }
 }
 
-/// The major side (along the major grid bearing, `length_m`) and the minor side (90° clockwise
-/// from it, `width_m`) of a rectangle.
-fn rectangle_sides(
-    major_grid_bearing_deg: f64,
-    length_m: f64,
-    width_m: f64,
-) -> (RectangleSide, RectangleSide) {
-    (
-        RectangleSide {
-            direction: unit(major_grid_bearing_deg),
-            extent_m: length_m,
-        },
-        RectangleSide {
-            direction: unit(major_grid_bearing_deg + 90.0),
-            extent_m: width_m,
-        },
-    )
+impl Rectangle {
+    /// The major side (along the major grid bearing, `length_m`) and the minor side (90°
+    /// clockwise from it, `width_m`).
+    fn sides(&self) -> (RectangleSide, RectangleSide) {
+        (
+            RectangleSide {
+                direction: unit(self.major_grid_bearing_deg),
+                extent_m: self.length_m,
+            },
+            RectangleSide {
+                direction: unit(self.major_grid_bearing_deg + 90.0),
+                extent_m: self.width_m,
+            },
+        )
+    }
 }
 
 fn legs_across(extent_m: f64, spacing_m: f64) -> usize {

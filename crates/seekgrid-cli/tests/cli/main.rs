@@ -7,6 +7,8 @@ mod end_to_end;
 mod external;
 mod frame_vs_proj;
 mod golden;
+mod layers;
+mod located;
 mod log;
 mod output_folder;
 mod review;

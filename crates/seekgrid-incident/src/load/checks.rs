@@ -3,11 +3,12 @@
 //! a centre in metres, a fraction instead of a percentage).
 
 use super::SegmentFiles;
-use crate::file::{RawScenario, RawShape};
+use crate::file::{RawScenario, RawShape, RawUnit};
 use crate::locate::FieldPath;
 use crate::model::{DriftDef, ScenarioKind, VectorDef};
 use geo::Coord;
 use seekgrid_drift::DriftError;
+use seekgrid_plan::PlanError;
 use seekgrid_prior::ShapeError;
 use seekgrid_search::SearchError;
 use std::convert::Infallible;
@@ -137,25 +138,49 @@ pub(super) fn shape(
                 "the POA values add up to {sum:.4}, more than 1; give fractions whose sum is at most 1 (the rest is rest of world)"
             ),
         ),
-        (ShapeError::NoQuantiles, _) => (
-            field("distance_quantiles_km"),
+        (
+            ShapeError::NoQuantiles
+            | ShapeError::BadFraction { .. }
+            | ShapeError::BadRadius { .. }
+            | ShapeError::QuantilesNotIncreasing { .. },
+            ScenarioKind::Rings { quantiles, .. },
+        ) => ring(at, raw, quantiles, e),
+        (_, ScenarioKind::Area { file, .. }) => (
+            Place::File(file.clone()),
+            area_message(e, files.feature_of_polygon.get(file)),
+        ),
+        (_, ScenarioKind::Segments { file, .. }) => (Place::File(file.clone()), e.to_string()),
+        (other, _) => (Place::Field(at.clone()), other.to_string()),
+    }
+}
+
+/// A rings scenario's quantile problem, at the key of the ring it names.
+fn ring(
+    at: &FieldPath,
+    raw: &RawScenario,
+    quantiles: &[(f64, f64)],
+    e: &ShapeError,
+) -> (Place, String) {
+    match e {
+        ShapeError::NoQuantiles => (
+            Place::Field(at.key("distance_quantiles_km")),
             "no distance quantiles given".into(),
         ),
-        (ShapeError::BadFraction { index, .. }, _) => {
+        ShapeError::BadFraction { index, .. } => {
             let key = ring_key(raw, *index);
             (
                 Place::Field(at.key("distance_quantiles_km").key(&key)),
                 format!("percentage {key} is outside 0..100"),
             )
         }
-        (ShapeError::BadRadius { index, radius_m }, _) => (
+        ShapeError::BadRadius { index, radius_m } => (
             Place::Field(at.key("distance_quantiles_km").key(&ring_key(raw, *index))),
             format!(
                 "a ring distance must be a positive number, got {}",
                 radius_m / 1000.0
             ),
         ),
-        (ShapeError::QuantilesNotIncreasing { index }, ScenarioKind::Rings { quantiles, .. }) => {
+        ShapeError::QuantilesNotIncreasing { index } => {
             let key = ring_key(raw, *index);
             let twice = *index > 0 && quantiles[*index].0 == quantiles[*index - 1].0;
             let message = if twice {
@@ -171,12 +196,7 @@ pub(super) fn shape(
                 message,
             )
         }
-        (_, ScenarioKind::Area { file, .. }) => (
-            Place::File(file.clone()),
-            area_message(e, files.feature_of_polygon.get(file)),
-        ),
-        (_, ScenarioKind::Segments { file, .. }) => (Place::File(file.clone()), e.to_string()),
-        (other, _) => (Place::Field(at.clone()), other.to_string()),
+        other => (Place::Field(at.clone()), other.to_string()),
     }
 }
 
@@ -293,5 +313,37 @@ pub(super) fn drift(at: &FieldPath, def: &DriftDef, e: &DriftError) -> (Place, S
             (Place::Field(at.key(field)), e.to_string())
         }
         other => (Place::Field(at.clone()), other.to_string()),
+    }
+}
+
+/// A unit the plan crate refuses, named by the field as written (`speed_kn` or `speed_kmh`
+/// for the speed it checks in m/s, so that a speed too small to survive the conversion is
+/// refused too).
+pub(super) fn unit(at: &FieldPath, u: &RawUnit, e: &PlanError) -> (FieldPath, String) {
+    match e {
+        PlanError::BadUnit { field, value, .. } => match *field {
+            "id" => (at.key("id"), "the unit id is empty; give it a name".into()),
+            "searchers" => (
+                at.key("searchers"),
+                "a ground team needs at least one searcher".into(),
+            ),
+            "speed_mps" => {
+                let (name, written) = match (u.speed_kn, u.speed_kmh) {
+                    (Some(kn), _) => ("speed_kn", kn),
+                    (_, Some(kmh)) => ("speed_kmh", kmh),
+                    _ => ("speed_kn", *value),
+                };
+                (
+                    at.key(name),
+                    // Debug keeps an extreme value short (5e-324).
+                    format!("{name} must be a positive number, got {written:?}"),
+                )
+            }
+            name => (
+                at.key(name),
+                format!("{name} must be a positive number, got {value}"),
+            ),
+        },
+        other => (at.clone(), other.to_string()),
     }
 }

@@ -247,3 +247,40 @@ fn a_rectangle_pattern_cut_short_follows_its_legs_in_order() {
         assert_eq!(&cut.0[..n - 1], &full.0[..n - 1]);
     }
 }
+
+#[test]
+fn patterns_larger_than_the_earth_allows_are_refused() {
+    // A spacing that would make corners overflow to infinity.
+    let p = Pattern::ExpandingSquare {
+        center: c(0.0, 0.0),
+        track_spacing_m: f64::MAX,
+        legs: 4,
+        first_leg_grid_bearing_deg: 0.0,
+    };
+    assert!(matches!(
+        p.validate(),
+        Err(SearchError::BadPattern {
+            field: "track_spacing_m",
+            ..
+        })
+    ));
+    // Each leg short enough, the last one too long: 2 x 6000 km.
+    let p = Pattern::ExpandingSquare {
+        center: c(0.0, 0.0),
+        track_spacing_m: 6e6,
+        legs: 4,
+        first_leg_grid_bearing_deg: 0.0,
+    };
+    assert!(matches!(
+        p.validate(),
+        Err(SearchError::BadPattern { field: "legs", .. })
+    ));
+    let mut r = match sweep(0.0) {
+        Pattern::ParallelSweep(r) => r,
+        other => panic!("{other:?}"),
+    };
+    r.length_m = 2e7;
+    assert!(Pattern::ParallelSweep(r).validate().is_err());
+    r.length_m = seekgrid_search::pattern::MAX_PATTERN_M;
+    assert!(Pattern::ParallelSweep(r).validate().is_ok());
+}
