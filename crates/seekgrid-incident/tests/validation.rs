@@ -1665,8 +1665,9 @@ const PATTERN_RULES: &[Row] = &[
         &["at most 10 000 km"],
     ),
     (
-        // 16 legs, the last of 8 spacings of 2000 km.
-        Key("search[2].pattern.legs"),
+        // 16 legs, the last of 8 spacings of 2000 km: the error points at `legs`, on the
+        // pattern's line but outside the edited spacing.
+        KeyOnLine("search[2].pattern.legs", "legs = 16"),
         Replace("track_spacing_m = 700", "track_spacing_m = 2000000"),
         &["last leg would be longer than 10 000 km"],
     ),

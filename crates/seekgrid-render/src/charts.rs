@@ -1036,6 +1036,7 @@ pub(crate) mod tests {
             units: vec!["u".into()],
             effort: Effort::default(),
             all_exponential: true,
+            overlaps_other_period: false,
             pos: 0.2,
             pos_cumulative: 0.3,
             pod_at_truth: Some(0.1),
