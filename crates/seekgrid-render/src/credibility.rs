@@ -24,6 +24,10 @@ pub const COLUMNS_NOTE: &str = "Columns: incidents with a log score; the mean lo
 /// How the bias directions are tested, in words.
 pub const BIAS_METHOD: &str = "Shared bias: each analyst's bias is the line from the mean of their map to the place where the object was found. The Rayleigh test asks whether the bearings of these lines, over every analyst and incident in the record, scatter in random directions (errors a crowd of analysts averages out) or share one (an error that pooling cannot remove). R-bar is the length of the mean of the bearings as unit vectors: 0 when they cancel out, 1 when they all agree.";
 
+/// How the Rayleigh p-value is computed and how far to trust it with few bearings, in words
+/// (written into every report: stdout, `credibility.md` and `credibility.json`).
+pub const RAYLEIGH_CAVEAT: &str = "Rayleigh test, method and small-sample caveat: the p-value is the chance of an R-bar at least this large if the bearings were uniform on the circle. Below 10 bearings it is the exact value (the distribution of the resultant of n uniform unit vectors, integrated numerically, within 2e-7), because Zar's textbook approximation is poor there (off by up to 0.11 at n = 2, 0.034 at n = 3); from 10 bearings it is Zar's approximation (within 5e-4). With few bearings the test has little power: only a strong common direction gives p below 5 %, so \"no shared direction\" on a short record is not evidence that the errors scatter. The bearings of several analysts in one incident are not independent (they share the found position), which makes the p-value smaller than it should be; read a verdict on few incidents as a prompt to look, not a finding.";
+
 fn time(t: Time) -> String {
     t.to_rfc3339_opts(chrono::SecondsFormat::AutoSi, true)
 }
@@ -153,6 +157,8 @@ pub struct CredibilityJson {
     pub uninformative_incidents: Vec<String>,
     /// How the biases are tested.
     pub bias_method: &'static str,
+    /// How the Rayleigh p-value is computed and its small-sample caveat.
+    pub rayleigh_caveat: &'static str,
     /// The shared-bias test.
     pub bias_direction: Option<BiasDirectionJson>,
     /// The pool against the best analyst.
@@ -274,6 +280,7 @@ pub fn credibility_json(
         analysts: r.analysts.iter().map(analyst_json).collect(),
         uninformative_incidents: r.uninformative_incidents.clone(),
         bias_method: BIAS_METHOD,
+        rayleigh_caveat: RAYLEIGH_CAVEAT,
         bias_direction: r.bias_direction.as_ref().map(|d| {
             let (method, error) = p_source(d);
             BiasDirectionJson {
@@ -440,6 +447,7 @@ pub fn credibility_table(r: &CredibilityReport, record: &str) -> String {
                 p_source(d).0
             );
             let _ = writeln!(out, "{}", bias_verdict(d));
+            let _ = writeln!(out, "{RAYLEIGH_CAVEAT}");
         }
         None => {
             let _ = writeln!(out, "Shared bias: not tested (see below).");
@@ -527,6 +535,7 @@ pub fn credibility_markdown(r: &CredibilityReport, record: &str) -> String {
                 }
             );
             let _ = writeln!(md, "**Verdict at 5 %.** {}\n", bias_verdict(d));
+            let _ = writeln!(md, "{RAYLEIGH_CAVEAT}\n");
         }
         None => {
             let _ = writeln!(md, "Not tested: see below.\n");

@@ -35,6 +35,8 @@ fn credibility_of_the_invented_record_prints_every_demo_analyst_verdicts_and_cau
         "Bayes' rule",
         "Shared bias: n = ",
         "Pool against the best analyst:",
+        "small-sample caveat",
+        "little power",
         "CAUTION: Decision support only",
         "search mission coordinator",
     ] {
@@ -77,8 +79,15 @@ fn credibility_json_weights_add_up_to_one_and_the_files_match_it() {
     assert!(bias["p_value"].as_f64().unwrap() <= 1.0);
     assert!(bias["verdict"].as_str().unwrap().contains("5 %"));
     assert!(written["caution"].as_str().unwrap().contains("decision"));
+    assert!(
+        written["rayleigh_caveat"]
+            .as_str()
+            .unwrap()
+            .contains("little power")
+    );
     let md = std::fs::read_to_string(out.join("credibility.md")).unwrap();
     assert!(md.starts_with("# Credibility of the analysts across incidents"));
+    assert!(md.contains("small-sample caveat"), "{md}");
     assert_eq!(md.matches("**Caution.**").count(), 2, "{md}");
 }
 
