@@ -132,6 +132,11 @@ enum Command {
         /// complete, no file of it stays
         #[arg(long)]
         force: bool,
+        /// Also append one row per analyst and one for the pool (log score, rank, bias, weight
+        /// used and implied) to this track record (CSV, created with its header when missing;
+        /// read by `seekgrid credibility`). Needs a found position inside the grid
+        #[arg(long, value_name = "FILE.csv")]
+        record: Option<PathBuf>,
     },
     /// Record a completed search in the incident file: as planned (--plan), as followed
     /// (--track) or as flown (--pattern). The file keeps its comments, the new text is
@@ -364,12 +369,52 @@ fn run(cli: Cli) -> Result<(), Failure> {
             }
             Ok(())
         }
-        Command::Review { file, out, force } => {
+        Command::Review {
+            file,
+            out,
+            force,
+            record,
+        } => {
             let incident = seekgrid_incident::load(&file)?;
             sized(&incident)?;
-            let dir = open_output(&out, force, &run_id, &incident.input_files())?;
-            let doc = review_incident(&incident, &dir)?;
+            let mut inputs = incident.input_files();
+            inputs.extend(record.iter().cloned());
+            let dir = open_output(&out, force, &run_id, &inputs)?;
+            let (review, doc) = review_incident(&incident, &dir)?;
+            // The rows are made before the folder is put in place, so a review that cannot be
+            // recorded says so before anything is written.
+            let rows = match &record {
+                Some(_) => Some(
+                    seekgrid_render::record::record_rows(&file, &review).map_err(|e| {
+                        Failure::bad_input(format!("--record: nothing appended: {e}"))
+                    })?,
+                ),
+                None => None,
+            };
             commit(dir)?;
+            if let (Some(path), Some(rows)) = (&record, rows) {
+                let appended = seekgrid_render::record::append_record(path, &rows, &run_id)
+                    .map_err(|e| match e {
+                        RenderError::Io { .. } | RenderError::Internal(_) => {
+                            Failure::failed(e.to_string())
+                        }
+                        other => Failure::bad_input(format!(
+                            "{}: the review is written to {}, but no row was appended: {other}",
+                            path.display(),
+                            out.display()
+                        )),
+                    })?;
+                eprintln!(
+                    "appended {} row(s) to {}{}",
+                    appended.rows_added,
+                    path.display(),
+                    if appended.created {
+                        " (created with its header)"
+                    } else {
+                        ""
+                    }
+                );
+            }
             eprintln!(
                 "wrote {} as run {run_id} (review to {}, {} search(es), cumulative POS {:.4}{})\n{}",
                 out.display(),
@@ -519,7 +564,13 @@ fn plan_incident(
 fn review_incident(
     incident: &Incident,
     dir: &OutputDir,
-) -> Result<seekgrid_render::review::ReviewJson, Failure> {
+) -> Result<
+    (
+        seekgrid_engine::review::Review,
+        seekgrid_render::review::ReviewJson,
+    ),
+    Failure,
+> {
     use seekgrid_engine::review::ReviewError;
     let result = with_progress(|progress| {
         seekgrid_engine::review::review(incident, incident.outcome.as_ref(), progress)
@@ -532,7 +583,9 @@ fn review_incident(
         }
         other => located(incident, other.item(), &other.to_string()),
     })?;
-    seekgrid_render::review::write(&r, dir).map_err(|e| Failure::failed(e.to_string()))
+    let doc =
+        seekgrid_render::review::write(&r, dir).map_err(|e| Failure::failed(e.to_string()))?;
+    Ok((r, doc))
 }
 
 /// This run's id: the UTC time to the second and the process id, e.g. `20260614T213000Z-4242`.

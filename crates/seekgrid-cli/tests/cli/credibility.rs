@@ -68,12 +68,12 @@ fn credibility_json_weights_add_up_to_one_and_the_files_match_it() {
         .map(|a| a["suggested_weight"].as_f64().unwrap())
         .sum();
     assert!((total - 1.0).abs() < 1e-9, "{total}");
-    // The record holds 9 incidents; every analyst took part in some.
+    // The record holds 9 incidents; every analyst took part in at least 3 (dog-handler).
     assert_eq!(written["incidents"], 9);
     assert!(
         analysts
             .iter()
-            .all(|a| a["incidents"].as_u64().unwrap() >= 4)
+            .all(|a| a["incidents"].as_u64().unwrap() >= 3)
     );
     let bias = &written["bias_direction"];
     assert!(bias["p_value"].as_f64().unwrap() <= 1.0);

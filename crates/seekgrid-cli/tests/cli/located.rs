@@ -29,19 +29,23 @@ fn an_engine_error_prints_with_the_line_and_column_of_its_item() {
     let dir = tempfile::tempdir().unwrap();
     let f = dir.path().join("incident.toml");
     std::fs::write(&f, TOO_BIG).unwrap();
-    // The file itself is valid.
-    let o = seekgrid(&["check", f.to_str().unwrap()]);
-    assert_eq!(
-        o.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&o.stderr)
-    );
-    let out = dir.path().join("out");
-    let o = seekgrid(&["map", f.to_str().unwrap(), "--out", out.to_str().unwrap()]);
-    assert_eq!(o.status.code(), Some(2));
-    let err = String::from_utf8_lossy(&o.stderr);
-    // `cell_m = 1` is line 5; its value starts at column 10.
-    assert!(err.contains("incident.toml:5:10: grid:"), "{err}");
-    assert!(!out.join("summary.json").exists());
+    // The file parses, but the engine's sizing (run by check and map before anything is
+    // computed) refuses it at the input that drives the size: `cell_m = 1` is line 5, its
+    // value starts at column 10.
+    for command in ["check", "map"] {
+        let out = dir.path().join(format!("out-{command}"));
+        let args: Vec<&str> = if command == "check" {
+            vec![command, f.to_str().unwrap()]
+        } else {
+            vec![command, f.to_str().unwrap(), "--out", out.to_str().unwrap()]
+        };
+        let o = seekgrid(&args);
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{command}: {err}");
+        assert!(
+            err.contains("incident.toml:5:10: grid.cell_m"),
+            "{command}: {err}"
+        );
+        assert!(!out.exists(), "{command}");
+    }
 }

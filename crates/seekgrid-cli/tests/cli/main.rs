@@ -1,8 +1,8 @@
 //! Tests of the `seekgrid` binary and of the working frame against the outside world, as one
 //! test binary with a module per topic.
 
-mod credibility;
 mod catalogue;
+mod credibility;
 mod end_to_end;
 mod external;
 mod frame_vs_proj;
