@@ -531,10 +531,15 @@ pub fn pos_chart(r: &Review) -> Result<Vec<u8>, RenderError> {
         .iter()
         .map(|row| (row.hours_since_reference, row.pos_cumulative))
         .collect();
+    // The chain's cumulative POS after period k counts periods 1..=k, so it is drawn when all
+    // of them have ended: at the latest end so far. Periods that overlap (a later period
+    // ending first) would otherwise make the line run back down in time.
     let mut optimal: Vec<(f64, f64)> = vec![(0.0, 0.0)];
+    let mut ended = 0.0_f64;
     for p in &r.periods {
         if let Some(o) = &p.optimal {
-            optimal.push((hours(r, p.end), o.pos_cumulative_chain));
+            ended = ended.max(hours(r, p.end));
+            optimal.push((ended, o.pos_cumulative_chain));
         }
     }
     let top = done
@@ -630,10 +635,18 @@ pub fn rank_chart(r: &Review) -> Result<Option<Vec<u8>>, RenderError> {
                 .map_err(chart_error)?;
             found_marker(&mut chart, words, r, 1.0)?;
             let (xs, ys) = chart.plotting_area().get_pixel_range();
+            // The note goes where the line is not: at the bottom when the found position
+            // ranked low (much probability above it), at the top otherwise.
+            let mean_above = points.iter().map(|p| p.1).sum::<f64>() / points.len() as f64;
+            let y = if mean_above > 0.5 {
+                ys.end - 50
+            } else {
+                ys.start + 10
+            };
             note(
                 body,
                 words,
-                (xs.start + 12, ys.start + 10),
+                (xs.start + 12, y),
                 "0 % = the found position lay in the densest cell of the belief at that time",
             )?;
             Ok(())

@@ -78,7 +78,12 @@ fn credibility_json_weights_add_up_to_one_and_the_files_match_it() {
     let bias = &written["bias_direction"];
     assert!(bias["p_value"].as_f64().unwrap() <= 1.0);
     assert!(bias["verdict"].as_str().unwrap().contains("5 %"));
-    assert!(written["caution"].as_str().unwrap().contains("decision"));
+    assert!(
+        written["caution"]
+            .as_str()
+            .unwrap()
+            .contains("Decision support")
+    );
     assert!(
         written["rayleigh_caveat"]
             .as_str()
