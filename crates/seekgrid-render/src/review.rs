@@ -787,7 +787,7 @@ pub fn review_markdown(r: &Review) -> String {
         let _ = writeln!(md, "## The same effort allocated optimally\n");
         let _ = writeln!(
             md,
-            "For each period, Stone's optimal allocation of the period's effort (Σ W·L) for exponential detection, against the belief the searches left at the period's start (\"same belief\") and in a chain where every earlier period was also optimal. It bounds what exponential-law searches can achieve with that effort on a stationary target; inverse-cube and definite-range sweeps can exceed it, and with a drifting target or periods that overlap it is a guide, not a bound.\n"
+            "For each period, Stone's optimal allocation of the period's effort (Σ W·L) for exponential detection, against the belief the searches left at the period's start (\"same belief\") and in a chain where every earlier period was also optimal. It bounds what exponential-law searches of areas (POD = 1 − e^(−coverage)) can achieve with that effort on a stationary target; inverse-cube and definite-range sweeps can exceed it, and so can a search logged as a track, which is scored along its single-pass lateral range curve (for the exponential law its exposure adds up to about 1.4 times W·L). With a drifting target or periods that overlap it is a guide, not a bound.\n"
         );
         let found = r.truth.is_some();
         let _ = write!(
