@@ -723,6 +723,9 @@ pub fn scores_chart(r: &Review) -> Result<Option<Vec<u8>>, RenderError> {
             );
             // Analysts from the top down, in file order.
             let row = |i: usize| (n - 1 - i) as f64;
+            // Value labels are set after the pool's line, on a white ground, so the line
+            // never runs through a number.
+            let mut values: Vec<(String, (i32, i32), Across)> = Vec::new();
             for (i, (name, s)) in bars.iter().enumerate() {
                 let (_, y) = chart.backend_coord(&(lo, row(i)));
                 words.put(name.clone(), (xs.start - 12, y), TEXT_PX, INK, Across::Right, Down::Middle);
@@ -739,7 +742,7 @@ pub fn scores_chart(r: &Review) -> Result<Option<Vec<u8>>, RenderError> {
                     } else {
                         (Across::Left, 8)
                     };
-                    words.put(format!("{s:.2}"), (x + dx, y), TEXT_PX, INK, across, Down::Middle);
+                    values.push((format!("{s:.2}"), (x + dx, y), across));
                 } else {
                     let (x, y) = chart.backend_coord(&(lo, row(i)));
                     words.put(
@@ -783,6 +786,23 @@ pub fn scores_chart(r: &Review) -> Result<Option<Vec<u8>>, RenderError> {
                     colour: OPTIMAL,
                     dashed: true,
                 });
+            }
+            let base = body.get_base_pixel();
+            for (text, (x, y), across) in values {
+                let w = words.width(&text, TEXT_PX).ceil() as i32;
+                let x0 = match across {
+                    Across::Right => x - w,
+                    _ => x,
+                };
+                body.draw(&Rectangle::new(
+                    [
+                        (x0 - 4 - base.0, y - 11 - base.1),
+                        (x0 + w + 4 - base.0, y + 11 - base.1),
+                    ],
+                    WHITE.filled(),
+                ))
+                .map_err(chart_error)?;
+                words.put(text, (x, y), TEXT_PX, INK, across, Down::Middle);
             }
             legend(body, words, (xs.start, ys.start - 44), &entries)
         },
