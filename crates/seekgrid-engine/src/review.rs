@@ -747,7 +747,7 @@ pub fn review(
         None => {
             if outcome.is_none() || matches!(outcome, Some(Outcome::Suspended { .. })) {
                 not_computed.push(NotComputed {
-                    what: "densities at the truth, log scores, bias and implied weights".into(),
+                    what: "everything that needs the found position: its POC, density and rank over time, the searches that covered it and their POD there, the POD the optimal allocation would have put there, and each analyst's and scenario's density, log score, bias and implied weight".into(),
                     why: match outcome {
                         None => "the incident gives no outcome; add an [outcome] with the found position and time".into(),
                         _ => "the search was suspended: there is no found position to score against".into(),
