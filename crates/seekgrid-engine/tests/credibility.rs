@@ -77,7 +77,11 @@ fn a_small_record_gives_the_hand_computed_weights_scores_and_pool_comparison() {
     assert_abs_diff_eq!(w("C").suggested_weight, 235.0 / 825.0, epsilon = 1e-14);
     assert_abs_diff_eq!(w("A").mean_log_score.unwrap(), -1.956011503, epsilon = 1e-9);
     assert_abs_diff_eq!(w("B").mean_log_score.unwrap(), -2.099852539, epsilon = 1e-9);
-    assert_abs_diff_eq!(w("C").mean_log_score.unwrap(), -2.302585093, epsilon = 1e-9);
+    assert_abs_diff_eq!(
+        w("C").mean_log_score.unwrap(),
+        -std::f64::consts::LN_10,
+        epsilon = 1e-9
+    ); // ln(0.01)/2 = -ln 10
     assert_abs_diff_eq!(w("B").mean_bias_distance_m.unwrap(), 1150.0, epsilon = 1e-9);
     assert_eq!(w("A").incidents, 2);
     let pool = r.pool.unwrap();
