@@ -117,12 +117,13 @@ enum Command {
     },
     /// Review an ended incident against its outcome: POS and effort over time, the searches
     /// that passed over the found position, each analyst's and scenario's score, and what the
-    /// same effort could have achieved allocated optimally (review.json, review.md and GeoJSON
-    /// layers)
+    /// same effort could have achieved allocated optimally (review.json, review.md, charts as
+    /// PNG and GeoJSON layers)
     #[command(after_help = AFTER_HELP)]
     Review {
-        /// The incident file (TOML), with its [outcome] when the incident has ended (without
-        /// one the review ends at the last logged search and scores no analyst)
+        /// The incident file (TOML), with its `[outcome]` table when the incident has ended
+        /// (without one the review ends at the last logged search, scores no analyst, and says
+        /// what it could not compute)
         file: PathBuf,
         /// Output folder (created; an existing non-empty folder needs --force). Written as one
         /// unit: it appears whole when the run ends, never half-written

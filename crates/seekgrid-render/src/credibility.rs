@@ -12,7 +12,7 @@ use seekgrid_prior::credibility::{EXACT_P_MAX_BEARINGS, ZAR_MAX_ABS_ERROR_FROM_1
 use serde::Serialize;
 use std::fmt::Write as _;
 
-/// The files [`write`] creates.
+/// The files [`write()`] creates.
 pub const CREDIBILITY_FILES: [&str; 2] = ["credibility.json", "credibility.md"];
 
 /// How the suggested weights are made, in words (written into every report).

@@ -16,7 +16,7 @@ use seekgrid_incident::model::Time;
 use serde::Serialize;
 use std::fmt::Write as _;
 
-/// The files [`write`] creates.
+/// The files [`write()`] creates.
 pub const REVIEW_FILES: [&str; 5] = [
     "review.json",
     "review.md",
@@ -292,7 +292,7 @@ pub struct NotComputedJson {
 pub struct ReviewJson {
     /// The caution.
     pub caution: &'static str,
-    /// The id of the run that wrote the file (set by [`write`]).
+    /// The id of the run that wrote the file (set by [`write()`]).
     pub run_id: Option<String>,
     /// Title.
     pub title: String,
