@@ -591,6 +591,23 @@ pub fn pos_chart(r: &Review) -> Result<Vec<u8>, RenderError> {
             }
             found_marker(&mut chart, words, r, y_top)?;
             let (xs, ys) = chart.plotting_area().get_pixel_range();
+            // Where the searches as done beat the optimal allocation of their effort, say why
+            // that can be, so the optimal line is not read as a bound it is not.
+            let beaten = r.periods.iter().any(|p| {
+                p.optimal
+                    .as_ref()
+                    .is_some_and(|o| p.pos > o.pos_same_belief + 1e-9)
+            });
+            if beaten {
+                let text = "Done above the optimal line: possible with tracks, inverse-cube or definite-range sweeps, drift, overlapping periods";
+                let w = words.width(text, TEXT_PX) as i32 + 20;
+                note(
+                    body,
+                    words,
+                    ((xs.end - w - 12).max(xs.start + 12), ys.end - 50),
+                    text,
+                )?;
+            }
             legend(body, words, (xs.start + 12, ys.start + 10), &entries)
         },
     )
