@@ -1,9 +1,14 @@
-//! `seekgrid demo`: writes the bundled invented incidents into a folder and maps each one.
+//! `seekgrid demo`: writes the bundled invented incidents into a folder, maps them, plans for
+//! them, logs one planned search with `seekgrid log` (into a copy of the marine incident),
+//! reviews both against their invented outcomes, and reports the credibility of their analysts
+//! from an invented track record.
 //!
 //! The incidents live in `scenarios/` at the workspace root and are compiled into the binary,
 //! so the demo runs from any folder.
 
-use crate::{Failure, commit, map_incident, open_output, plan_incident};
+use crate::{
+    Failure, commit, credibility_report, map_incident, open_output, plan_incident, review_incident,
+};
 use seekgrid_render::OutputDir;
 use seekgrid_render::layers::OutputSelection;
 use std::path::Path;
@@ -61,6 +66,60 @@ const LAND: &[Bundled] = &[
     ),
 ];
 
+/// The invented track record of the demo analysts.
+const RECORD: &str = include_str!("../../../scenarios/credibility-record.csv");
+
+/// Writes the invented track record into `credibility/input/` and its credibility report
+/// (`credibility.md`, `credibility.json`) into `credibility/`.
+fn credibility(dir: &OutputDir, out: &Path) -> Result<(), Failure> {
+    let failed = |e: seekgrid_render::RenderError| Failure::failed(e.to_string());
+    let folder = dir.subdir("credibility").map_err(failed)?;
+    let input = folder.subdir("input").map_err(failed)?;
+    let record = input
+        .write("credibility-record.csv", RECORD.as_bytes())
+        .map_err(failed)?;
+    let report = credibility_report(
+        &record,
+        &seekgrid_prior::credibility::CredibilityOptions::default(),
+    )?;
+    seekgrid_render::credibility::write(&report, "input/credibility-record.csv", &folder)
+        .map_err(failed)?;
+    eprintln!(
+        "credibility: invented record of {} incident(s) -> {}",
+        report.incidents,
+        out.join("credibility").display()
+    );
+    Ok(())
+}
+
+/// The options of `seekgrid log FILE --plan PLAN --unit UNIT`: the unit searched as planned,
+/// over the plan's period.
+fn log_as_planned(file: &Path, plan: &Path, unit: &str) -> crate::log::LogArgs {
+    crate::log::LogArgs {
+        file: file.to_owned(),
+        unit: unit.to_owned(),
+        plan: Some(plan.to_owned()),
+        track: None,
+        pattern: None,
+        center: None,
+        length_m: None,
+        width_m: None,
+        major_bearing_deg: None,
+        track_spacing_m: None,
+        legs: None,
+        radius_m: None,
+        first_leg_bearing_deg: None,
+        sectors: None,
+        sweep_width_m: None,
+        detection: None,
+        start: None,
+        end: None,
+        done_fraction: None,
+        id: None,
+        note: Some("searched as planned (invented for the demo)".to_owned()),
+    }
+}
+
 /// Writes the bundled files into `input`, making the subfolders they name.
 fn write_inputs(input: &OutputDir, files: &[Bundled]) -> Result<(), Failure> {
     let failed = |e: seekgrid_render::RenderError| Failure::failed(e.to_string());
@@ -86,10 +145,17 @@ fn write_inputs(input: &OutputDir, files: &[Bundled]) -> Result<(), Failure> {
 pub(crate) fn run(out: &Path, force: bool, run_id: &str) -> Result<(), Failure> {
     // The demo's inputs are its own outputs (copies of the bundled files): none to protect.
     let dir = open_output(out, force, run_id, &[])?;
-    // The next period of each invented incident starts after its last logged search.
-    for (name, files, plan_start) in [
-        ("marine", MARINE, "2026-06-14T22:30:00Z"),
-        ("land", LAND, "2026-06-15T12:00:00Z"),
+    // The next period of each invented incident starts after its last logged search. In the
+    // marine incident one unit of the plan then searches as planned and is logged with
+    // `seekgrid log` (into a copy of the incident, never the bundled file).
+    for (name, files, plan_start, logged_unit) in [
+        (
+            "marine",
+            MARINE,
+            "2026-06-14T22:30:00Z",
+            Some("rescue-boat-1"),
+        ),
+        ("land", LAND, "2026-06-15T12:00:00Z", None),
     ] {
         let failed = |e: seekgrid_render::RenderError| Failure::failed(e.to_string());
         let case = dir.subdir(name).map_err(failed)?;
@@ -130,10 +196,47 @@ pub(crate) fn run(out: &Path, force: bool, run_id: &str) -> Result<(), Failure> 
             plan.pos_plan.unwrap_or(0.0),
             plan.pos_optimal_bound.unwrap_or(0.0)
         );
+        let reviewed = match logged_unit {
+            Some(unit) => {
+                let logged = case.subdir("logged").map_err(failed)?;
+                write_inputs(&logged, files)?;
+                let file = logged.path().join("incident.toml");
+                let message = crate::log::run(
+                    &log_as_planned(&file, plan_dir.path(), unit),
+                    chrono::Utc::now(),
+                )?;
+                // The message names the staging folder, which becomes `out` when complete.
+                let message = message.replace(
+                    &dir.path().display().to_string(),
+                    &out.display().to_string(),
+                );
+                eprintln!(
+                    "{name}: seekgrid log {} --plan {} --unit {unit}: {message}",
+                    out.join(name).join("logged/incident.toml").display(),
+                    out.join(name).join("plan").display(),
+                );
+                seekgrid_incident::load(&file)?
+            }
+            None => incident,
+        };
+        let review_dir = case.subdir("review").map_err(failed)?;
+        let (_, doc) = review_incident(&reviewed, &review_dir)?;
+        eprintln!(
+            "{name}: review to {} -> {} ({} search(es), cumulative POS {:.4}{})",
+            doc.end,
+            out.join(name).join("review").display(),
+            doc.searches.len(),
+            doc.pos_cumulative,
+            doc.pod_at_truth_cumulative
+                .map_or(String::new(), |p| format!(
+                    ", POD at the found position {p:.4}"
+                ))
+        );
     }
+    credibility(&dir, out)?;
     commit(dir)?;
     eprintln!(
-        "wrote {} as run {run_id}. The demo incidents are invented. {}",
+        "wrote {} as run {run_id}. The demo incidents and the track record are invented. {}",
         out.display(),
         seekgrid_render::summary::CAUTION
     );

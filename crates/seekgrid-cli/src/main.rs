@@ -101,6 +101,53 @@ enum Command {
         #[arg(long)]
         force: bool,
     },
+    /// Read a track record across incidents: each analyst's mean log score and suggested
+    /// credibility weight, whether the analysts' biases share a direction, and whether the pooled
+    /// map beat the best single analyst. Prints a table; with --out also writes credibility.md
+    /// and credibility.json
+    #[command(after_help = AFTER_HELP)]
+    Credibility {
+        /// The track record (CSV, as appended by `seekgrid review ... --record FILE`)
+        record: PathBuf,
+        /// Also write credibility.md and credibility.json into this folder (created; an
+        /// existing non-empty folder needs --force)
+        #[arg(long)]
+        out: Option<PathBuf>,
+        /// Shrinkage constant k, in incidents: an analyst with n incidents keeps n/(n+k) of
+        /// the weight Bayes' rule gives them and takes the rest from the equal share
+        #[arg(long, default_value_t = seekgrid_prior::credibility::DEFAULT_SHRINKAGE_INCIDENTS)]
+        shrinkage_incidents: f64,
+        /// Print the report as JSON on standard output instead of the table
+        #[arg(long)]
+        json: bool,
+        /// Replace an existing output folder whole
+        #[arg(long)]
+        force: bool,
+    },
+    /// Review an ended incident against its outcome: POS and effort over time, the searches
+    /// that passed over the found position, each analyst's and scenario's score, and what the
+    /// same effort could have achieved allocated optimally (review.json, review.md, charts as
+    /// PNG and GeoJSON layers)
+    #[command(after_help = AFTER_HELP)]
+    Review {
+        /// The incident file (TOML), with its `[outcome]` table when the incident has ended
+        /// (without one the review ends at the last logged search, scores no analyst, and says
+        /// what it could not compute)
+        file: PathBuf,
+        /// Output folder (created; an existing non-empty folder needs --force). Written as one
+        /// unit: it appears whole when the run ends, never half-written
+        #[arg(long)]
+        out: PathBuf,
+        /// Replace an existing output folder: the whole earlier folder goes when this run is
+        /// complete, no file of it stays
+        #[arg(long)]
+        force: bool,
+        /// Also append one row per analyst and one for the pool (log score, rank, bias, weight
+        /// used and implied) to this track record (CSV, created with its header when missing;
+        /// read by `seekgrid credibility`). Needs a found position inside the grid
+        #[arg(long, value_name = "FILE.csv")]
+        record: Option<PathBuf>,
+    },
     /// Record a completed search in the incident file: as planned (--plan), as followed
     /// (--track) or as flown (--pattern). The file keeps its comments, the new text is
     /// validated before it replaces the old, and the old is kept as FILE.bak-TIME
@@ -303,6 +350,100 @@ fn run(cli: Cli) -> Result<(), Failure> {
             }
             Ok(())
         }
+        Command::Credibility {
+            record,
+            out,
+            shrinkage_incidents,
+            json,
+            force,
+        } => {
+            let options = seekgrid_prior::credibility::CredibilityOptions {
+                shrinkage_incidents,
+            };
+            let report = credibility_report(&record, &options)?;
+            let name = record.display().to_string();
+            if let Some(out) = &out {
+                let dir = open_output(out, force, &run_id, std::slice::from_ref(&record))?;
+                seekgrid_render::credibility::write(&report, &name, &dir)
+                    .map_err(|e| Failure::failed(e.to_string()))?;
+                commit(dir)?;
+                eprintln!("wrote {} as run {run_id}", out.display());
+            }
+            if json {
+                let doc = seekgrid_render::credibility::credibility_json(&report, &name, None);
+                println!(
+                    "{}",
+                    serde_json::to_string_pretty(&doc)
+                        .map_err(|e| Failure::failed(e.to_string()))?
+                );
+            } else {
+                print!(
+                    "{}",
+                    seekgrid_render::credibility::credibility_table(&report, &name)
+                );
+            }
+            Ok(())
+        }
+        Command::Review {
+            file,
+            out,
+            force,
+            record,
+        } => {
+            let incident = seekgrid_incident::load(&file)?;
+            sized(&incident)?;
+            let mut inputs = incident.input_files();
+            inputs.extend(record.iter().cloned());
+            let dir = open_output(&out, force, &run_id, &inputs)?;
+            let (review, doc) = review_incident(&incident, &dir)?;
+            // The rows are made before the folder is put in place, so a review that cannot be
+            // recorded says so before anything is written.
+            let rows = match &record {
+                Some(_) => Some(
+                    seekgrid_render::record::record_rows(&file, &review).map_err(|e| {
+                        Failure::bad_input(format!("--record: nothing appended: {e}"))
+                    })?,
+                ),
+                None => None,
+            };
+            commit(dir)?;
+            if let (Some(path), Some(rows)) = (&record, rows) {
+                let appended = seekgrid_render::record::append_record(path, &rows, &run_id)
+                    .map_err(|e| match e {
+                        RenderError::Io { .. } | RenderError::Internal(_) => {
+                            Failure::failed(e.to_string())
+                        }
+                        other => Failure::bad_input(format!(
+                            "{}: the review is written to {}, but no row was appended: {other}",
+                            path.display(),
+                            out.display()
+                        )),
+                    })?;
+                eprintln!(
+                    "appended {} row(s) to {}{}",
+                    appended.rows_added,
+                    path.display(),
+                    if appended.created {
+                        " (created with its header)"
+                    } else {
+                        ""
+                    }
+                );
+            }
+            eprintln!(
+                "wrote {} as run {run_id} (review to {}, {} search(es), cumulative POS {:.4}{})\n{}",
+                out.display(),
+                doc.end,
+                doc.searches.len(),
+                doc.pos_cumulative,
+                doc.pod_at_truth_cumulative
+                    .map_or(String::new(), |p| format!(
+                        ", POD at the found position {p:.4}"
+                    )),
+                CAUTION
+            );
+            Ok(())
+        }
         Command::Log(args) => {
             let message = log::run(&args, chrono::Utc::now())?;
             eprintln!("{message}\n{CAUTION}");
@@ -310,6 +451,24 @@ fn run(cli: Cli) -> Result<(), Failure> {
         }
         Command::Demo { out, force } => demo::run(&out, force, &run_id),
     }
+}
+
+/// Reads a track record and builds its credibility report; shared by `credibility` and `demo`.
+fn credibility_report(
+    record: &Path,
+    options: &seekgrid_prior::credibility::CredibilityOptions,
+) -> Result<seekgrid_engine::credibility::CredibilityReport, Failure> {
+    if !(options.shrinkage_incidents.is_finite() && options.shrinkage_incidents >= 0.0) {
+        return Err(Failure::bad_input(format!(
+            "--shrinkage-incidents {} must be a number of incidents, 0 or more, such as 3",
+            options.shrinkage_incidents
+        )));
+    }
+    let lines = seekgrid_incident::record::read_record(record)
+        .map_err(|e| Failure::bad_input(e.to_string()))?;
+    let rows: Vec<_> = lines.into_iter().map(|l| l.row).collect();
+    seekgrid_engine::credibility::credibility(&rows, options)
+        .map_err(|e| Failure::bad_input(format!("{}: {e}", record.display())))
 }
 
 fn one_line(s: &seekgrid_render::summary::Summary, out: &Path, run_id: &str) -> String {
@@ -438,6 +597,34 @@ fn plan_incident(
     report_warnings(incident, &run.map.warnings, strict)?;
     seekgrid_render::layers::write(&Computed::plan(incident, &run), dir, selection)
         .map_err(|e| Failure::failed(e.to_string()))
+}
+
+/// Reviews an incident into `dir`.
+fn review_incident(
+    incident: &Incident,
+    dir: &OutputDir,
+) -> Result<
+    (
+        seekgrid_engine::review::Review,
+        seekgrid_render::review::ReviewJson,
+    ),
+    Failure,
+> {
+    use seekgrid_engine::review::ReviewError;
+    let result = with_progress(|progress| {
+        seekgrid_engine::review::review(incident, incident.outcome.as_ref(), progress)
+    });
+    let r = result.map_err(|e| match e {
+        ReviewError::Belief(_)
+        | ReviewError::Counterfactual { .. }
+        | ReviewError::Map(MapError::Belief(_)) => {
+            Failure::failed(format!("{}: {e}", incident.path.display()))
+        }
+        other => located(incident, other.item(), &other.to_string()),
+    })?;
+    let doc =
+        seekgrid_render::review::write(&r, dir).map_err(|e| Failure::failed(e.to_string()))?;
+    Ok((r, doc))
 }
 
 /// This run's id: the UTC time to the second and the process id, e.g. `20260614T213000Z-4242`.

@@ -182,48 +182,131 @@ pub fn map(
     options: &MapOptions,
     progress: Progress<'_>,
 ) -> Result<IncidentMap, MapError> {
-    let prepared = prepare(incident)?;
-    let mut schedule = Schedule::new(incident, &prepared, options);
-    crate::warnings::environment_covers(incident, schedule.drift_end())?;
-    let mut warnings = incident.warnings();
-    warnings.extend(crate::warnings::about_the_time(incident, schedule.at));
-    let drift_runs = run_drift(&prepared, &schedule, progress)?;
-    let drifting = Drifting { runs: &drift_runs };
-    let (grid, grid_auto) = choose_grid(incident, &prepared, &schedule, &drifting)?;
-    warnings.extend(schedule.leave_out_searches_outside(&grid, grid_auto));
-    let prior = build_prior(&prepared, &grid)?;
-    let mut stationary =
-        StationaryPart::where_the_object_can_be(prior.as_ref(), incident, &prepared, &grid)?;
-    let kept_by_mask = std::mem::take(&mut stationary.kept_by_mask);
-    warnings.extend(crate::warnings::about_the_mask(incident, &kept_by_mask));
-    let declared_share_of_outside = stationary.declared_share_of_outside();
-    let belief_before_searches =
-        stationary.into_belief(&prepared, &drifting, schedule.reference_time)?;
-    let mut log = SearchLog::new(belief_before_searches.clone());
-    for s in &schedule.to_apply {
+    let replay = Replay::start(incident, options.at, &[], progress)?;
+    let drifting = replay.drifting();
+    let mut log = SearchLog::new(replay.belief_before_searches.clone());
+    for s in replay.to_apply() {
         log.apply(s, &drifting)?;
     }
-    let Schedule { at, pending, .. } = schedule;
-    drifting.move_particles(&mut log.belief, at)?;
-    let poc = poc_cells(&log.belief, &grid, &particle_clouds(&drift_runs));
+    drifting.move_particles(&mut log.belief, replay.at)?;
+    let poc = poc_cells(
+        &log.belief,
+        &replay.grid,
+        &particle_clouds(&replay.drift_runs),
+    );
     Ok(IncidentMap {
         poc,
-        prepared,
-        grid,
-        grid_auto,
-        at,
-        declared_share_of_outside,
-        prior,
+        prepared: replay.prepared,
+        grid: replay.grid,
+        grid_auto: replay.grid_auto,
+        at: replay.at,
+        declared_share_of_outside: replay.declared_share_of_outside,
+        prior: replay.prior,
         belief: log.belief,
-        belief_before_searches,
+        belief_before_searches: replay.belief_before_searches,
         pod_cumulative: log.pod_cumulative,
         searches: log.reports,
-        searches_pending: pending,
-        drift_runs,
+        searches_pending: replay.pending,
+        drift_runs: replay.drift_runs,
         pos_cumulative: 1.0 - log.miss_all,
-        kept_by_mask,
-        warnings,
+        kept_by_mask: replay.kept_by_mask,
+        warnings: replay.warnings,
     })
+}
+
+/// An incident set up at its reference time, ready to be carried forward: the inputs in the
+/// frame, the drift simulated once, the grid, and the belief before any search. [`map`] and
+/// the review ([`crate::review`]) both start here; the review then reads the belief at many
+/// times in one pass over the same drift runs.
+pub(crate) struct Replay {
+    /// The inputs in the frame.
+    pub(crate) prepared: Prepared,
+    /// The grid.
+    pub(crate) grid: GridSpec,
+    /// Whether the grid extent was chosen automatically.
+    pub(crate) grid_auto: bool,
+    /// The last time the replay describes (the map's time).
+    pub(crate) at: Time,
+    /// The stationary prior, when there is one.
+    pub(crate) prior: Option<prior::Prior>,
+    /// The belief at the reference time, before any search.
+    pub(crate) belief_before_searches: Belief,
+    /// See [`IncidentMap::declared_share_of_outside`].
+    pub(crate) declared_share_of_outside: f64,
+    /// Drift simulations, one per drift scenario.
+    pub(crate) drift_runs: Vec<(String, drift::DriftRun)>,
+    /// Positions in `prepared.searches` of the searches ended by `at`, in the order applied.
+    to_apply: Vec<usize>,
+    /// Ids of the searches ending after `at`, in file order.
+    pub(crate) pending: Vec<String>,
+    /// See [`IncidentMap::kept_by_mask`].
+    pub(crate) kept_by_mask: Vec<(String, f64)>,
+    /// See [`IncidentMap::warnings`].
+    pub(crate) warnings: Vec<seekgrid_incident::Warning>,
+}
+
+impl Replay {
+    /// The steps of [`map`] up to the belief at the reference time: the searches to apply by
+    /// `at` (default as [`MapOptions::at`]), the drift (its positions stored at the times the
+    /// map uses and at `extra_record_at`), the grid, and the stationary part where the object
+    /// can be.
+    pub(crate) fn start(
+        incident: &Incident,
+        at: Option<Time>,
+        extra_record_at: &[Time],
+        progress: Progress<'_>,
+    ) -> Result<Self, MapError> {
+        let prepared = prepare(incident)?;
+        let mut schedule = Schedule::new(incident, &prepared, &MapOptions { at });
+        schedule.extra_record_at = extra_record_at.to_vec();
+        crate::warnings::environment_covers(incident, schedule.drift_end())?;
+        let mut warnings = incident.warnings();
+        warnings.extend(crate::warnings::about_the_time(incident, schedule.at));
+        let drift_runs = run_drift(&prepared, &schedule, progress)?;
+        let drifting = Drifting { runs: &drift_runs };
+        let (grid, grid_auto) = choose_grid(incident, &prepared, &schedule, &drifting)?;
+        warnings.extend(schedule.leave_out_searches_outside(&grid, grid_auto));
+        let prior = build_prior(&prepared, &grid)?;
+        let mut stationary =
+            StationaryPart::where_the_object_can_be(prior.as_ref(), incident, &prepared, &grid)?;
+        let kept_by_mask = std::mem::take(&mut stationary.kept_by_mask);
+        warnings.extend(crate::warnings::about_the_mask(incident, &kept_by_mask));
+        let declared_share_of_outside = stationary.declared_share_of_outside();
+        let belief_before_searches =
+            stationary.into_belief(&prepared, &drifting, schedule.reference_time)?;
+        let to_apply = schedule
+            .to_apply
+            .iter()
+            .filter_map(|s| prepared.searches.iter().position(|p| p.index == s.index))
+            .collect();
+        let (at, pending) = (schedule.at, schedule.pending);
+        Ok(Self {
+            prepared,
+            grid,
+            grid_auto,
+            at,
+            prior,
+            belief_before_searches,
+            declared_share_of_outside,
+            drift_runs,
+            to_apply,
+            pending,
+            kept_by_mask,
+            warnings,
+        })
+    }
+
+    /// The searches ended by `at`, in the order they are applied.
+    pub(crate) fn to_apply(&self) -> impl Iterator<Item = &PreparedSearch> {
+        self.to_apply.iter().map(|&k| &self.prepared.searches[k])
+    }
+
+    /// The drift runs, to place the belief's particles.
+    pub(crate) fn drifting(&self) -> Drifting<'_> {
+        Drifting {
+            runs: &self.drift_runs,
+        }
+    }
 }
 
 /// The time a map describes and the logged searches it applies by then.
@@ -236,6 +319,8 @@ struct Schedule<'p> {
     to_apply: Vec<&'p PreparedSearch>,
     /// Ids of the searches ending after `at`, in file order.
     pending: Vec<String>,
+    /// Further times at which the drift runs store positions (the review's times).
+    extra_record_at: Vec<Time>,
 }
 
 impl<'p> Schedule<'p> {
@@ -269,6 +354,7 @@ impl<'p> Schedule<'p> {
             at,
             to_apply,
             pending,
+            extra_record_at: Vec::new(),
         }
     }
 
@@ -308,10 +394,12 @@ impl<'p> Schedule<'p> {
     }
 
     /// The times a drift run stores positions at: exactly where they are used (the placement
-    /// times, the middle of each part of a search cut into parts, and every whole hour from
-    /// going adrift to `end`, the drift layer's track). 16 bytes per particle per record.
+    /// times, the extra times asked for, the middle of each part of a search cut into parts,
+    /// and every whole hour from going adrift to `end`, the drift layer's track). 16 bytes per
+    /// particle per record.
     fn drift_record_times(&self, adrift_earliest: Time, end: Time) -> Vec<Time> {
         let mut record_at = self.placement_times();
+        record_at.extend_from_slice(&self.extra_record_at);
         for s in &self.to_apply {
             record_at.extend(slices::slices(s).into_iter().flatten().map(|p| p.mid));
         }
@@ -540,20 +628,20 @@ impl StationaryPart {
 }
 
 /// The drift runs in the order of the belief's particles.
-struct Drifting<'a> {
+pub(crate) struct Drifting<'a> {
     runs: &'a [(String, drift::DriftRun)],
 }
 
 /// Where every drifting particle is at one time, in the order of the belief's particles.
-struct Placement {
-    x_m: Vec<f64>,
-    y_m: Vec<f64>,
-    stranded: Vec<bool>,
+pub(crate) struct Placement {
+    pub(crate) x_m: Vec<f64>,
+    pub(crate) y_m: Vec<f64>,
+    pub(crate) stranded: Vec<bool>,
 }
 
 impl Drifting<'_> {
     /// Every run's particles at `t`.
-    fn placement(&self, t: Time) -> Placement {
+    pub(crate) fn placement(&self, t: Time) -> Placement {
         let mut p = Placement {
             x_m: Vec::new(),
             y_m: Vec::new(),
@@ -569,7 +657,7 @@ impl Drifting<'_> {
     }
 
     /// Moves the belief's particles to where they are at `t`.
-    fn move_particles(&self, belief: &mut Belief, t: Time) -> Result<(), MapError> {
+    pub(crate) fn move_particles(&self, belief: &mut Belief, t: Time) -> Result<(), MapError> {
         let p = self.placement(t);
         belief
             .move_particles(p.x_m, p.y_m, p.stranded)
@@ -578,17 +666,17 @@ impl Drifting<'_> {
 }
 
 /// The belief carried through the applied searches, with what each one did.
-struct SearchLog {
-    belief: Belief,
+pub(crate) struct SearchLog {
+    pub(crate) belief: Belief,
     /// `1 - Π(1 - d_k)` per cell over the searches applied so far.
-    pod_cumulative: Option<Array2<f64>>,
-    reports: Vec<SearchReport>,
+    pub(crate) pod_cumulative: Option<Array2<f64>>,
+    pub(crate) reports: Vec<SearchReport>,
     /// `Π(1 - POS_k)` over the searches applied so far.
-    miss_all: f64,
+    pub(crate) miss_all: f64,
 }
 
 impl SearchLog {
-    fn new(belief: Belief) -> Self {
+    pub(crate) fn new(belief: Belief) -> Self {
         Self {
             belief,
             pod_cumulative: None,
@@ -599,7 +687,11 @@ impl SearchLog {
 
     /// Applies one completed search as a miss: the particles moved to its middle, its POD on
     /// the cells and at the particles, the Bayesian update, and its report.
-    fn apply(&mut self, s: &PreparedSearch, drifting: &Drifting<'_>) -> Result<(), MapError> {
+    pub(crate) fn apply(
+        &mut self,
+        s: &PreparedSearch,
+        drifting: &Drifting<'_>,
+    ) -> Result<(), MapError> {
         let evaluated_at = mid_time(s);
         drifting.move_particles(&mut self.belief, evaluated_at)?;
         let failed = |source| MapError::Search {
@@ -903,7 +995,7 @@ fn sliced_particle_pod(
         .collect())
 }
 
-fn mid_time(s: &PreparedSearch) -> Time {
+pub(crate) fn mid_time(s: &PreparedSearch) -> Time {
     s.def.start + (s.def.end - s.def.start) / 2
 }
 
@@ -915,7 +1007,9 @@ fn poc_cells(belief: &Belief, grid: &GridSpec, clouds: &[std::ops::Range<usize>]
 }
 
 /// The index range of each drift run's particles in the belief, in run order.
-fn particle_clouds(drift_runs: &[(String, drift::DriftRun)]) -> Vec<std::ops::Range<usize>> {
+pub(crate) fn particle_clouds(
+    drift_runs: &[(String, drift::DriftRun)],
+) -> Vec<std::ops::Range<usize>> {
     let mut start = 0;
     drift_runs
         .iter()

@@ -3,6 +3,8 @@
 //! * [`load()`] reads an incident file (TOML) and every file it names, and returns a
 //!   validated [`Incident`] or every problem found as `FILE:LINE:COL: message`.
 //! * [`model`] is the validated incident, positions still in WGS84 lon/lat.
+//! * [`record`] is the track record CSV (analysts' scores across incidents): its one row
+//!   type and its reader.
 //! * [`edit`] appends a completed search to an incident file safely (comments kept, new text
 //!   validated, atomic replace with a backup, refused when the file changed meanwhile).
 //! * [`warning`]: what is legal but suspect ([`Incident::warnings`] for what the file alone
@@ -21,6 +23,7 @@ pub mod input;
 pub mod load;
 pub mod locate;
 pub mod model;
+pub mod record;
 pub mod tasking;
 pub mod warning;
 

@@ -226,7 +226,7 @@ pub enum PriorError {
     /// A list that the credibility statistics need is empty.
     #[error("{field} is empty; {fix}")]
     EmptyCredibilityInput {
-        /// The list (`weights_used`, `bearings_deg`, `track_records`, `incidents`, ...).
+        /// The list (`weights_used`, `bearings_deg`, `analysts`, `incidents`, ...).
         field: &'static str,
         /// How to fix it.
         fix: &'static str,
@@ -279,11 +279,6 @@ pub enum PriorError {
         /// The value given.
         value: f64,
     },
-    /// Every analyst with a track record gave the truth zero density at least once.
-    #[error(
-        "every analyst in track_records with incidents has a log score of -inf (gave the truth zero density at least once), so their records cannot be weighed against each other; check those incidents' truth positions and density units, or give the analysts some rest of world in future"
-    )]
-    EveryRecordZero,
     /// An incident without analysts' scores.
     #[error(
         "incident {incident} has no analyst log scores; give each incident at least one analyst's log score"

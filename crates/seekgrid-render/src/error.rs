@@ -190,12 +190,51 @@ pub enum RenderError {
     /// PNG encoding failed.
     #[error("cannot encode the PNG picture: {0}")]
     Png(String),
+    /// Drawing a chart failed.
+    #[error("cannot draw the chart: {0}")]
+    Chart(String),
     /// JSON serialisation failed.
     #[error("cannot serialise GeoJSON: {0}")]
     Json(String),
     /// The boundary tracer met a configuration it cannot turn into valid rings (a bug).
     #[error("containment boundary tracing failed: {0}; please report this with the input grid")]
     Topology(String),
+    /// A review with nothing to add to a track record.
+    #[error("nothing to record: {reason}")]
+    NothingToRecord {
+        /// Why, and what to do.
+        reason: &'static str,
+    },
+    /// Another run is appending to the same track record.
+    #[error(
+        "the record {path} is being written by another seekgrid run{holder} (it holds the lock {lock}); wait for that run to finish"
+    )]
+    RecordLocked {
+        /// The record file.
+        path: PathBuf,
+        /// The lock file beside it.
+        lock: PathBuf,
+        /// `" (run RUNID)"` when the lock file names the run holding it, else empty.
+        holder: String,
+    },
+    /// The earlier track record is not a valid record (its header differs, or a row is bad);
+    /// it is left unchanged.
+    #[error("{0}; the record was left unchanged")]
+    BadRecord(Box<seekgrid_incident::IncidentError>),
+    /// The track record already holds rows of this incident.
+    #[error(
+        "the record {path} already holds incident {incident_id} (\"{title}\") from line {line}; delete that incident's rows from the record to record its review again"
+    )]
+    IncidentAlreadyRecorded {
+        /// The record file.
+        path: PathBuf,
+        /// The incident id.
+        incident_id: String,
+        /// The incident title.
+        title: String,
+        /// The first line holding it.
+        line: usize,
+    },
     /// An internal consistency check failed (a bug).
     #[error("internal error: {0}; please report this with the input")]
     Internal(String),

@@ -1098,7 +1098,11 @@ pub(crate) fn tagged_png(png: &GeoreferencedPng, run_id: &str) -> Result<Vec<u8>
 /// 13 bytes of data and a 4-byte CRC; a `tEXt` chunk may stand anywhere between `IHDR` and
 /// `IEND` (PNG specification, third edition, 5.2, 5.6 and 11.3.3.2). The chunk's bytes, CRC
 /// included, come from the png crate.
-fn with_text_chunk(png: &[u8], keyword: &str, text: &str) -> Result<Vec<u8>, RenderError> {
+pub(crate) fn with_text_chunk(
+    png: &[u8],
+    keyword: &str,
+    text: &str,
+) -> Result<Vec<u8>, RenderError> {
     use png::text_metadata::{EncodableTextChunk, TEXtChunk};
     const SIGNATURE: [u8; 8] = [137, 80, 78, 71, 13, 10, 26, 10];
     const AFTER_IHDR: usize = 8 + 4 + 4 + 13 + 4;

@@ -12,6 +12,7 @@
 //!   traced from the raster as valid polygons with holes.
 //! * [`heatmap_png`] and [`write_png_set`]: a briefing picture with legend, scale bar, north
 //!   arrow, title and caution line, with world file, `.aux.xml` and `.prj` so GIS viewers place it.
+//! * [`review::write`]: an incident review as `review.json`, `review.md` and GeoJSON layers.
 //! * [`geojson_bytes`], [`polygon_to_geojson`], [`line_to_geojson`], [`point_to_geojson`]: the
 //!   shared GeoJSON writer and working-frame-to-lon/lat helpers for other layers.
 //! * [`layers`]: the registry of a run's output layers ([`layers::Layer`]: `--outputs` name,
@@ -46,7 +47,9 @@
 #![deny(missing_docs)]
 
 mod canvas;
+pub mod charts;
 mod containment;
+pub mod credibility;
 pub mod error;
 pub mod georef;
 pub mod gpx;
@@ -56,6 +59,8 @@ pub mod output;
 pub mod outputs;
 pub mod plan_outputs;
 mod probability;
+pub mod record;
+pub mod review;
 pub mod summary;
 pub mod tasking;
 pub mod vector;

@@ -333,7 +333,7 @@ impl Drop for OutputDir {
 
 /// An exclusive lock on a lock file, which is removed (while still held) on drop.
 #[derive(Debug)]
-struct Lock {
+pub(crate) struct Lock {
     path: PathBuf,
     /// Held open for the lock; closed on drop, which releases it.
     _file: File,
@@ -341,7 +341,7 @@ struct Lock {
 
 impl Lock {
     /// Takes the lock on `path` for the destination `folder`, writing `run_id` into the file.
-    fn acquire(path: &Path, folder: &Path, run_id: &str) -> Result<Self, RenderError> {
+    pub(crate) fn acquire(path: &Path, folder: &Path, run_id: &str) -> Result<Self, RenderError> {
         // A run that finishes removes its lock file while holding it; a run that opened the
         // file just before then locks a removed file. It sees so (the path no longer names the
         // file it locked) and tries again with the new file.
@@ -515,7 +515,7 @@ fn check_name(name: &str) -> Result<(), RenderError> {
 }
 
 /// Makes the entries of a folder durable; opening a folder for sync is a Unix facility.
-fn sync_dir(dir: &Path) -> Result<(), RenderError> {
+pub(crate) fn sync_dir(dir: &Path) -> Result<(), RenderError> {
     #[cfg(unix)]
     File::open(dir)
         .and_then(|d| d.sync_all())

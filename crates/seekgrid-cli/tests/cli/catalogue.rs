@@ -841,9 +841,16 @@ const CASES: &[Row] = &[
     ),
     Row {
         name: "year 9999 refused before any output",
-        edit: Replace(
-            "reference_time = \"2026-06-14T18:00:00Z\"",
-            "reference_time = \"9999-12-31T18:00:00Z\"",
+        // The demo's outcome moves with the reference time, so that only the year is at fault.
+        edit: Edit::Both(
+            &Replace(
+                "reference_time = \"2026-06-14T18:00:00Z\"",
+                "reference_time = \"9999-12-31T18:00:00Z\"",
+            ),
+            &Replace(
+                "time = \"2026-06-15T03:40:00Z\"",
+                "time = \"9999-12-31T19:00:00Z\"",
+            ),
         ),
         run: Run::Map(&[]),
         code: 2,

@@ -51,6 +51,8 @@ fn help_carries_the_caution_on_every_command() {
         vec!["map", "--help"],
         vec!["check", "--help"],
         vec!["demo", "--help"],
+        vec!["credibility", "--help"],
+        vec!["review", "--help"],
     ] {
         let o = seekgrid(&args);
         assert!(o.status.success());
@@ -454,5 +456,62 @@ fn gpx_tracks_read_like_gdal_reads_them() {
         for (ours, gdal) in [w, s, e, n].iter().zip(&[gw, gs, ge, gn]) {
             assert!((ours - gdal).abs() < 1e-9, "{f}: ours {ours}, GDAL {gdal}");
         }
+    }
+}
+
+#[test]
+fn demo_writes_the_credibility_report_of_the_invented_record() {
+    let demo = demo_once();
+    let folder = demo.join("credibility");
+    let record = std::fs::read_to_string(folder.join("input/credibility-record.csv")).unwrap();
+    assert!(record.starts_with("# INVENTED"), "{record}");
+    let report: Value =
+        serde_json::from_str(&std::fs::read_to_string(folder.join("credibility.json")).unwrap())
+            .unwrap();
+    assert_eq!(report["record"], "input/credibility-record.csv");
+    assert_eq!(report["analysts"].as_array().unwrap().len(), 6);
+    assert!(folder.join("credibility.md").is_file());
+}
+
+#[test]
+fn demo_logs_a_planned_search_into_a_copy_and_reviews_both_incidents() {
+    let demo = demo_once();
+    // `seekgrid log --plan` appended rescue-boat-1's search to the copy in marine/logged/,
+    // kept the previous text as a backup, and left the bundled incident as it was.
+    let logged = demo.join("marine/logged");
+    let text = std::fs::read_to_string(logged.join("incident.toml")).unwrap();
+    let bundled =
+        std::fs::read_to_string(workspace().join("scenarios/marine/incident.toml")).unwrap();
+    assert_eq!(text.matches("[[search]]").count(), 3, "{text}");
+    assert_eq!(bundled.matches("[[search]]").count(), 2);
+    assert!(text.contains("unit = \"rescue-boat-1\"") && text.contains("tasked_in"));
+    let backups: Vec<_> = std::fs::read_dir(&logged)
+        .unwrap()
+        .filter_map(|e| e.ok())
+        .filter(|e| {
+            e.file_name()
+                .to_string_lossy()
+                .starts_with("incident.toml.bak-")
+        })
+        .collect();
+    assert_eq!(backups.len(), 1);
+    assert_eq!(std::fs::read_to_string(backups[0].path()).unwrap(), bundled);
+    // Each incident's review against its invented outcome: the logged search is reviewed.
+    for (name, searches) in [("marine", 3), ("land", 2)] {
+        let dir = demo.join(name).join("review");
+        let doc: Value =
+            serde_json::from_str(&std::fs::read_to_string(dir.join("review.json")).unwrap())
+                .unwrap();
+        assert_eq!(doc["end_reason"], "found", "{name}");
+        assert_eq!(
+            doc["searches"].as_array().unwrap().len(),
+            searches,
+            "{name}"
+        );
+        for f in seekgrid_render::charts::CHART_FILES {
+            assert!(dir.join(f).is_file(), "{name}: {f}");
+        }
+        let md = std::fs::read_to_string(dir.join("review.md")).unwrap();
+        assert!(md.contains("search mission coordinator"), "{name}");
     }
 }

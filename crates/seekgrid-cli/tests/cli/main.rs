@@ -2,6 +2,7 @@
 //! test binary with a module per topic.
 
 mod catalogue;
+mod credibility;
 mod end_to_end;
 mod external;
 mod frame_vs_proj;
@@ -10,4 +11,5 @@ mod layers;
 mod located;
 mod log;
 mod output_folder;
+mod review;
 mod warnings;
