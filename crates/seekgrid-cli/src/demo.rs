@@ -99,24 +99,8 @@ fn log_as_planned(file: &Path, plan: &Path, unit: &str) -> crate::log::LogArgs {
         file: file.to_owned(),
         unit: unit.to_owned(),
         plan: Some(plan.to_owned()),
-        track: None,
-        pattern: None,
-        center: None,
-        length_m: None,
-        width_m: None,
-        major_bearing_deg: None,
-        track_spacing_m: None,
-        legs: None,
-        radius_m: None,
-        first_leg_bearing_deg: None,
-        sectors: None,
-        sweep_width_m: None,
-        detection: None,
-        start: None,
-        end: None,
-        done_fraction: None,
-        id: None,
         note: Some("searched as planned (invented for the demo)".to_owned()),
+        ..Default::default()
     }
 }
 

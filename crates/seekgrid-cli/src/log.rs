@@ -8,7 +8,7 @@ use seekgrid_incident::tasking::{self, TaskedPattern, Tasking};
 use std::path::{Path, PathBuf};
 
 /// The options of `seekgrid log`.
-#[derive(clap::Args, Debug)]
+#[derive(clap::Args, Debug, Default)]
 pub struct LogArgs {
     /// The incident file (TOML) to add the search to; it is validated, replaced atomically and
     /// its previous version kept beside it as FILE.bak-YYYYMMDDTHHMMSSZ
@@ -390,14 +390,7 @@ fn pattern_from_options(a: &LogArgs) -> Result<TaskedPattern, Failure> {
     let mut p = TaskedPattern {
         kind: kind.clone(),
         center,
-        length_m: None,
-        width_m: None,
-        major_bearing_deg: None,
-        track_spacing_m: None,
-        legs: None,
-        radius_m: None,
-        first_leg_bearing_deg: None,
-        sectors: None,
+        ..Default::default()
     };
     let misplaced: Vec<&str> = match kind.as_str() {
         "parallel-sweep" | "creeping-line" => {

@@ -75,7 +75,7 @@ pub struct TaskedUnit {
 }
 
 /// A pattern as an incident file writes it (docs/incident-format.md, `[[search]]`).
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct TaskedPattern {
     /// `parallel-sweep`, `creeping-line`, `expanding-square` or `sector-search`.

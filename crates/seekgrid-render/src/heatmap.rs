@@ -44,6 +44,20 @@ pub struct MapStyle<'a> {
     pub scale: ColourScale,
 }
 
+impl<'a> MapStyle<'a> {
+    /// The style of a probability map: density per km² on the density scale, with the caution.
+    #[must_use]
+    pub fn density(title: &'a str, subtitle: &'a str) -> Self {
+        Self {
+            title,
+            subtitle,
+            caution: crate::summary::CAUTION,
+            legend_label: "probability per km²",
+            scale: ColourScale::Density,
+        }
+    }
+}
+
 /// An RGB colour for overlays.
 pub type Rgb = [u8; 3];
 

@@ -143,13 +143,7 @@ pub(crate) fn heatmap(c: &Computed, out: &mut Recorder) -> Result<(), RenderErro
     let cell_km2 = m.grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
     let density = m.poc.mapv(|p| p / cell_km2);
     let sub = subtitle(m, "Probability map");
-    let style = MapStyle {
-        title: &c.incident.title,
-        subtitle: &sub,
-        caution: CAUTION,
-        legend_label: "probability per km²",
-        scale: ColourScale::Density,
-    };
+    let style = MapStyle::density(&c.incident.title, &sub);
     let mut overlays = base_overlays(c.incident, m);
     overlays.extend(search_overlays(m));
     let png = render::heatmap_png(&m.prepared.frame, &m.grid, &density, &style, &overlays)?;

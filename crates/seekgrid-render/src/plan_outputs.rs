@@ -633,13 +633,7 @@ pub(crate) fn picture(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result
         t.pos_plan,
         t.pos_optimal_bound
     );
-    let style = MapStyle {
-        title: &c.incident.title,
-        subtitle: &sub,
-        caution: CAUTION,
-        legend_label: "probability per km²",
-        scale: ColourScale::Density,
-    };
+    let style = MapStyle::density(&c.incident.title, &sub);
     let png = render::heatmap_png(&m.prepared.frame, &m.grid, &density, &style, &overlays)?;
     out.write_picture(Layer::PlanMap, &png)
 }

@@ -104,18 +104,7 @@ fn tasked_pattern(frame: &Frame, p: &Pattern) -> TaskedPattern {
     let true_bearing = |grid_deg: f64, center: [f64; 2]| {
         normalise_deg(grid_deg + frame.convergence_deg(center[0], center[1]))
     };
-    let mut t = TaskedPattern {
-        kind: String::new(),
-        center: [0.0, 0.0],
-        length_m: None,
-        width_m: None,
-        major_bearing_deg: None,
-        track_spacing_m: None,
-        legs: None,
-        radius_m: None,
-        first_leg_bearing_deg: None,
-        sectors: None,
-    };
+    let mut t = TaskedPattern::default();
     match *p {
         Pattern::ParallelSweep(Rectangle {
             center,

@@ -42,14 +42,17 @@ fn an_engine_error_prints_with_the_line_and_column_of_its_item() {
         String::from_utf8_lossy(&o.stderr)
     );
     let out = dir.path().join("out");
-    let o = seekgrid(&[
-        "map",
-        f.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--at",
-        "2026-06-15T06:00:00Z",
-    ]);
+    let map_late = || {
+        seekgrid(&[
+            "map",
+            f.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--at",
+            "2026-06-15T06:00:00Z",
+        ])
+    };
+    let o = map_late();
     assert_eq!(o.status.code(), Some(2));
     let err = String::from_utf8_lossy(&o.stderr);
     // The scenario's table starts on line 8.
@@ -62,14 +65,7 @@ fn an_engine_error_prints_with_the_line_and_column_of_its_item() {
         "particles = 200\nhold_environment_beyond_series = true",
     );
     std::fs::write(&f, held).unwrap();
-    let o = seekgrid(&[
-        "map",
-        f.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--at",
-        "2026-06-15T06:00:00Z",
-    ]);
+    let o = map_late();
     assert_eq!(
         o.status.code(),
         Some(0),
