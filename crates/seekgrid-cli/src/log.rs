@@ -4,7 +4,7 @@ use crate::{Failure, parse_time};
 use chrono::{DateTime, Utc};
 use seekgrid_incident::Incident;
 use seekgrid_incident::edit::{EditError, EditOptions, IncidentFile, NewGeometry, NewSearch};
-use seekgrid_incident::tasking::{self, TaskedPattern, Tasking};
+use seekgrid_incident::tasking::{self, TaskedPattern, TaskedUnit, Tasking};
 use std::path::{Path, PathBuf};
 
 /// The options of `seekgrid log`.
@@ -62,7 +62,7 @@ pub struct LogArgs {
     #[arg(long)]
     pub sweep_width_m: Option<f64>,
     /// The detection law (default: the plan's with --plan, else the file's default)
-    #[arg(long, value_parser = ["inverse-cube", "exponential", "definite-range"])]
+    #[arg(long, value_parser = clap::builder::PossibleValuesParser::new(seekgrid_search::DetectionLaw::ALL.map(seekgrid_search::DetectionLaw::name)))]
     pub detection: Option<String>,
     /// Start of the search (RFC 3339, UTC)
     #[arg(long)]
@@ -96,6 +96,9 @@ impl From<EditError> for Failure {
     }
 }
 
+/// A start and an end.
+type TimeSpan = (DateTime<Utc>, DateTime<Utc>);
+
 /// Where the search comes from.
 enum Source {
     Plan,
@@ -110,42 +113,8 @@ enum Source {
 /// A [`Failure`]: exit 2 for bad input (the message names the option or field and the fix),
 /// 1 when a file cannot be written. The incident file is then untouched and nothing is left.
 pub fn run(args: &LogArgs, now: DateTime<Utc>) -> Result<String, Failure> {
-    let source = match (&args.plan, &args.track, &args.pattern) {
-        (_, Some(_), None) => Source::Track,
-        (Some(_), None, None) => Source::Plan,
-        (None, None, Some(_)) => Source::Pattern,
-        (None, None, None) => {
-            return Err(bad(
-                "say what was searched: --plan FOLDER (as planned), --track FILE (as followed) or --pattern KIND with its options (as flown)",
-            ));
-        }
-        (_, Some(_), Some(_)) | (Some(_), None, Some(_)) => {
-            return Err(bad(
-                "give either --pattern or --plan (whose pattern is used) or --track, not two",
-            ));
-        }
-    };
-    let pattern_options = [
-        ("--center", args.center.is_some()),
-        ("--length-m", args.length_m.is_some()),
-        ("--width-m", args.width_m.is_some()),
-        ("--major-bearing-deg", args.major_bearing_deg.is_some()),
-        ("--track-spacing-m", args.track_spacing_m.is_some()),
-        ("--legs", args.legs.is_some()),
-        ("--radius-m", args.radius_m.is_some()),
-        (
-            "--first-leg-bearing-deg",
-            args.first_leg_bearing_deg.is_some(),
-        ),
-        ("--sectors", args.sectors.is_some()),
-    ];
-    if !matches!(source, Source::Pattern)
-        && let Some((name, _)) = pattern_options.iter().find(|(_, given)| *given)
-    {
-        return Err(bad(format!(
-            "{name} describes a pattern given by hand; use it with --pattern KIND (with --plan the plan's pattern is logged as it stands)"
-        )));
-    }
+    let source = source_of(args)?;
+    check_options(args, &source)?;
     let start_opt = args
         .start
         .as_deref()
@@ -156,44 +125,10 @@ pub fn run(args: &LogArgs, now: DateTime<Utc>) -> Result<String, Failure> {
         .as_deref()
         .map(|t| parse_time(t, "--end"))
         .transpose()?;
-    if let Some(f) = args.done_fraction {
-        if matches!(source, Source::Track) {
-            return Err(bad(
-                "--done-fraction applies to a pattern; a track is what was followed, so log the track as recorded",
-            ));
-        }
-        if !(f > 0.0 && f <= 1.0) {
-            return Err(bad(format!(
-                "--done-fraction {f} is outside (0, 1]; give the share of the pattern's track flown from its start, e.g. 0.6"
-            )));
-        }
-    }
-    if let Some(w) = args.sweep_width_m
-        && !(w.is_finite() && w > 0.0)
-    {
-        return Err(bad(format!(
-            "--sweep-width-m {w} must be a positive number of metres"
-        )));
-    }
 
     let file = IncidentFile::open(&args.file)?;
     let incident = file.incident();
-
-    let plan = args
-        .plan
-        .as_deref()
-        .map(|dir| tasking::read(dir).map_err(|e| bad(e.to_string())))
-        .transpose()?;
-    if let Some(t) = &plan
-        && t.incident_title != incident.title
-    {
-        return Err(bad(format!(
-            "the plan in {} was made for the incident \"{}\", not \"{}\"; give the plan folder of this incident",
-            args.plan.as_deref().unwrap_or(Path::new("")).display(),
-            t.incident_title,
-            incident.title
-        )));
-    }
+    let plan = read_plan(args, incident)?;
     let task = match &plan {
         Some(t) => Some(
             t.unit(&args.unit)
@@ -201,69 +136,14 @@ pub fn run(args: &LogArgs, now: DateTime<Utc>) -> Result<String, Failure> {
         ),
         None => None,
     };
-
-    let (geometry, track_times) = match source {
-        Source::Plan => {
-            let task = task.expect("a plan source has a task");
-            if args.sweep_width_m.is_some() || args.detection.is_some() {
-                return Err(bad(
-                    "as planned, the plan's sweep width and detection law are logged; to record other values give the pattern by hand (--pattern ...) or the track (--track ...)",
-                ));
-            }
-            let pattern = task.pattern.clone().ok_or_else(|| {
-                bad(format!(
-                    "unit \"{}\" was tasked to segment(s) {} in plan run {}, not to a pattern; log the team's recorded track with --track FILE --plan {}",
-                    args.unit,
-                    task.segments.join(", "),
-                    plan.as_ref().map_or("", |p| p.run_id.as_str()),
-                    args.plan.as_deref().unwrap_or(Path::new("")).display()
-                ))
-            })?;
-            (NewGeometry::Pattern(pattern), None)
-        }
-        Source::Track => {
-            let path = args.track.clone().expect("a track source has a track");
-            let (_, times) =
-                seekgrid_incident::geofiles::read_track(&path).map_err(|e| bad(e.to_string()))?;
-            let all: Option<Vec<DateTime<Utc>>> = times.iter().copied().collect();
-            let span = all.and_then(|t| Some((*t.first()?, *t.last()?)));
-            (NewGeometry::CopyTrack(path), span)
-        }
-        Source::Pattern => (NewGeometry::Pattern(pattern_from_options(args)?), None),
-    };
-
-    let start = start_opt
-        .or(track_times.map(|t| t.0))
-        .or(task.map(|t| t.start));
-    let end = end_opt.or(track_times.map(|t| t.1)).or(task.map(|t| t.end));
-    let (Some(start), Some(end)) = (start, end) else {
-        return Err(bad(match source {
-            Source::Track => {
-                "the track has no time at every point; give the search's times with --start and --end (RFC 3339, UTC)"
-            }
-            _ => "give the search's times with --start and --end (RFC 3339, UTC)",
-        }));
-    };
-    if start > end {
-        return Err(bad(format!(
-            "the search starts ({}) after it ends ({}); check --start and --end",
-            start.to_rfc3339(),
-            end.to_rfc3339()
-        )));
-    }
-    if let (Some(t), Some(plan)) = (task, &plan)
-        && (start < t.start || end > t.end)
-    {
-        return Err(bad(format!(
-            "the search ({} to {}) is outside the period of unit \"{}\" in plan run {} ({} to {}); check --start and --end, or log it without --plan if it was not this tasking",
-            start.to_rfc3339(),
-            end.to_rfc3339(),
-            args.unit,
-            plan.run_id,
-            t.start.to_rfc3339(),
-            t.end.to_rfc3339()
-        )));
-    }
+    let (geometry, track_times) = what_was_searched(args, &source, plan.as_ref(), task)?;
+    let (start, end) = search_times(
+        args,
+        &source,
+        (start_opt, end_opt),
+        track_times,
+        task.zip(plan.as_ref()),
+    )?;
     let sweep_width_m = match (args.sweep_width_m, task) {
         (Some(w), _) => w,
         (None, Some(t)) => t.sweep_width_m,
@@ -317,22 +197,7 @@ pub fn run(args: &LogArgs, now: DateTime<Utc>) -> Result<String, Failure> {
         }
     };
 
-    let comment = match (&source, &plan, &args.track) {
-        (_, Some(p), _) if matches!(source, Source::Plan) => format!(
-            "logged by seekgrid log at {} as planned in plan run {}",
-            now.format("%Y-%m-%dT%H:%M:%SZ"),
-            p.run_id
-        ),
-        (Source::Track, _, Some(t)) => format!(
-            "logged by seekgrid log at {} from the track {}",
-            now.format("%Y-%m-%dT%H:%M:%SZ"),
-            t.file_name().unwrap_or_default().to_string_lossy()
-        ),
-        _ => format!(
-            "logged by seekgrid log at {}",
-            now.format("%Y-%m-%dT%H:%M:%SZ")
-        ),
-    };
+    let comment = comment_for(&source, plan.as_ref(), args.track.as_deref(), now);
     let search = NewSearch {
         id: id.clone(),
         unit: args.unit.clone(),
@@ -367,6 +232,201 @@ pub fn run(args: &LogArgs, now: DateTime<Utc>) -> Result<String, Failure> {
         message.push_str(&format!("; the track is copied to {}", t.display()));
     }
     Ok(message)
+}
+
+/// Where the search comes from, from the options given (exactly one of --plan alone, --track,
+/// --pattern).
+fn source_of(args: &LogArgs) -> Result<Source, Failure> {
+    Ok(match (&args.plan, &args.track, &args.pattern) {
+        (_, Some(_), None) => Source::Track,
+        (Some(_), None, None) => Source::Plan,
+        (None, None, Some(_)) => Source::Pattern,
+        (None, None, None) => {
+            return Err(bad(
+                "say what was searched: --plan FOLDER (as planned), --track FILE (as followed) or --pattern KIND with its options (as flown)",
+            ));
+        }
+        (_, Some(_), Some(_)) | (Some(_), None, Some(_)) => {
+            return Err(bad(
+                "give either --pattern or --plan (whose pattern is used) or --track, not two",
+            ));
+        }
+    })
+}
+
+/// Refuses options that do not fit the source: pattern options without --pattern, a done
+/// fraction for a track or outside (0, 1], a sweep width that is not a positive number.
+fn check_options(args: &LogArgs, source: &Source) -> Result<(), Failure> {
+    let pattern_options = [
+        ("--center", args.center.is_some()),
+        ("--length-m", args.length_m.is_some()),
+        ("--width-m", args.width_m.is_some()),
+        ("--major-bearing-deg", args.major_bearing_deg.is_some()),
+        ("--track-spacing-m", args.track_spacing_m.is_some()),
+        ("--legs", args.legs.is_some()),
+        ("--radius-m", args.radius_m.is_some()),
+        (
+            "--first-leg-bearing-deg",
+            args.first_leg_bearing_deg.is_some(),
+        ),
+        ("--sectors", args.sectors.is_some()),
+    ];
+    if !matches!(source, Source::Pattern)
+        && let Some((name, _)) = pattern_options.iter().find(|(_, given)| *given)
+    {
+        return Err(bad(format!(
+            "{name} describes a pattern given by hand; use it with --pattern KIND (with --plan the plan's pattern is logged as it stands)"
+        )));
+    }
+    if let Some(f) = args.done_fraction {
+        if matches!(source, Source::Track) {
+            return Err(bad(
+                "--done-fraction applies to a pattern; a track is what was followed, so log the track as recorded",
+            ));
+        }
+        if !(f > 0.0 && f <= 1.0) {
+            return Err(bad(format!(
+                "--done-fraction {f} is outside (0, 1]; give the share of the pattern's track flown from its start, e.g. 0.6"
+            )));
+        }
+    }
+    if let Some(w) = args.sweep_width_m
+        && !(w.is_finite() && w > 0.0)
+    {
+        return Err(bad(format!(
+            "--sweep-width-m {w} must be a positive number of metres"
+        )));
+    }
+    Ok(())
+}
+
+/// The plan folder's tasking, when --plan is given; refused when made for another incident.
+fn read_plan(args: &LogArgs, incident: &Incident) -> Result<Option<Tasking>, Failure> {
+    let plan = args
+        .plan
+        .as_deref()
+        .map(|dir| tasking::read(dir).map_err(|e| bad(e.to_string())))
+        .transpose()?;
+    if let Some(t) = &plan
+        && t.incident_title != incident.title
+    {
+        return Err(bad(format!(
+            "the plan in {} was made for the incident \"{}\", not \"{}\"; give the plan folder of this incident",
+            args.plan.as_deref().unwrap_or(Path::new("")).display(),
+            t.incident_title,
+            incident.title
+        )));
+    }
+    Ok(plan)
+}
+
+/// What was searched: the plan's pattern for the unit, the track (to be copied beside the
+/// incident, with its first and last times when every point has one), or the pattern given.
+fn what_was_searched(
+    args: &LogArgs,
+    source: &Source,
+    plan: Option<&Tasking>,
+    task: Option<&TaskedUnit>,
+) -> Result<(NewGeometry, Option<TimeSpan>), Failure> {
+    Ok(match source {
+        Source::Plan => {
+            let task = task.expect("a plan source has a task");
+            if args.sweep_width_m.is_some() || args.detection.is_some() {
+                return Err(bad(
+                    "as planned, the plan's sweep width and detection law are logged; to record other values give the pattern by hand (--pattern ...) or the track (--track ...)",
+                ));
+            }
+            let pattern = task.pattern.clone().ok_or_else(|| {
+                bad(format!(
+                    "unit \"{}\" was tasked to segment(s) {} in plan run {}, not to a pattern; log the team's recorded track with --track FILE --plan {}",
+                    args.unit,
+                    task.segments.join(", "),
+                    plan.map_or("", |p| p.run_id.as_str()),
+                    args.plan.as_deref().unwrap_or(Path::new("")).display()
+                ))
+            })?;
+            (NewGeometry::Pattern(pattern), None)
+        }
+        Source::Track => {
+            let path = args.track.clone().expect("a track source has a track");
+            let (_, times) =
+                seekgrid_incident::geofiles::read_track(&path).map_err(|e| bad(e.to_string()))?;
+            let all: Option<Vec<DateTime<Utc>>> = times.iter().copied().collect();
+            let span = all.and_then(|t| Some((*t.first()?, *t.last()?)));
+            (NewGeometry::CopyTrack(path), span)
+        }
+        Source::Pattern => (NewGeometry::Pattern(pattern_from_options(args)?), None),
+    })
+}
+
+/// The search's start and end: the options, else the track's times, else the plan's period;
+/// refused when missing, reversed, or outside the unit's planned period.
+fn search_times(
+    args: &LogArgs,
+    source: &Source,
+    (start_opt, end_opt): (Option<DateTime<Utc>>, Option<DateTime<Utc>>),
+    track_times: Option<TimeSpan>,
+    tasked: Option<(&TaskedUnit, &Tasking)>,
+) -> Result<TimeSpan, Failure> {
+    let task = tasked.map(|(t, _)| t);
+    let start = start_opt
+        .or(track_times.map(|t| t.0))
+        .or(task.map(|t| t.start));
+    let end = end_opt.or(track_times.map(|t| t.1)).or(task.map(|t| t.end));
+    let (Some(start), Some(end)) = (start, end) else {
+        return Err(bad(match source {
+            Source::Track => {
+                "the track has no time at every point; give the search's times with --start and --end (RFC 3339, UTC)"
+            }
+            _ => "give the search's times with --start and --end (RFC 3339, UTC)",
+        }));
+    };
+    if start > end {
+        return Err(bad(format!(
+            "the search starts ({}) after it ends ({}); check --start and --end",
+            start.to_rfc3339(),
+            end.to_rfc3339()
+        )));
+    }
+    if let Some((t, plan)) = tasked
+        && (start < t.start || end > t.end)
+    {
+        return Err(bad(format!(
+            "the search ({} to {}) is outside the period of unit \"{}\" in plan run {} ({} to {}); check --start and --end, or log it without --plan if it was not this tasking",
+            start.to_rfc3339(),
+            end.to_rfc3339(),
+            args.unit,
+            plan.run_id,
+            t.start.to_rfc3339(),
+            t.end.to_rfc3339()
+        )));
+    }
+    Ok((start, end))
+}
+
+/// The comment written above the new table: when and how it was logged.
+fn comment_for(
+    source: &Source,
+    plan: Option<&Tasking>,
+    track: Option<&Path>,
+    now: DateTime<Utc>,
+) -> String {
+    match (source, plan, track) {
+        (Source::Plan, Some(p), _) => format!(
+            "logged by seekgrid log at {} as planned in plan run {}",
+            now.format("%Y-%m-%dT%H:%M:%SZ"),
+            p.run_id
+        ),
+        (Source::Track, _, Some(t)) => format!(
+            "logged by seekgrid log at {} from the track {}",
+            now.format("%Y-%m-%dT%H:%M:%SZ"),
+            t.file_name().unwrap_or_default().to_string_lossy()
+        ),
+        _ => format!(
+            "logged by seekgrid log at {}",
+            now.format("%Y-%m-%dT%H:%M:%SZ")
+        ),
+    }
 }
 
 fn not_in_plan(t: &Tasking, unit: &str) -> Failure {
