@@ -57,7 +57,7 @@ mod kernel;
 
 use crate::prepare::{PreparedGeometry, PreparedSearch};
 use crate::timeline::{
-    MapError, Progress, Replay, SEARCHED_POD_THRESHOLD, SearchLog, particle_clouds,
+    MapError, Progress, Replay, SEARCHED_POD_THRESHOLD, SearchLog, SearchReport, particle_clouds,
 };
 use geo::{Coord, LineString, Polygon};
 use ndarray::Array2;
@@ -462,6 +462,70 @@ pub fn review(
     progress: Progress<'_>,
 ) -> Result<Review, ReviewError> {
     let reference = incident.reference_time;
+    let (end, end_reason) = review_end(incident, outcome)?;
+    let mut not_computed = Vec::new();
+    let applied_defs: Vec<&SearchDef> = incident.searches.iter().filter(|s| s.end <= end).collect();
+    let mut periods = group_periods(&applied_defs);
+    let hours = whole_hours_after(reference, end);
+    let checkpoints = checkpoints(reference, end, &hours, &applied_defs, &periods);
+    let extra: Vec<Time> = checkpoints.keys().copied().collect();
+    let replay = Replay::start(incident, Some(end), &extra, progress)?;
+    add_period_effort(&mut periods, &replay);
+    let truth = locate_truth(outcome, &replay, &mut not_computed)?;
+    let truth_cell = truth.as_ref().and_then(|t| t.cell);
+    let pass = replay_once(
+        &replay,
+        &checkpoints,
+        &mut periods,
+        truth_cell,
+        &mut not_computed,
+    )?;
+    let searches = reviewed_searches(&replay, &pass.reports, &periods, truth.as_ref())?;
+    note_missing_searches(incident, &periods, &mut not_computed);
+    add_period_results(&mut periods, &searches, &pass.reports, truth.as_ref());
+    let order = in_applied_order(&pass.reports, &searches);
+    let units = effort_by_unit(&order);
+    let timeline = timeline_rows(pass.rows, &order, &units, &periods, reference, &hours);
+    let pod_at_truth_cumulative = truth.as_ref().map(|_| pod_at_truth_cumulative(&searches));
+    let scores = match (&truth, truth_cell) {
+        (Some(t), Some(cell)) => score(incident, &replay, t, cell, &mut not_computed)?,
+        _ => {
+            note_unscored(outcome, &mut not_computed);
+            unscored(incident, &replay)
+        }
+    };
+    Ok(Review {
+        title: incident.title.clone(),
+        reference_time: reference,
+        end,
+        end_reason,
+        outcome: outcome.cloned(),
+        truth,
+        frame: replay.prepared.frame.clone(),
+        grid: replay.grid,
+        searches,
+        units,
+        periods,
+        timeline,
+        pos_cumulative: 1.0 - pass.miss_all,
+        pod_at_truth_cumulative,
+        pool: scores.pool,
+        analysts: scores.analysts,
+        scenarios: scores.scenarios,
+        not_computed,
+    })
+}
+
+/// When the review ends and why: the outcome's time; without an outcome, the last search's
+/// end, or the reference time when no search ends after it.
+///
+/// # Errors
+/// [`ReviewError::OutcomeBeforeReference`] when the outcome precedes the reference time.
+fn review_end(
+    incident: &Incident,
+    outcome: Option<&Outcome>,
+) -> Result<(Time, ReviewEnd), ReviewError> {
+    let reference = incident.reference_time;
     let last_end = incident.searches.iter().map(|s| s.end).max();
     let (end, end_reason) = match outcome {
         Some(o @ Outcome::Found { .. }) => (o.time(), ReviewEnd::Found),
@@ -477,17 +541,23 @@ pub fn review(
             reference,
         });
     }
-    let mut not_computed = Vec::new();
+    Ok((end, end_reason))
+}
 
-    // The periods of the searches that will be applied, and every time the replay visits.
-    let applied_defs: Vec<&SearchDef> = incident.searches.iter().filter(|s| s.end <= end).collect();
-    let mut periods = group_periods(&applied_defs);
-    let hours = whole_hours_after(reference, end);
+/// Every time the replay visits, with what happens there: a timeline row at the reference
+/// time, each whole hour, each search's end and the review's end; the start of each period.
+fn checkpoints(
+    reference: Time,
+    end: Time,
+    hours: &[Time],
+    applied_defs: &[&SearchDef],
+    periods: &[Period],
+) -> BTreeMap<Time, Checkpoint> {
     let mut checkpoints: BTreeMap<Time, Checkpoint> = BTreeMap::new();
     for t in hours.iter().copied().chain([reference, end]) {
         checkpoints.entry(t).or_default().row = true;
     }
-    for s in &applied_defs {
+    for s in applied_defs {
         let c = checkpoints.entry(s.end).or_default();
         c.row = true;
         c.ended.push(s.id.clone());
@@ -499,10 +569,12 @@ pub fn review(
             .period_starts
             .push(k);
     }
-    let extra: Vec<Time> = checkpoints.keys().copied().collect();
+    checkpoints
+}
 
-    let replay = Replay::start(incident, Some(end), &extra, progress)?;
-    for p in &mut periods {
+/// Adds to each period the effort of its searches (area swept, track length, count).
+fn add_period_effort(periods: &mut [Period], replay: &Replay) {
+    for p in periods {
         for s in replay
             .prepared
             .searches
@@ -515,89 +587,108 @@ pub fn review(
             p.effort.searches += 1;
         }
     }
-    let grid = replay.grid;
-    let frame = replay.prepared.frame.clone();
-    let cell_km2 = grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
-    let clouds = particle_clouds(&replay.drift_runs);
+}
 
-    let truth = match outcome {
-        Some(Outcome::Found {
-            position,
-            time,
-            position_error_m,
-            ..
-        }) => {
-            let [lon, lat] = *position;
-            let xy = frame
-                .checked_to_xy(lon, lat)
-                .map_err(|e| ReviewError::Position {
-                    lon,
-                    lat,
-                    source: Box::new(e),
-                })?;
-            let cell = grid.locate(xy);
-            if cell.is_none() {
-                not_computed.push(NotComputed {
-                    what: "density, rank and scores at the found position".into(),
-                    why: "the found position lies outside the grid; give [grid] bounds that contain it".into(),
-                });
-            }
-            Some(Truth {
-                lon_lat: *position,
-                xy,
-                time: *time,
-                position_error_m: *position_error_m,
-                cell,
-            })
-        }
-        _ => None,
+/// The found position in the working frame and its grid cell; `None` without a found
+/// position. Notes in `not_computed` a found position outside the grid.
+///
+/// # Errors
+/// [`ReviewError::Position`] when the found position cannot be projected.
+fn locate_truth(
+    outcome: Option<&Outcome>,
+    replay: &Replay,
+    not_computed: &mut Vec<NotComputed>,
+) -> Result<Option<Truth>, ReviewError> {
+    let Some(Outcome::Found {
+        position,
+        time,
+        position_error_m,
+        ..
+    }) = outcome
+    else {
+        return Ok(None);
     };
-    let truth_cell = truth.as_ref().and_then(|t| t.cell);
+    let [lon, lat] = *position;
+    let xy = replay
+        .prepared
+        .frame
+        .checked_to_xy(lon, lat)
+        .map_err(|e| ReviewError::Position {
+            lon,
+            lat,
+            source: Box::new(e),
+        })?;
+    let cell = replay.grid.locate(xy);
+    if cell.is_none() {
+        not_computed.push(NotComputed {
+            what: "density, rank and scores at the found position".into(),
+            why: "the found position lies outside the grid; give [grid] bounds that contain it"
+                .into(),
+        });
+    }
+    Ok(Some(Truth {
+        lon_lat: *position,
+        xy,
+        time: *time,
+        position_error_m: *position_error_m,
+        cell,
+    }))
+}
 
-    // One pass: searches applied in order, the belief read at every checkpoint, the
-    // counterfactual chain advanced at every period start.
+/// What the single pass over the checkpoints leaves behind.
+struct Pass {
+    /// The timeline rows before their running totals.
+    rows: Vec<RowDraft>,
+    /// The probability all applied searches missed (1 − cumulative POS).
+    miss_all: f64,
+    /// The applied searches' reports, in the order applied.
+    reports: Vec<SearchReport>,
+}
+
+/// One pass: searches applied in order, the belief read at every checkpoint, and the
+/// counterfactual chain advanced and each period's optimal allocation filled in at every
+/// period start. Notes in `not_computed` a period whose optimum could not be computed.
+///
+/// # Errors
+/// A search, drift or counterfactual that cannot be applied.
+fn replay_once(
+    replay: &Replay,
+    checkpoints: &BTreeMap<Time, Checkpoint>,
+    periods: &mut [Period],
+    truth_cell: Option<(usize, usize)>,
+    not_computed: &mut Vec<NotComputed>,
+) -> Result<Pass, ReviewError> {
+    let cell_km2 = replay.grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
+    let clouds = particle_clouds(&replay.drift_runs);
     let drifting = replay.drifting();
     let mut log = SearchLog::new(replay.belief_before_searches.clone());
-    let mut chain = (!periods.is_empty()).then(|| replay.belief_before_searches.clone());
-    let mut miss_chain = 1.0;
+    let mut chain = Counterfactual::new(replay, periods);
     let mut applied = replay.to_apply().peekable();
     let mut rows = Vec::new();
-    for (&t, cp) in &checkpoints {
+    for (&t, cp) in checkpoints {
         while let Some(s) = applied.next_if(|s| s.def.end <= t) {
             log.apply(s, &drifting)?;
         }
         drifting.move_particles(&mut log.belief, t)?;
-        if let Some(chain) = chain.as_mut().filter(|_| !cp.period_starts.is_empty()) {
-            drifting.move_particles(chain, t)?;
+        if let Some(belief) = chain
+            .belief
+            .as_mut()
+            .filter(|_| !cp.period_starts.is_empty())
+        {
+            drifting.move_particles(belief, t)?;
         }
         for &k in &cp.period_starts {
-            let p = &mut periods[k];
-            let effort = p.effort.area_swept_m2;
-            let same = optimum(&log.belief, effort, truth_cell);
-            let chained = match chain.as_mut() {
-                Some(c) => optimum_applied(c, effort, truth_cell, &p.id)?,
-                None => None,
-            };
-            match (same, chained) {
-                (Some((pos_same, pod_same)), Some((pos_chain, pod_chain))) => {
-                    miss_chain *= 1.0 - pos_chain;
-                    p.optimal = Some(OptimalPeriod {
-                        pos_same_belief: pos_same,
-                        pod_at_truth_same_belief: pod_same,
-                        pos_chain,
-                        pos_cumulative_chain: 1.0 - miss_chain,
-                        pod_at_truth_chain: pod_chain,
-                    });
-                }
-                _ => not_computed.push(NotComputed {
-                    what: format!("the optimal allocation of period {}", p.id),
-                    why: "no probability lies inside the grid at the period's start (all of it is rest of world or particles outside the grid)".into(),
-                }),
-            }
+            chain.fill_period(&log.belief, &mut periods[k], truth_cell, not_computed)?;
         }
         if cp.row {
-            let truth_at = match truth_cell {
-                Some(cell) => Some(truth_at(&log.belief, &grid, &clouds, cell, cell_km2)?),
+            let truth = match truth_cell {
+                Some(cell) => Some(truth_at(
+                    &log.belief,
+                    &replay.grid,
+                    &clouds,
+                    cell,
+                    cell_km2,
+                )?),
                 None => None,
             };
             rows.push(RowDraft {
@@ -605,14 +696,85 @@ pub fn review(
                 ended: cp.ended.clone(),
                 applied: log.reports.len(),
                 pos_cumulative: 1.0 - log.miss_all,
-                truth: truth_at,
+                truth,
             });
         }
     }
-    let miss = log.miss_all;
-    let reports = log.reports;
+    Ok(Pass {
+        rows,
+        miss_all: log.miss_all,
+        reports: log.reports,
+    })
+}
 
-    // Every logged search, with its POD at the truth.
+/// The counterfactual chain: the belief had every period so far been searched by its optimal
+/// allocation, and the probability all those optimal searches missed.
+struct Counterfactual {
+    /// The chained belief; `None` when there is no period.
+    belief: Option<Belief>,
+    /// Product of (1 − POS) of the optimal allocations applied so far.
+    miss: f64,
+}
+
+impl Counterfactual {
+    /// The chain at the reference time: the belief before any search, when there are periods.
+    fn new(replay: &Replay, periods: &[Period]) -> Self {
+        Self {
+            belief: (!periods.is_empty()).then(|| replay.belief_before_searches.clone()),
+            miss: 1.0,
+        }
+    }
+
+    /// Fills in `period.optimal` at its start: the optimal allocation of its effort against
+    /// the belief as it was (`belief`) and against the chain, which it then advances. Notes
+    /// in `not_computed` a period where either has no probability in the grid.
+    ///
+    /// # Errors
+    /// [`ReviewError::Counterfactual`] when the optimal search cannot be applied to the chain.
+    fn fill_period(
+        &mut self,
+        belief: &Belief,
+        period: &mut Period,
+        truth_cell: Option<(usize, usize)>,
+        not_computed: &mut Vec<NotComputed>,
+    ) -> Result<(), ReviewError> {
+        let effort = period.effort.area_swept_m2;
+        let same = optimum(belief, effort, truth_cell);
+        let chained = match self.belief.as_mut() {
+            Some(c) => optimum_applied(c, effort, truth_cell, &period.id)?,
+            None => None,
+        };
+        match (same, chained) {
+            (Some(same), Some(chain)) => {
+                self.miss *= 1.0 - chain.pos;
+                period.optimal = Some(OptimalPeriod {
+                    pos_same_belief: same.pos,
+                    pod_at_truth_same_belief: same.pod_at_truth,
+                    pos_chain: chain.pos,
+                    pos_cumulative_chain: 1.0 - self.miss,
+                    pod_at_truth_chain: chain.pod_at_truth,
+                });
+            }
+            _ => not_computed.push(NotComputed {
+                what: format!("the optimal allocation of period {}", period.id),
+                why: "no probability lies inside the grid at the period's start (all of it is rest of world or particles outside the grid)".into(),
+            }),
+        }
+        Ok(())
+    }
+}
+
+/// Every logged search in file order, with its geometry, effort, POS when applied and POD
+/// at the truth.
+///
+/// # Errors
+/// [`ReviewError::Search`] when a search's POD at the truth cannot be computed.
+fn reviewed_searches(
+    replay: &Replay,
+    reports: &[SearchReport],
+    periods: &[Period],
+    truth: Option<&Truth>,
+) -> Result<Vec<ReviewedSearch>, ReviewError> {
     let mut searches = Vec::new();
     for s in &replay.prepared.searches {
         let report = reports.iter().find(|r| r.id == s.def.id);
@@ -622,7 +784,7 @@ pub fn review(
         };
         let sweep_width_m = s.sweep_width.metres();
         let length = effort_length(s, track_length_m);
-        let pod_at_truth = match &truth {
+        let pod_at_truth = match truth {
             Some(t) => Some(pod_at(s, t.xy)?),
             None => None,
         };
@@ -647,21 +809,39 @@ pub fn review(
             track,
         });
     }
-    if incident.searches.is_empty() {
-        not_computed.push(NotComputed {
-            what: "POS, effort and the optimal allocation".into(),
-            why: "no search is logged in the incident".into(),
-        });
-    } else if periods.is_empty() {
-        not_computed.push(NotComputed {
-            what: "POS, effort and the optimal allocation".into(),
-            why: "no logged search ended by the end of the review".into(),
-        });
-    }
+    Ok(searches)
+}
 
-    // Per period: what its searches achieved.
+/// Notes in `not_computed` why there is no POS, effort or optimum: no search logged, or
+/// none ended by the end of the review.
+fn note_missing_searches(
+    incident: &Incident,
+    periods: &[Period],
+    not_computed: &mut Vec<NotComputed>,
+) {
+    let why = if incident.searches.is_empty() {
+        "no search is logged in the incident"
+    } else if periods.is_empty() {
+        "no logged search ended by the end of the review"
+    } else {
+        return;
+    };
+    not_computed.push(NotComputed {
+        what: "POS, effort and the optimal allocation".into(),
+        why: why.into(),
+    });
+}
+
+/// Fills in what each period's searches achieved: its POS, its POD at the truth (when there
+/// is a found position) and the cumulative POS at its end.
+fn add_period_results(
+    periods: &mut [Period],
+    searches: &[ReviewedSearch],
+    reports: &[SearchReport],
+    truth: Option<&Truth>,
+) {
     let by_id = |id: &str| searches.iter().find(|s| s.id == id);
-    for p in &mut periods {
+    for p in periods {
         let mut miss_p = 1.0;
         let mut miss_truth = 1.0;
         for id in &p.searches {
@@ -671,7 +851,7 @@ pub fn review(
             }
         }
         p.pos = 1.0 - miss_p;
-        p.pod_at_truth = truth.as_ref().map(|_| 1.0 - miss_truth);
+        p.pod_at_truth = truth.map(|_| 1.0 - miss_truth);
         p.pos_cumulative = 1.0
             - reports
                 .iter()
@@ -679,14 +859,23 @@ pub fn review(
                 .map(|r| 1.0 - r.pos)
                 .product::<f64>();
     }
+}
 
-    // Effort by unit and the timeline's running totals.
-    let order: Vec<&ReviewedSearch> = reports
+/// The applied searches in the order they were applied.
+fn in_applied_order<'a>(
+    reports: &[SearchReport],
+    searches: &'a [ReviewedSearch],
+) -> Vec<&'a ReviewedSearch> {
+    reports
         .iter()
         .filter_map(|r| searches.iter().find(|s| s.id == r.id))
-        .collect();
+        .collect()
+}
+
+/// Effort by unit, units in the order of their first applied search.
+fn effort_by_unit(order: &[&ReviewedSearch]) -> Vec<UnitEffort> {
     let mut units: Vec<UnitEffort> = Vec::new();
-    for s in &order {
+    for s in order {
         match units.iter_mut().find(|u| u.unit == s.unit) {
             Some(u) => u.effort.add(s),
             None => {
@@ -699,8 +888,19 @@ pub fn review(
             }
         }
     }
-    let timeline = rows
-        .into_iter()
+    units
+}
+
+/// The timeline: each row with its running effort in total, by unit and by period.
+fn timeline_rows(
+    rows: Vec<RowDraft>,
+    order: &[&ReviewedSearch],
+    units: &[UnitEffort],
+    periods: &[Period],
+    reference: Time,
+    hours: &[Time],
+) -> Vec<TimelineRow> {
+    rows.into_iter()
         .map(|r| {
             let mut effort = Effort::default();
             let mut by_unit = vec![Effort::default(); units.len()];
@@ -728,56 +928,34 @@ pub fn review(
                 truth: r.truth,
             }
         })
-        .collect();
+        .collect()
+}
 
-    let pod_at_truth_cumulative = truth.as_ref().map(|_| {
-        1.0 - searches
-            .iter()
-            .filter(|s| s.applied)
-            .map(|s| 1.0 - s.pod_at_truth.unwrap_or(0.0))
-            .product::<f64>()
-    });
+/// The probability the applied searches together would have detected the target at the
+/// found position: 1 − Π(1 − POD at the truth).
+fn pod_at_truth_cumulative(searches: &[ReviewedSearch]) -> f64 {
+    1.0 - searches
+        .iter()
+        .filter(|s| s.applied)
+        .map(|s| 1.0 - s.pod_at_truth.unwrap_or(0.0))
+        .product::<f64>()
+}
 
-    let scored = match (&truth, truth_cell) {
-        (Some(t), Some(cell)) => Some(score(incident, &replay, t, cell, &mut not_computed)?),
-        _ => None,
-    };
-    let (pool, analysts, scenarios) = match scored {
-        Some(s) => (Some(s.pool), s.analysts, s.scenarios),
-        None => {
-            if outcome.is_none() || matches!(outcome, Some(Outcome::Suspended { .. })) {
-                not_computed.push(NotComputed {
-                    what: "everything that needs the found position: its POC, density and rank over time, the searches that covered it and their POD there, the POD the optimal allocation would have put there, and each analyst's and scenario's density, log score, bias and implied weight".into(),
-                    why: match outcome {
-                        None => "the incident gives no outcome; add an [outcome] with the found position and time".into(),
-                        _ => "the search was suspended: there is no found position to score against".into(),
-                    },
-                });
-            }
-            unscored(incident, &replay)
+/// Notes in `not_computed` why nothing is scored at the found position when the outcome
+/// gives none (no outcome, or suspended); a found position outside the grid was noted
+/// already.
+fn note_unscored(outcome: Option<&Outcome>, not_computed: &mut Vec<NotComputed>) {
+    let why = match outcome {
+        None => "the incident gives no outcome; add an [outcome] with the found position and time",
+        Some(Outcome::Suspended { .. }) => {
+            "the search was suspended: there is no found position to score against"
         }
+        Some(Outcome::Found { .. }) => return,
     };
-
-    Ok(Review {
-        title: incident.title.clone(),
-        reference_time: reference,
-        end,
-        end_reason,
-        outcome: outcome.cloned(),
-        truth,
-        frame,
-        grid,
-        searches,
-        units,
-        periods,
-        timeline,
-        pos_cumulative: 1.0 - miss,
-        pod_at_truth_cumulative,
-        pool,
-        analysts,
-        scenarios,
-        not_computed,
-    })
+    not_computed.push(NotComputed {
+        what: "everything that needs the found position: its POC, density and rank over time, the searches that covered it and their POD there, the POD the optimal allocation would have put there, and each analyst's and scenario's density, log score, bias and implied weight".into(),
+        why: why.into(),
+    });
 }
 
 /// What happens at one time of the replay.
@@ -946,16 +1124,24 @@ fn binned(belief: &Belief) -> Array2<f64> {
     cells
 }
 
-/// The optimal allocation of `effort_m2` against `belief`: its POS and its POD in the truth's
-/// cell; `None` when no mass lies in the grid.
-fn optimum(
-    belief: &Belief,
-    effort_m2: f64,
-    truth: Option<(usize, usize)>,
-) -> Option<(f64, Option<f64>)> {
+/// What an optimal allocation achieves.
+#[derive(Debug, Clone, Copy)]
+struct Optimum {
+    /// Its POS.
+    pos: f64,
+    /// Its POD in the truth's cell, when the truth lies in the grid.
+    pod_at_truth: Option<f64>,
+}
+
+/// The optimal allocation of `effort_m2` against `belief`; `None` when no mass lies in the
+/// grid.
+fn optimum(belief: &Belief, effort_m2: f64, truth: Option<(usize, usize)>) -> Option<Optimum> {
     let cells = binned(belief);
     let a = search::optimal_allocation(&cells, belief.grid().cell_area_m2(), effort_m2).ok()?;
-    Some((a.pos, truth.map(|c| -(-a.coverage[c]).exp_m1())))
+    Some(Optimum {
+        pos: a.pos,
+        pod_at_truth: truth.map(|c| -(-a.coverage[c]).exp_m1()),
+    })
 }
 
 /// As [`optimum`], and applies the allocation's POD to `belief` as an unsuccessful search.
@@ -964,7 +1150,7 @@ fn optimum_applied(
     effort_m2: f64,
     truth: Option<(usize, usize)>,
     period: &str,
-) -> Result<Option<(f64, Option<f64>)>, ReviewError> {
+) -> Result<Option<Optimum>, ReviewError> {
     let cells = binned(belief);
     let grid = *belief.grid();
     let Ok(a) = search::optimal_allocation(&cells, grid.cell_area_m2(), effort_m2) else {
@@ -982,7 +1168,10 @@ fn optimum_applied(
     let pod_truth = truth.map(|c| pod[c]);
     let layer = search::PodLayer::from_dense(grid, pod).map_err(err)?;
     search::update_after_miss(belief, &layer, &particle_pod).map_err(err)?;
-    Ok(Some((a.pos, pod_truth)))
+    Ok(Some(Optimum {
+        pos: a.pos,
+        pod_at_truth: pod_truth,
+    }))
 }
 
 /// The belief at the truth's cell: probability, density and rank.
@@ -1012,7 +1201,8 @@ fn truth_at(
 
 /// The scores of the pool, analysts and scenarios.
 struct Scores {
-    pool: PoolScore,
+    /// `None` without a found position in the grid.
+    pool: Option<PoolScore>,
     analysts: Vec<AnalystScore>,
     scenarios: Vec<ScenarioScore>,
 }
@@ -1061,10 +1251,7 @@ fn within_weights(replay: &Replay) -> Vec<f64> {
 }
 
 /// Analysts and scenarios without a truth to score against.
-fn unscored(
-    incident: &Incident,
-    replay: &Replay,
-) -> (Option<PoolScore>, Vec<AnalystScore>, Vec<ScenarioScore>) {
+fn unscored(incident: &Incident, replay: &Replay) -> Scores {
     let within = within_weights(replay);
     let analysts = replay
         .prepared
@@ -1095,10 +1282,18 @@ fn unscored(
             log_score: None,
         })
         .collect();
-    (None, analysts, scenarios)
+    Scores {
+        pool: None,
+        analysts,
+        scenarios,
+    }
 }
 
-/// Densities at the truth, log scores, biases and implied weights.
+/// Densities at the truth, log scores, biases and implied weights. Notes in `not_computed`
+/// implied weights that cannot be computed.
+///
+/// # Errors
+/// A scenario or drift run that cannot be placed on the grid.
 fn score(
     incident: &Incident,
     replay: &Replay,
@@ -1106,13 +1301,56 @@ fn score(
     cell: (usize, usize),
     not_computed: &mut Vec<NotComputed>,
 ) -> Result<Scores, ReviewError> {
-    let grid = &replay.grid;
-    let frame = &replay.prepared.frame;
-    let cell_km2 = grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
+    let cell_km2 = replay.grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
     let within = within_weights(replay);
+    let mut at = stationary_at_truth(replay, cell, cell_km2)?;
+    let drift_part = drift_at_truth(replay, truth, cell, cell_km2, &mut at)?;
+    let scenarios = scenario_scores(incident, replay, &within, &at);
+    // The pool: the belief before any search, at the found time.
+    let pool_density = replay.belief_before_searches.cells()[cell] / cell_km2 + drift_part;
+    let pool_log = log_score(pool_density);
+    let mut analysts: Vec<AnalystScore> = replay
+        .prepared
+        .analyst_weights
+        .iter()
+        .map(|(id, w)| {
+            let of_analyst = AnalystScenarios {
+                scenarios: &scenarios,
+                within: &within,
+                at: &at,
+            };
+            analyst_score(id, *w, &of_analyst, replay, truth, pool_log)
+        })
+        .collect();
+    add_implied_weights(&mut analysts, not_computed);
+    let pool = PoolScore {
+        density_per_km2: pool_density,
+        log_score: pool_log,
+        analysts_beaten: analysts
+            .iter()
+            .filter(|a| a.pool_scored_higher == Some(true))
+            .count(),
+        analysts: analysts.len(),
+    };
+    Ok(Scores {
+        pool: Some(pool),
+        analysts,
+        scenarios,
+    })
+}
 
-    // Each scenario, by id.
-    let mut at: BTreeMap<String, ScenarioAtTruth> = BTreeMap::new();
+/// Each stationary scenario's density in the truth's cell and the mean of its in-grid mass,
+/// by scenario id.
+///
+/// # Errors
+/// [`ReviewError::Scenario`] when a scenario's mass cannot be put on the grid.
+fn stationary_at_truth(
+    replay: &Replay,
+    cell: (usize, usize),
+    cell_km2: f64,
+) -> Result<BTreeMap<String, ScenarioAtTruth>, ReviewError> {
+    let grid = &replay.grid;
+    let mut at = BTreeMap::new();
     for sc in &replay.prepared.stationary {
         let m = prior::scenario_mass(&sc.shape, grid).map_err(|e| ReviewError::Scenario {
             id: sc.id.clone(),
@@ -1140,6 +1378,21 @@ fn score(
             },
         );
     }
+    Ok(at)
+}
+
+/// Adds each drift scenario's density in the truth's cell at the found time and the mean of
+/// its particles to `at`; returns the drift scenarios' pooled density there (per km²).
+///
+/// # Errors
+/// [`ReviewError::Belief`] when a drift run's particles are invalid.
+fn drift_at_truth(
+    replay: &Replay,
+    truth: &Truth,
+    cell: (usize, usize),
+    cell_km2: f64,
+    at: &mut BTreeMap<String, ScenarioAtTruth>,
+) -> Result<f64, ReviewError> {
     let mut drift_part = 0.0;
     for (d, (_, run)) in replay.prepared.drift.iter().zip(&replay.drift_runs) {
         let snap = run.positions_at(truth.time);
@@ -1150,7 +1403,7 @@ fn score(
         };
         let particles = Particles::new(snap.x_m, snap.y_m, vec![1.0 / n as f64; n], snap.stranded)
             .map_err(ReviewError::Belief)?;
-        let density = kernel::mass_in_cell(grid, &particles, 0..n, cell) / cell_km2;
+        let density = kernel::mass_in_cell(&replay.grid, &particles, 0..n, cell) / cell_km2;
         drift_part += d.mass * density;
         at.insert(
             d.id.clone(),
@@ -1161,69 +1414,97 @@ fn score(
             },
         );
     }
+    Ok(drift_part)
+}
 
-    let mut scenarios = Vec::new();
-    for ((s, (_, _, mass)), w) in incident
+/// Each scenario's weights, density at the truth and log score, in file order.
+fn scenario_scores(
+    incident: &Incident,
+    replay: &Replay,
+    within: &[f64],
+    at: &BTreeMap<String, ScenarioAtTruth>,
+) -> Vec<ScenarioScore> {
+    incident
         .scenarios
         .iter()
         .zip(&replay.prepared.scenario_weights)
-        .zip(&within)
-    {
-        let d = at.get(&s.id).map(|a| a.density_per_km2);
-        scenarios.push(ScenarioScore {
-            id: s.id.clone(),
-            analyst: s.analyst.clone(),
-            kind: kind_name(&s.kind),
-            weight_within_analyst: *w,
-            weight_in_pool: *mass,
-            density_per_km2: d,
-            log_score: d.map(log_score),
-        });
-    }
-
-    // The pool: the belief before any search, at the found time.
-    let pool_density = replay.belief_before_searches.cells()[cell] / cell_km2 + drift_part;
-    let pool_log = log_score(pool_density);
-
-    let mut analysts = Vec::new();
-    for (id, w) in &replay.prepared.analyst_weights {
-        // The analyst's mean: their scenarios' means, each weighted by the scenario's weight
-        // times the share of it whose position is known.
-        let (mut f, mut m, mut mx, mut my) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
-        for (s, w_s) in scenarios.iter().zip(&within) {
-            if s.analyst != *id {
-                continue;
+        .zip(within)
+        .map(|((s, (_, _, mass)), w)| {
+            let d = at.get(&s.id).map(|a| a.density_per_km2);
+            ScenarioScore {
+                id: s.id.clone(),
+                analyst: s.analyst.clone(),
+                kind: kind_name(&s.kind),
+                weight_within_analyst: *w,
+                weight_in_pool: *mass,
+                density_per_km2: d,
+                log_score: d.map(log_score),
             }
-            if let Some(a) = at.get(&s.id) {
-                f.push(w_s * a.density_per_km2);
-                if let Some(mean) = a.mean {
-                    let k = w_s * a.known;
-                    m.push(k);
-                    mx.push(k * mean.x);
-                    my.push(k * mean.y);
-                }
+        })
+        .collect()
+}
+
+/// The scenarios an analyst's score is built from.
+struct AnalystScenarios<'a> {
+    /// Every scenario's score, in file order.
+    scenarios: &'a [ScenarioScore],
+    /// Each scenario's weight within its analyst, same order.
+    within: &'a [f64],
+    /// Each scenario at the truth, by id.
+    at: &'a BTreeMap<String, ScenarioAtTruth>,
+}
+
+/// One analyst's density and log score at the truth, whether the pool scored higher, and the
+/// bias of their mean; the implied weight is filled in later.
+fn analyst_score(
+    id: &str,
+    weight_used: f64,
+    of: &AnalystScenarios<'_>,
+    replay: &Replay,
+    truth: &Truth,
+    pool_log: f64,
+) -> AnalystScore {
+    // The analyst's mean: their scenarios' means, each weighted by the scenario's weight
+    // times the share of it whose position is known.
+    let (mut f, mut m, mut mx, mut my) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+    for (s, w_s) in of.scenarios.iter().zip(of.within) {
+        if s.analyst != id {
+            continue;
+        }
+        if let Some(a) = of.at.get(&s.id) {
+            f.push(w_s * a.density_per_km2);
+            if let Some(mean) = a.mean {
+                let k = w_s * a.known;
+                m.push(k);
+                mx.push(k * mean.x);
+                my.push(k * mean.y);
             }
         }
-        let density = neumaier_sum(f);
-        let score = log_score(density);
-        let mass = neumaier_sum(m);
-        let bias = (mass > 0.0).then(|| {
-            let mean = Coord {
-                x: neumaier_sum(mx) / mass,
-                y: neumaier_sum(my) / mass,
-            };
-            bias(frame, mean, truth.xy)
-        });
-        analysts.push(AnalystScore {
-            id: id.clone(),
-            weight_used: *w,
-            density_per_km2: Some(density),
-            log_score: Some(score),
-            pool_scored_higher: Some(pool_log > score),
-            bias,
-            implied_weight: None,
-        });
     }
+    let density = neumaier_sum(f);
+    let score = log_score(density);
+    let mass = neumaier_sum(m);
+    let bias = (mass > 0.0).then(|| {
+        let mean = Coord {
+            x: neumaier_sum(mx) / mass,
+            y: neumaier_sum(my) / mass,
+        };
+        bias(&replay.prepared.frame, mean, truth.xy)
+    });
+    AnalystScore {
+        id: id.to_owned(),
+        weight_used,
+        density_per_km2: Some(density),
+        log_score: Some(score),
+        pool_scored_higher: Some(pool_log > score),
+        bias,
+        implied_weight: None,
+    }
+}
+
+/// Fills in each analyst's implied weight (Bayes' rule on the weights used and the densities
+/// at the truth); notes in `not_computed` when it cannot be computed.
+fn add_implied_weights(analysts: &mut [AnalystScore], not_computed: &mut Vec<NotComputed>) {
     let weights: Vec<f64> = analysts.iter().map(|a| a.weight_used).collect();
     let densities: Vec<f64> = analysts
         .iter()
@@ -1240,20 +1521,6 @@ fn score(
             why: e.to_string(),
         }),
     }
-    let pool = PoolScore {
-        density_per_km2: pool_density,
-        log_score: pool_log,
-        analysts_beaten: analysts
-            .iter()
-            .filter(|a| a.pool_scored_higher == Some(true))
-            .count(),
-        analysts: analysts.len(),
-    };
-    Ok(Scores {
-        pool,
-        analysts,
-        scenarios,
-    })
 }
 
 /// Distance and true bearing from `mean` to `truth`.

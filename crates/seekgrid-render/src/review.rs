@@ -9,7 +9,7 @@ use crate::summary::CAUTION;
 use crate::{self as render, OutputDir, RenderError};
 use geojson::{Feature, JsonObject};
 use seekgrid_engine::review::{
-    AnalystScore, Effort, Outcome, Period, Review, ReviewEnd, ReviewedSearch, TimelineRow,
+    AnalystScore, Effort, Outcome, Period, Review, ReviewEnd, ReviewedSearch, TimelineRow, TruthAt,
 };
 use seekgrid_engine::timeline::SEARCHED_POD_THRESHOLD;
 use seekgrid_incident::model::Time;
@@ -547,13 +547,37 @@ fn hm(t: Time) -> String {
     t.format("%Y-%m-%d %H:%M").to_string()
 }
 
-/// The reviewer's report, `review.md`.
+/// The reviewer's report, `review.md`: the caution, then one section after another.
 #[must_use]
 pub fn review_markdown(r: &Review) -> String {
     let mut md = String::new();
     let _ = writeln!(md, "# Incident review: {}\n", r.title);
     let _ = writeln!(md, "> **Caution.** {CAUTION}\n");
+    summary(&mut md, r);
+    timeline(&mut md, r);
+    effort_by_unit(&mut md, r);
+    searches_over_found(&mut md, r);
+    analysts(&mut md, r);
+    scenarios(&mut md, r);
+    same_effort_optimal(&mut md, r);
+    not_computed(&mut md, r);
+    let _ = writeln!(md, "> **Caution.** {CAUTION}");
+    md
+}
+
+/// Summary: how the review ends, the effort and cumulative POS, and how the belief and the
+/// pooled prior rated the found position.
+fn summary(md: &mut String, r: &Review) {
     let _ = writeln!(md, "## Summary\n");
+    summary_outcome(md, r);
+    summary_effort(md, r);
+    summary_found_position(md, r);
+    let _ = writeln!(md);
+}
+
+/// The summary's first lines: the reference time, how the review ends, the found position's
+/// stated error and the outcome's note.
+fn summary_outcome(md: &mut String, r: &Review) {
     let ending = match (&r.end_reason, &r.outcome) {
         (ReviewEnd::Found, Some(Outcome::Found { position, .. })) => format!(
             "the object was found at {:.5}, {:.5} (lon, lat) at {} UTC",
@@ -588,6 +612,11 @@ pub fn review_markdown(r: &Review) -> String {
     {
         let _ = writeln!(md, "- Note: {n}");
     }
+}
+
+/// The summary's effort lines: searches applied, area swept, cumulative POS, and the searches
+/// that covered the found position.
+fn summary_effort(md: &mut String, r: &Review) {
     let applied = r.searches.iter().filter(|s| s.applied).count();
     let total: f64 = r.units.iter().map(|u| u.effort.area_swept_m2).sum();
     let _ = writeln!(
@@ -606,6 +635,11 @@ pub fn review_markdown(r: &Review) -> String {
             SEARCHED_POD_THRESHOLD * 100.0
         );
     }
+}
+
+/// The summary's lines on the found position: how the belief at the end and the pooled prior
+/// rated it.
+fn summary_found_position(md: &mut String, r: &Review) {
     if let Some(t) = r.timeline.last().and_then(|row| row.truth) {
         let _ = writeln!(
             md,
@@ -622,8 +656,10 @@ pub fn review_markdown(r: &Review) -> String {
             p.analysts
         );
     }
-    let _ = writeln!(md);
+}
 
+/// Timeline: running totals at each checkpoint, with the belief at the found position when there is one.
+fn timeline(md: &mut String, r: &Review) {
     let _ = writeln!(md, "## Timeline\n");
     let with_truth = r.timeline.iter().any(|row| row.truth.is_some());
     let _ = writeln!(md, "Cumulative over the searches ended by each time.");
@@ -651,88 +687,107 @@ pub fn review_markdown(r: &Review) -> String {
     }
     let _ = writeln!(md);
     for row in &r.timeline {
-        let _ = write!(
-            md,
-            "| {} | {:.2} | {} | {} | {:.3} | {:.1} | {:.1} |",
-            hm(row.time),
-            row.hours_since_reference,
-            row.searches_ended.join(", "),
-            row.searches_applied,
-            row.pos_cumulative,
-            row.effort.area_swept_m2 / seekgrid_core::units::M2_PER_KM2,
-            row.effort.track_length_m / METRES_PER_KM,
-        );
+        timeline_row(md, row);
         if with_truth {
-            let t = row.truth;
-            let _ = write!(
-                md,
-                " {} | {} | {} | {} |",
-                t.map_or_else(|| "–".into(), |t| format!("{:.2e}", t.poc)),
-                opt(t.map(|t| t.density_per_km2), 4),
-                opt(t.map(|t| t.rank.mass_above), 3),
-                opt(t.map(|t| t.rank.area_above_km2), 1),
-            );
+            timeline_found_cells(md, row.truth);
         }
         let _ = writeln!(md);
     }
     let _ = writeln!(md);
+}
 
-    if !r.units.is_empty() {
-        let _ = writeln!(md, "## Effort by unit\n");
-        let _ = writeln!(md, "| unit | searches | swept km² | track km |");
-        let _ = writeln!(md, "|---|---:|---:|---:|");
-        for u in &r.units {
+/// One timeline row's common cells: time, hours, searches, cumulative POS and effort.
+fn timeline_row(md: &mut String, row: &TimelineRow) {
+    let _ = write!(
+        md,
+        "| {} | {:.2} | {} | {} | {:.3} | {:.1} | {:.1} |",
+        hm(row.time),
+        row.hours_since_reference,
+        row.searches_ended.join(", "),
+        row.searches_applied,
+        row.pos_cumulative,
+        row.effort.area_swept_m2 / seekgrid_core::units::M2_PER_KM2,
+        row.effort.track_length_m / METRES_PER_KM,
+    );
+}
+
+/// One timeline row's cells on the found position (dashes where it is not known).
+fn timeline_found_cells(md: &mut String, t: Option<TruthAt>) {
+    let _ = write!(
+        md,
+        " {} | {} | {} | {} |",
+        t.map_or_else(|| "–".into(), |t| format!("{:.2e}", t.poc)),
+        opt(t.map(|t| t.density_per_km2), 4),
+        opt(t.map(|t| t.rank.mass_above), 3),
+        opt(t.map(|t| t.rank.area_above_km2), 1),
+    );
+}
+
+/// Effort by unit (nothing when no search was applied).
+fn effort_by_unit(md: &mut String, r: &Review) {
+    if r.units.is_empty() {
+        return;
+    }
+    let _ = writeln!(md, "## Effort by unit\n");
+    let _ = writeln!(md, "| unit | searches | swept km² | track km |");
+    let _ = writeln!(md, "|---|---:|---:|---:|");
+    for u in &r.units {
+        let _ = writeln!(
+            md,
+            "| {} | {} | {:.1} | {:.1} |",
+            u.unit,
+            u.effort.searches,
+            u.effort.area_swept_m2 / seekgrid_core::units::M2_PER_KM2,
+            u.effort.track_length_m / METRES_PER_KM
+        );
+    }
+    let _ = writeln!(
+        md,
+        "\nTrack length of a parallel sweep or creeping line is its area over its track spacing (L = A/S), the length its coverage W/S is credited with.\n"
+    );
+}
+
+/// Searches over the found position: each with its POD there (nothing without a found position).
+fn searches_over_found(md: &mut String, r: &Review) {
+    if r.truth.is_none() {
+        return;
+    }
+    let _ = writeln!(md, "## Searches over the found position\n");
+    let covered: Vec<&ReviewedSearch> = r.searches.iter().filter(|s| s.covered_truth()).collect();
+    if covered.is_empty() {
+        let _ = writeln!(
+            md,
+            "No search gave the found position a POD of {:.0} % or more.\n",
+            SEARCHED_POD_THRESHOLD * 100.0
+        );
+    } else {
+        let _ = writeln!(
+            md,
+            "| search | unit | period | start – end (UTC) | detection | POD at the found position |"
+        );
+        let _ = writeln!(md, "|---|---|---|---|---|---:|");
+        for s in covered {
             let _ = writeln!(
                 md,
-                "| {} | {} | {:.1} | {:.1} |",
-                u.unit,
-                u.effort.searches,
-                u.effort.area_swept_m2 / seekgrid_core::units::M2_PER_KM2,
-                u.effort.track_length_m / METRES_PER_KM
+                "| {} | {} | {} | {} – {} | {} | {:.3} |",
+                s.id,
+                s.unit,
+                s.period.map_or("–", |k| r.periods[k].id.as_str()),
+                hm(s.start),
+                hm(s.end),
+                s.detection,
+                s.pod_at_truth.unwrap_or(0.0)
             );
         }
         let _ = writeln!(
             md,
-            "\nTrack length of a parallel sweep or creeping line is its area over its track spacing (L = A/S), the length its coverage W/S is credited with.\n"
+            "\nPOD of each search at the found place itself, from its pattern or track and detection law.\n"
         );
     }
+}
 
-    if r.truth.is_some() {
-        let _ = writeln!(md, "## Searches over the found position\n");
-        let covered: Vec<&ReviewedSearch> =
-            r.searches.iter().filter(|s| s.covered_truth()).collect();
-        if covered.is_empty() {
-            let _ = writeln!(
-                md,
-                "No search gave the found position a POD of {:.0} % or more.\n",
-                SEARCHED_POD_THRESHOLD * 100.0
-            );
-        } else {
-            let _ = writeln!(
-                md,
-                "| search | unit | period | start – end (UTC) | detection | POD at the found position |"
-            );
-            let _ = writeln!(md, "|---|---|---|---|---|---:|");
-            for s in covered {
-                let _ = writeln!(
-                    md,
-                    "| {} | {} | {} | {} – {} | {} | {:.3} |",
-                    s.id,
-                    s.unit,
-                    s.period.map_or("–", |k| r.periods[k].id.as_str()),
-                    hm(s.start),
-                    hm(s.end),
-                    s.detection,
-                    s.pod_at_truth.unwrap_or(0.0)
-                );
-            }
-            let _ = writeln!(
-                md,
-                "\nPOD of each search at the found place itself, from its pattern or track and detection law.\n"
-            );
-        }
-    }
-
+/// Analysts: weights, density and log score at the found position, bias.
+fn analysts(md: &mut String, r: &Review) {
     let _ = writeln!(md, "## Analysts\n");
     let _ = writeln!(
         md,
@@ -761,84 +816,107 @@ pub fn review_markdown(r: &Review) -> String {
         md,
         "\nLog score: natural log of the density at the found position, per km² (higher is better). Implied weight: Bayes' rule on the analysts, weight × density renormalised. Bias: from the mean of the analyst's distribution to the found position.\n"
     );
-    if !r.scenarios.is_empty() {
+}
+
+/// Scenarios: weight in the pool, density and log score at the found position (nothing without scenarios).
+fn scenarios(md: &mut String, r: &Review) {
+    if r.scenarios.is_empty() {
+        return;
+    }
+    let _ = writeln!(
+        md,
+        "| scenario | analyst | kind | weight in pool | density at found /km² | log score |"
+    );
+    let _ = writeln!(md, "|---|---|---|---:|---:|---:|");
+    for s in &r.scenarios {
         let _ = writeln!(
             md,
-            "| scenario | analyst | kind | weight in pool | density at found /km² | log score |"
+            "| {} | {} | {} | {:.3} | {} | {} |",
+            s.id,
+            s.analyst,
+            s.kind,
+            s.weight_in_pool,
+            s.density_per_km2
+                .map_or_else(|| "–".into(), |d| format!("{d:.3e}")),
+            log_text(s.log_score)
         );
-        let _ = writeln!(md, "|---|---|---|---:|---:|---:|");
-        for s in &r.scenarios {
-            let _ = writeln!(
-                md,
-                "| {} | {} | {} | {:.3} | {} | {} |",
-                s.id,
-                s.analyst,
-                s.kind,
-                s.weight_in_pool,
-                s.density_per_km2
-                    .map_or_else(|| "–".into(), |d| format!("{d:.3e}")),
-                log_text(s.log_score)
-            );
+    }
+    let _ = writeln!(md);
+}
+
+/// The same effort allocated optimally: each period against Stone's optimal allocation (nothing without periods).
+fn same_effort_optimal(md: &mut String, r: &Review) {
+    if r.periods.is_empty() {
+        return;
+    }
+    let _ = writeln!(md, "## The same effort allocated optimally\n");
+    let _ = writeln!(
+        md,
+        "For each period, Stone's optimal allocation of the period's effort (Σ W·L) for exponential detection, against the belief the searches left at the period's start (\"same belief\") and in a chain where every earlier period was also optimal. It bounds what exponential-law searches of areas (POD = 1 − e^(−coverage)) can achieve with that effort on a stationary target; inverse-cube and definite-range sweeps can exceed it, and so can a search logged as a track, which is scored along its single-pass lateral range curve (for the exponential law its exposure adds up to about 1.4 times W·L). With a drifting target or periods that overlap it is a guide, not a bound.\n"
+    );
+    let found = r.truth.is_some();
+    let _ = write!(
+        md,
+        "| period | searches | swept km² | all exponential | POS achieved | optimal (same belief) | optimal (chain) | cumulative: achieved | cumulative: chain |"
+    );
+    if found {
+        let _ = write!(md, " POD at found: achieved | optimal (chain) |");
+    }
+    let _ = writeln!(md);
+    let _ = write!(md, "|---|---|---:|---|---:|---:|---:|---:|---:|");
+    if found {
+        let _ = write!(md, "---:|---:|");
+    }
+    let _ = writeln!(md);
+    for p in &r.periods {
+        period_row(md, p);
+        if found {
+            period_found_cells(md, p);
         }
         let _ = writeln!(md);
     }
+    let _ = writeln!(
+        md,
+        "\nA period is the searches tasked in it, or searches sharing the same start and end. \"Cumulative: achieved\" counts every search ended by the period's end; \"(overlaps)\" marks a period whose time overlaps another's, where the comparison is not exact.\n"
+    );
+}
 
-    if !r.periods.is_empty() {
-        let _ = writeln!(md, "## The same effort allocated optimally\n");
-        let _ = writeln!(
-            md,
-            "For each period, Stone's optimal allocation of the period's effort (Σ W·L) for exponential detection, against the belief the searches left at the period's start (\"same belief\") and in a chain where every earlier period was also optimal. It bounds what exponential-law searches of areas (POD = 1 − e^(−coverage)) can achieve with that effort on a stationary target; inverse-cube and definite-range sweeps can exceed it, and so can a search logged as a track, which is scored along its single-pass lateral range curve (for the exponential law its exposure adds up to about 1.4 times W·L). With a drifting target or periods that overlap it is a guide, not a bound.\n"
-        );
-        let found = r.truth.is_some();
-        let _ = write!(
-            md,
-            "| period | searches | swept km² | all exponential | POS achieved | optimal (same belief) | optimal (chain) | cumulative: achieved | cumulative: chain |"
-        );
-        if found {
-            let _ = write!(md, " POD at found: achieved | optimal (chain) |");
-        }
-        let _ = writeln!(md);
-        let _ = write!(md, "|---|---|---:|---|---:|---:|---:|---:|---:|");
-        if found {
-            let _ = write!(md, "---:|---:|");
-        }
-        let _ = writeln!(md);
-        for p in &r.periods {
-            let o = p.optimal;
-            let _ = write!(
-                md,
-                "| {}{} | {} | {:.1} | {} | {:.3} | {} | {} | {:.3} | {} |",
-                p.id,
-                if p.overlaps_other_period {
-                    " (overlaps)"
-                } else {
-                    ""
-                },
-                p.searches.join(", "),
-                p.effort.area_swept_m2 / seekgrid_core::units::M2_PER_KM2,
-                if p.all_exponential { "yes" } else { "no" },
-                p.pos,
-                opt(o.map(|o| o.pos_same_belief), 3),
-                opt(o.map(|o| o.pos_chain), 3),
-                p.pos_cumulative,
-                opt(o.map(|o| o.pos_cumulative_chain), 3),
-            );
-            if found {
-                let _ = write!(
-                    md,
-                    " {} | {} |",
-                    opt(p.pod_at_truth, 3),
-                    opt(o.and_then(|o| o.pod_at_truth_chain), 3),
-                );
-            }
-            let _ = writeln!(md);
-        }
-        let _ = writeln!(
-            md,
-            "\nA period is the searches tasked in it, or searches sharing the same start and end. \"Cumulative: achieved\" counts every search ended by the period's end; \"(overlaps)\" marks a period whose time overlaps another's, where the comparison is not exact.\n"
-        );
-    }
+/// One period's common cells: searches, effort, POS achieved and optimal.
+fn period_row(md: &mut String, p: &Period) {
+    let o = p.optimal;
+    let _ = write!(
+        md,
+        "| {}{} | {} | {:.1} | {} | {:.3} | {} | {} | {:.3} | {} |",
+        p.id,
+        if p.overlaps_other_period {
+            " (overlaps)"
+        } else {
+            ""
+        },
+        p.searches.join(", "),
+        p.effort.area_swept_m2 / seekgrid_core::units::M2_PER_KM2,
+        if p.all_exponential { "yes" } else { "no" },
+        p.pos,
+        opt(o.map(|o| o.pos_same_belief), 3),
+        opt(o.map(|o| o.pos_chain), 3),
+        p.pos_cumulative,
+        opt(o.map(|o| o.pos_cumulative_chain), 3),
+    );
+}
 
+/// One period's cells on the found position: POD there achieved and in the optimal chain.
+fn period_found_cells(md: &mut String, p: &Period) {
+    let o = p.optimal;
+    let _ = write!(
+        md,
+        " {} | {} |",
+        opt(p.pod_at_truth, 3),
+        opt(o.and_then(|o| o.pod_at_truth_chain), 3),
+    );
+}
+
+/// What could not be computed, and why.
+fn not_computed(md: &mut String, r: &Review) {
     let _ = writeln!(md, "## What could not be computed\n");
     if r.not_computed.is_empty() {
         let _ = writeln!(md, "Everything above was computed.\n");
@@ -848,8 +926,6 @@ pub fn review_markdown(r: &Review) -> String {
         }
         let _ = writeln!(md);
     }
-    let _ = writeln!(md, "> **Caution.** {CAUTION}");
-    md
 }
 
 fn object(pairs: &[(&str, geojson::JsonValue)]) -> JsonObject {
