@@ -11,8 +11,8 @@ use seekgrid_incident::model::Time;
 use seekgrid_incident::record::{RecordRow, Role};
 use seekgrid_prior::PriorError;
 use seekgrid_prior::credibility::{
-    CredibilityOptions, IncidentScores, PoolVersusAnalysts, RayleighTest, pool_versus_analysts,
-    rayleigh_test, suggest_weights,
+    CredibilityOptions, IncidentScores, PoolVersusAnalysts, RayleighTest, SuggestedWeights,
+    pool_versus_analysts, rayleigh_test, suggest_weights,
 };
 
 /// The significance level of the verdicts: 5 %.
@@ -132,6 +132,42 @@ pub fn credibility(
     rows: &[RecordRow],
     options: &CredibilityOptions,
 ) -> Result<CredibilityReport, CredibilityError> {
+    let incidents = incidents_by_outcome_time(rows);
+    let scored = scored_incidents(&incidents);
+    if scored.is_empty() {
+        return Err(CredibilityError::NothingScored);
+    }
+    let mut not_computed = Vec::new();
+    note_unscored(incidents.len() - scored.len(), &mut not_computed);
+    let score_list: Vec<IncidentScores> = scored.iter().map(|s| s.scores.clone()).collect();
+    let suggestion = suggest_weights(&analyst_ids(rows), &score_list, options)?;
+    let mut analysts = analyst_records(rows, &suggestion);
+    let uninformative_incidents = suggestion
+        .uninformative_incidents
+        .iter()
+        .map(|&k| scored[k - 1].incident.id.to_string())
+        .collect();
+    let bias_direction = shared_bias_direction(&incidents, &mut not_computed);
+    let pool = pool_comparison(&score_list, &mut analysts, &mut not_computed)?;
+    let first = incidents
+        .first()
+        .map_or(scored[0].incident.time, |i| i.time);
+    let last = incidents.last().map_or(first, |i| i.time);
+    Ok(CredibilityReport {
+        incidents: incidents.len(),
+        outcome_span: (first, last),
+        shrinkage_incidents: options.shrinkage_incidents,
+        analysts,
+        uninformative_incidents,
+        bias_direction,
+        pool,
+        not_computed,
+    })
+}
+
+/// The rows grouped by incident, incidents in order of outcome time (equal times in order of
+/// first appearance).
+fn incidents_by_outcome_time(rows: &[RecordRow]) -> Vec<IncidentRows<'_>> {
     let mut incidents: Vec<IncidentRows<'_>> = Vec::new();
     for r in rows {
         match incidents.iter_mut().find(|i| i.id == r.incident_id) {
@@ -145,7 +181,20 @@ pub fn credibility(
     }
     // Stable sort: equal times keep their order of appearance.
     incidents.sort_by_key(|i| i.time);
-    let scored: Vec<(&IncidentRows<'_>, IncidentScores)> = incidents
+    incidents
+}
+
+/// An incident with at least one analyst's log score, and its scores.
+struct ScoredIncident<'i, 'a> {
+    /// The incident's rows.
+    incident: &'i IncidentRows<'a>,
+    /// Its analysts' log scores and the pool's.
+    scores: IncidentScores,
+}
+
+/// The incidents with at least one analyst's log score, in order, with their scores.
+fn scored_incidents<'i, 'a>(incidents: &'i [IncidentRows<'a>]) -> Vec<ScoredIncident<'i, 'a>> {
+    incidents
         .iter()
         .filter_map(|i| {
             let analyst_log_scores: Vec<(String, f64)> = i
@@ -159,38 +208,42 @@ pub fn credibility(
                 .iter()
                 .find(|r| r.role == Role::Pool)
                 .and_then(|r| r.log_score);
-            (!analyst_log_scores.is_empty()).then_some((
-                i,
-                IncidentScores {
+            (!analyst_log_scores.is_empty()).then_some(ScoredIncident {
+                incident: i,
+                scores: IncidentScores {
                     pool_log_score,
                     analyst_log_scores,
                 },
-            ))
+            })
         })
-        .collect();
-    if scored.is_empty() {
-        return Err(CredibilityError::NothingScored);
-    }
-    let mut not_computed = Vec::new();
-    let unscored = incidents.len() - scored.len();
+        .collect()
+}
+
+/// Notes in `not_computed` the incidents left out for want of any analyst's log score.
+fn note_unscored(unscored: usize, not_computed: &mut Vec<NotComputed>) {
     if unscored > 0 {
         not_computed.push(NotComputed {
             what: format!("{unscored} incident(s) without any analyst's log score"),
             why: "left out of the weights and scores: the object was not found, or was found outside the grid".into(),
         });
     }
-    let analyst_ids: Vec<String> = {
-        let mut ids: Vec<String> = Vec::new();
-        for r in rows.iter().filter(|r| r.role == Role::Analyst) {
-            if !ids.contains(&r.analyst) {
-                ids.push(r.analyst.clone());
-            }
+}
+
+/// The analysts' ids in order of first appearance among the analyst rows.
+fn analyst_ids(rows: &[RecordRow]) -> Vec<String> {
+    let mut ids: Vec<String> = Vec::new();
+    for r in rows.iter().filter(|r| r.role == Role::Analyst) {
+        if !ids.contains(&r.analyst) {
+            ids.push(r.analyst.clone());
         }
-        ids
-    };
-    let score_list: Vec<IncidentScores> = scored.iter().map(|(_, s)| s.clone()).collect();
-    let suggestion = suggest_weights(&analyst_ids, &score_list, options)?;
-    let mut analysts = suggestion
+    }
+    ids
+}
+
+/// Each analyst's record: the suggested weight with their zero-density incidents, mean bias
+/// distance and mean weight used; the comparison with the pool is filled in later.
+fn analyst_records(rows: &[RecordRow], suggestion: &SuggestedWeights) -> Vec<AnalystCredibility> {
+    suggestion
         .analysts
         .iter()
         .map(|s| {
@@ -213,20 +266,22 @@ pub fn credibility(
                 mean_score_minus_pool: None,
             }
         })
-        .collect::<Vec<_>>();
-    let uninformative_incidents = suggestion
-        .uninformative_incidents
-        .iter()
-        .map(|&k| scored[k - 1].0.id.to_string())
-        .collect();
+        .collect()
+}
 
+/// The Rayleigh test of the analysts' bias bearings; `None`, noted in `not_computed`, with
+/// fewer than 2 bearings.
+fn shared_bias_direction(
+    incidents: &[IncidentRows<'_>],
+    not_computed: &mut Vec<NotComputed>,
+) -> Option<BiasDirection> {
     let bearings: Vec<f64> = incidents
         .iter()
         .flat_map(|i| i.rows.iter())
         .filter(|r| r.role == Role::Analyst)
         .filter_map(|r| r.bias_bearing_deg)
         .collect();
-    let bias_direction = match rayleigh_test(&bearings) {
+    match rayleigh_test(&bearings) {
         Ok(test) => {
             let p_value = test.best_p_value();
             Some(BiasDirection {
@@ -245,41 +300,39 @@ pub fn credibility(
             });
             None
         }
-    };
+    }
+}
 
-    let pool = if score_list.iter().any(|s| s.pool_log_score.is_some()) {
-        let result = pool_versus_analysts(&score_list)?;
-        for a in &mut analysts {
-            a.mean_score_minus_pool = result
-                .analysts
-                .iter()
-                .find(|v| v.analyst == a.analyst)
-                .map(|v| -v.mean_gain_of_pool);
-        }
-        let pool_beat_best_analyst = result.best().mean_gain_of_pool > 0.0;
-        Some(PoolComparison {
-            result,
-            pool_beat_best_analyst,
-        })
-    } else {
+/// The pooled map against the analysts, filling in each analyst's mean score minus the
+/// pool's; `None`, noted in `not_computed`, when no pool row has a log score.
+///
+/// # Errors
+/// [`CredibilityError::Prior`] when the comparison refuses the scores.
+fn pool_comparison(
+    score_list: &[IncidentScores],
+    analysts: &mut [AnalystCredibility],
+    not_computed: &mut Vec<NotComputed>,
+) -> Result<Option<PoolComparison>, CredibilityError> {
+    if !score_list.iter().any(|s| s.pool_log_score.is_some()) {
         not_computed.push(NotComputed {
             what: "pooled map against the best analyst".into(),
             why: "the record has no pool row with a log score; rows written by seekgrid review --record carry one".into(),
         });
-        None
-    };
-    let first = incidents.first().map_or(scored[0].0.time, |i| i.time);
-    let last = incidents.last().map_or(first, |i| i.time);
-    Ok(CredibilityReport {
-        incidents: incidents.len(),
-        outcome_span: (first, last),
-        shrinkage_incidents: options.shrinkage_incidents,
-        analysts,
-        uninformative_incidents,
-        bias_direction,
-        pool,
-        not_computed,
-    })
+        return Ok(None);
+    }
+    let result = pool_versus_analysts(score_list)?;
+    for a in analysts {
+        a.mean_score_minus_pool = result
+            .analysts
+            .iter()
+            .find(|v| v.analyst == a.analyst)
+            .map(|v| -v.mean_gain_of_pool);
+    }
+    let pool_beat_best_analyst = result.best().mean_gain_of_pool > 0.0;
+    Ok(Some(PoolComparison {
+        result,
+        pool_beat_best_analyst,
+    }))
 }
 
 /// Mean of the values; `None` without any.
