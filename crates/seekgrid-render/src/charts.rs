@@ -678,153 +678,254 @@ pub fn rank_chart(r: &Review) -> Result<Option<Vec<u8>>, RenderError> {
 /// # Errors
 /// As [`pos_chart`].
 pub fn scores_chart(r: &Review) -> Result<Option<Vec<u8>>, RenderError> {
-    let bars: Vec<(String, f64)> = r
-        .analysts
-        .iter()
-        .filter_map(|a| a.log_score.map(|s| (a.id.clone(), s)))
-        .collect();
-    let Some(pool) = &r.pool else {
+    let Some(scores) = ScoreBars::of(r) else {
         return Ok(None);
     };
-    if bars.is_empty() {
-        return Ok(None);
-    }
-    let finite: Vec<f64> = bars
-        .iter()
-        .map(|b| b.1)
-        .chain(std::iter::once(pool.log_score))
-        .filter(|v| v.is_finite())
-        .collect();
-    let lo = finite.iter().copied().fold(0.0_f64, f64::min);
-    let hi = finite.iter().copied().fold(0.0_f64, f64::max);
-    let pad = 0.1 * (hi - lo).max(1.0);
-    let (lo, hi) = ((lo - pad).floor(), (hi + pad).ceil());
-    let n = bars.len();
-    let height = HEIGHT.max(HEADER + FOOTER + 150 + 64 * n as u32);
+    let height = HEIGHT.max(HEADER + FOOTER + 150 + 64 * scores.bars.len() as u32);
     render(
         WIDTH,
         height,
         "Each analyst's log score at the found position, with the pooled map's",
         &r.title,
         |body, words| {
-            let names_w = bars
-                .iter()
-                .map(|b| words.width(&b.0, TEXT_PX))
-                .fold(0.0_f32, f32::max) as u32;
-            let mut chart = ChartBuilder::on(body)
-                .margin_left(14)
-                .margin_right(26)
-                .margin_top(50)
-                .x_label_area_size(62)
-                .y_label_area_size(names_w + 24)
-                .build_cartesian_2d(lo..hi, -0.5..(n as f64 - 0.5))
-                .map_err(chart_error)?;
-            chart
-                .configure_mesh()
-                .disable_y_mesh()
-                .disable_y_axis()
-                .light_line_style(WHITE.mix(0.0))
-                .bold_line_style(GUIDE.mix(0.35))
-                .x_label_formatter(&|v| format!("{v:.1}"))
-                .label_style((FONT, TICK_PX))
-                .draw()
-                .map_err(chart_error)?;
+            let mut chart = score_axes(body, words, &scores)?;
+            let values = draw_score_bars(&mut chart, words, &scores)?;
+            let entries = draw_pool_line(&mut chart, &scores)?;
+            put_value_labels(body, words, values)?;
             let (xs, ys) = chart.plotting_area().get_pixel_range();
-            words.put(
-                "log score = ln(density at the found position, per km²); higher is better, +0.69 = twice the density",
-                ((xs.start + xs.end) / 2, ys.end + 34),
-                AXIS_PX,
-                INK,
-                Across::Centre,
-                Down::Top,
-            );
-            // Analysts from the top down, in file order.
-            let row = |i: usize| (n - 1 - i) as f64;
-            // Value labels are set after the pool's line, on a white ground, so the line
-            // never runs through a number.
-            let mut values: Vec<(String, (i32, i32), Across)> = Vec::new();
-            for (i, (name, s)) in bars.iter().enumerate() {
-                let (_, y) = chart.backend_coord(&(lo, row(i)));
-                words.put(name.clone(), (xs.start - 12, y), TEXT_PX, INK, Across::Right, Down::Middle);
-                if s.is_finite() {
-                    chart
-                        .draw_series(std::iter::once(Rectangle::new(
-                            [(0.0, row(i) - 0.3), (*s, row(i) + 0.3)],
-                            DONE.mix(0.85).filled(),
-                        )))
-                        .map_err(chart_error)?;
-                    let (x, y) = chart.backend_coord(&(*s, row(i)));
-                    let (across, dx) = if *s < 0.0 {
-                        (Across::Right, -8)
-                    } else {
-                        (Across::Left, 8)
-                    };
-                    values.push((format!("{s:.2}"), (x + dx, y), across));
-                } else {
-                    let (x, y) = chart.backend_coord(&(lo, row(i)));
-                    words.put(
-                        "zero density at the found position (log score −∞)",
-                        (x + 10, y),
-                        TEXT_PX,
-                        RGBColor(180, 30, 30),
-                        Across::Left,
-                        Down::Middle,
-                    );
-                }
-            }
-            let mut entries = vec![Entry {
-                text: "each analyst's map".into(),
-                colour: DONE,
-                dashed: false,
-            }];
-            if pool.log_score.is_finite() {
-                let p = pool.log_score;
-                // The pool's line is broken where a zero-density label stands.
-                for (i, (_, s)) in bars.iter().enumerate() {
-                    if s.is_finite() {
-                        chart
-                            .draw_series(DashedLineSeries::new(
-                                vec![(p, row(i) - 0.5), (p, row(i) + 0.5)],
-                                8,
-                                5,
-                                OPTIMAL.stroke_width(3),
-                            ))
-                            .map_err(chart_error)?;
-                    }
-                }
-                entries.push(Entry {
-                    text: format!("the pooled map: {p:.2}"),
-                    colour: OPTIMAL,
-                    dashed: true,
-                });
-            } else {
-                entries.push(Entry {
-                    text: "the pooled map: zero density at the found position".into(),
-                    colour: OPTIMAL,
-                    dashed: true,
-                });
-            }
-            let base = body.get_base_pixel();
-            for (text, (x, y), across) in values {
-                let w = words.width(&text, TEXT_PX).ceil() as i32;
-                let x0 = match across {
-                    Across::Right => x - w,
-                    _ => x,
-                };
-                body.draw(&Rectangle::new(
-                    [
-                        (x0 - 4 - base.0, y - 11 - base.1),
-                        (x0 + w + 4 - base.0, y + 11 - base.1),
-                    ],
-                    WHITE.filled(),
-                ))
-                .map_err(chart_error)?;
-                words.put(text, (x, y), TEXT_PX, INK, across, Down::Middle);
-            }
             legend(body, words, (xs.start, ys.start - 44), &entries)
         },
     )
     .map(Some)
+}
+
+/// What the scores chart draws: each analyst's log score, the pool's, and the x range.
+struct ScoreBars {
+    /// Analyst id and log score, in file order (only analysts with a score).
+    bars: Vec<(String, f64)>,
+    /// The pooled map's log score.
+    pool: f64,
+    /// Left end of the x axis (log score): the lowest finite score with a margin, floored.
+    lo: f64,
+    /// Right end of the x axis: the highest finite score with a margin, ceiled.
+    hi: f64,
+}
+
+impl ScoreBars {
+    /// The scores of a review; `None` without a pool score or analysts' scores.
+    fn of(r: &Review) -> Option<Self> {
+        let bars: Vec<(String, f64)> = r
+            .analysts
+            .iter()
+            .filter_map(|a| a.log_score.map(|s| (a.id.clone(), s)))
+            .collect();
+        let pool = r.pool.as_ref()?.log_score;
+        if bars.is_empty() {
+            return None;
+        }
+        let finite: Vec<f64> = bars
+            .iter()
+            .map(|b| b.1)
+            .chain(std::iter::once(pool))
+            .filter(|v| v.is_finite())
+            .collect();
+        let lo = finite.iter().copied().fold(0.0_f64, f64::min);
+        let hi = finite.iter().copied().fold(0.0_f64, f64::max);
+        let pad = 0.1 * (hi - lo).max(1.0);
+        Some(Self {
+            bars,
+            pool,
+            lo: (lo - pad).floor(),
+            hi: (hi + pad).ceil(),
+        })
+    }
+
+    /// The y value of the `i`-th analyst: analysts from the top down, in file order.
+    fn row(&self, i: usize) -> f64 {
+        (self.bars.len() - 1 - i) as f64
+    }
+}
+
+/// A chart with a numeric x and y axis.
+type XyChart<'a, 'b> = TimeChart<'a, 'b>;
+
+/// The scores chart's axes: log score across, one row per analyst, the x axis titled.
+fn score_axes<'a, 'b>(
+    body: &'a DrawingArea<BitMapBackend<'b>, Shift>,
+    words: &mut Words,
+    scores: &ScoreBars,
+) -> Result<XyChart<'a, 'b>, RenderError> {
+    let names_w = scores
+        .bars
+        .iter()
+        .map(|b| words.width(&b.0, TEXT_PX))
+        .fold(0.0_f32, f32::max) as u32;
+    let n = scores.bars.len();
+    let mut chart = ChartBuilder::on(body)
+        .margin_left(14)
+        .margin_right(26)
+        .margin_top(50)
+        .x_label_area_size(62)
+        .y_label_area_size(names_w + 24)
+        .build_cartesian_2d(scores.lo..scores.hi, -0.5..(n as f64 - 0.5))
+        .map_err(chart_error)?;
+    chart
+        .configure_mesh()
+        .disable_y_mesh()
+        .disable_y_axis()
+        .light_line_style(WHITE.mix(0.0))
+        .bold_line_style(GUIDE.mix(0.35))
+        .x_label_formatter(&|v| format!("{v:.1}"))
+        .label_style((FONT, TICK_PX))
+        .draw()
+        .map_err(chart_error)?;
+    let (xs, ys) = chart.plotting_area().get_pixel_range();
+    words.put(
+        "log score = ln(density at the found position, per km²); higher is better, +0.69 = twice the density",
+        ((xs.start + xs.end) / 2, ys.end + 34),
+        AXIS_PX,
+        INK,
+        Across::Centre,
+        Down::Top,
+    );
+    Ok(chart)
+}
+
+/// A bar's value label, set after the pool's line.
+struct ValueLabel {
+    /// The value as written.
+    text: String,
+    /// Anchor point, picture pixels.
+    at: (i32, i32),
+    /// Which side of the anchor the text stands.
+    across: Across,
+}
+
+/// Each analyst's name and bar (or, for a zero density, a note in its place); returns the
+/// bars' value labels, to be set later.
+fn draw_score_bars(
+    chart: &mut XyChart<'_, '_>,
+    words: &mut Words,
+    scores: &ScoreBars,
+) -> Result<Vec<ValueLabel>, RenderError> {
+    let (xs, _) = chart.plotting_area().get_pixel_range();
+    let lo = scores.lo;
+    let mut values = Vec::new();
+    for (i, (name, s)) in scores.bars.iter().enumerate() {
+        let row = scores.row(i);
+        let (_, y) = chart.backend_coord(&(lo, row));
+        words.put(
+            name.clone(),
+            (xs.start - 12, y),
+            TEXT_PX,
+            INK,
+            Across::Right,
+            Down::Middle,
+        );
+        if s.is_finite() {
+            chart
+                .draw_series(std::iter::once(Rectangle::new(
+                    [(0.0, row - 0.3), (*s, row + 0.3)],
+                    DONE.mix(0.85).filled(),
+                )))
+                .map_err(chart_error)?;
+            let (x, y) = chart.backend_coord(&(*s, row));
+            let (across, dx) = if *s < 0.0 {
+                (Across::Right, -8)
+            } else {
+                (Across::Left, 8)
+            };
+            values.push(ValueLabel {
+                text: format!("{s:.2}"),
+                at: (x + dx, y),
+                across,
+            });
+        } else {
+            let (x, y) = chart.backend_coord(&(lo, row));
+            words.put(
+                "zero density at the found position (log score −∞)",
+                (x + 10, y),
+                TEXT_PX,
+                RGBColor(180, 30, 30),
+                Across::Left,
+                Down::Middle,
+            );
+        }
+    }
+    Ok(values)
+}
+
+/// The pool's score as a dashed line, broken where a zero-density note stands; returns the
+/// legend's entries.
+fn draw_pool_line(
+    chart: &mut XyChart<'_, '_>,
+    scores: &ScoreBars,
+) -> Result<Vec<Entry>, RenderError> {
+    let mut entries = vec![Entry {
+        text: "each analyst's map".into(),
+        colour: DONE,
+        dashed: false,
+    }];
+    let p = scores.pool;
+    if !p.is_finite() {
+        entries.push(Entry {
+            text: "the pooled map: zero density at the found position".into(),
+            colour: OPTIMAL,
+            dashed: true,
+        });
+        return Ok(entries);
+    }
+    for (i, (_, s)) in scores.bars.iter().enumerate() {
+        if s.is_finite() {
+            let row = scores.row(i);
+            chart
+                .draw_series(DashedLineSeries::new(
+                    vec![(p, row - 0.5), (p, row + 0.5)],
+                    8,
+                    5,
+                    OPTIMAL.stroke_width(3),
+                ))
+                .map_err(chart_error)?;
+        }
+    }
+    entries.push(Entry {
+        text: format!("the pooled map: {p:.2}"),
+        colour: OPTIMAL,
+        dashed: true,
+    });
+    Ok(entries)
+}
+
+/// The bars' value labels, each on a white ground so the pool's line never runs through a
+/// number.
+fn put_value_labels(
+    body: &DrawingArea<BitMapBackend<'_>, Shift>,
+    words: &mut Words,
+    values: Vec<ValueLabel>,
+) -> Result<(), RenderError> {
+    let base = body.get_base_pixel();
+    for ValueLabel {
+        text,
+        at: (x, y),
+        across,
+    } in values
+    {
+        let w = words.width(&text, TEXT_PX).ceil() as i32;
+        let x0 = match across {
+            Across::Right => x - w,
+            _ => x,
+        };
+        body.draw(&Rectangle::new(
+            [
+                (x0 - 4 - base.0, y - 11 - base.1),
+                (x0 + w + 4 - base.0, y + 11 - base.1),
+            ],
+            WHITE.filled(),
+        ))
+        .map_err(chart_error)?;
+        words.put(text, (x, y), TEXT_PX, INK, across, Down::Middle);
+    }
+    Ok(())
 }
 
 /// A "nice" ring spacing for distances up to `max_m` metres: 1, 2 or 5 times a power of ten.
