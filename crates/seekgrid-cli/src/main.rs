@@ -36,118 +36,26 @@ struct Cli {
 enum Command {
     /// Validate an incident file and every file it names, without computing anything
     #[command(after_help = AFTER_HELP)]
-    Check {
-        /// The incident file (TOML)
-        file: PathBuf,
-        /// Treat every warning as an error: exit 2 and write nothing when there is one
-        #[arg(long)]
-        strict: bool,
-    },
+    Check(CheckArgs),
     /// Compute the probability map at a time and write its layers
     #[command(after_help = AFTER_HELP)]
-    Map {
-        /// The incident file (TOML)
-        file: PathBuf,
-        /// Output folder (created; an existing non-empty folder needs --force). Written as one
-        /// unit: it appears whole when the run ends, never half-written
-        #[arg(long)]
-        out: PathBuf,
-        /// The time the map describes (RFC 3339, UTC): searches ended by then are applied and
-        /// drift is carried to it. Default: the end of the last logged search
-        #[arg(long)]
-        at: Option<String>,
-        /// Comma-separated output layers to write (default: every layer listed here); a layer
-        /// with nothing to show (no search, no drift, no segment) writes nothing and
-        /// summary.json says why
-        #[arg(long, value_enum, value_delimiter = ',')]
-        outputs: Vec<MapLayer>,
-        /// Also print the summary as JSON on standard output
-        #[arg(long)]
-        json: bool,
-        /// Treat every warning as an error: exit 2 and write nothing when there is one
-        #[arg(long)]
-        strict: bool,
-        /// Replace an existing output folder: the whole earlier folder goes when this run is
-        /// complete, no file of it stays
-        #[arg(long)]
-        force: bool,
-    },
+    Map(MapArgs),
     /// Plan the next search period: the best possible POS for the units' effort and a
     /// practical plan (one area or segment per unit, pattern, spacing, waypoints)
     #[command(after_help = AFTER_HELP)]
-    Plan {
-        /// The incident file (TOML), with its [[unit]] list
-        file: PathBuf,
-        /// Start of the period (RFC 3339, UTC): the plan works on the belief at that time,
-        /// after the searches logged by then
-        #[arg(long)]
-        start: String,
-        /// Output folder (created; an existing non-empty folder needs --force). Written as one
-        /// unit: it appears whole when the run ends, never half-written
-        #[arg(long)]
-        out: PathBuf,
-        /// Comma-separated output layers to write (default: summary, probability, containment,
-        /// heatmap, segments and every plan layer: plan, routes, briefing, plan-map, effort)
-        #[arg(long, value_enum, value_delimiter = ',')]
-        outputs: Vec<PlanLayer>,
-        /// Also print the summary as JSON on standard output
-        #[arg(long)]
-        json: bool,
-        /// Treat every warning as an error: exit 2 and write nothing when there is one
-        #[arg(long)]
-        strict: bool,
-        /// Replace an existing output folder: the whole earlier folder goes when this run is
-        /// complete, no file of it stays
-        #[arg(long)]
-        force: bool,
-    },
+    Plan(PlanArgs),
     /// Read a track record across incidents: each analyst's mean log score and suggested
     /// credibility weight, whether the analysts' biases share a direction, and whether the pooled
     /// map beat the best single analyst. Prints a table; with --out also writes credibility.md
     /// and credibility.json
     #[command(after_help = AFTER_HELP)]
-    Credibility {
-        /// The track record (CSV, as appended by `seekgrid review ... --record FILE`)
-        record: PathBuf,
-        /// Also write credibility.md and credibility.json into this folder (created; an
-        /// existing non-empty folder needs --force)
-        #[arg(long)]
-        out: Option<PathBuf>,
-        /// Shrinkage constant k, in incidents: an analyst with n incidents keeps n/(n+k) of
-        /// the weight Bayes' rule gives them and takes the rest from the equal share
-        #[arg(long, default_value_t = seekgrid_prior::credibility::DEFAULT_SHRINKAGE_INCIDENTS)]
-        shrinkage_incidents: f64,
-        /// Print the report as JSON on standard output instead of the table
-        #[arg(long)]
-        json: bool,
-        /// Replace an existing output folder whole
-        #[arg(long)]
-        force: bool,
-    },
+    Credibility(CredibilityArgs),
     /// Review an ended incident against its outcome: POS and effort over time, the searches
     /// that passed over the found position, each analyst's and scenario's score, and what the
     /// same effort could have achieved allocated optimally (review.json, review.md, charts as
     /// PNG and GeoJSON layers)
     #[command(after_help = AFTER_HELP)]
-    Review {
-        /// The incident file (TOML), with its `[outcome]` table when the incident has ended
-        /// (without one the review ends at the last logged search, scores no analyst, and says
-        /// what it could not compute)
-        file: PathBuf,
-        /// Output folder (created; an existing non-empty folder needs --force). Written as one
-        /// unit: it appears whole when the run ends, never half-written
-        #[arg(long)]
-        out: PathBuf,
-        /// Replace an existing output folder: the whole earlier folder goes when this run is
-        /// complete, no file of it stays
-        #[arg(long)]
-        force: bool,
-        /// Also append one row per analyst and one for the pool (log score, rank, bias, weight
-        /// used and implied) to this track record (CSV, created with its header when missing;
-        /// read by `seekgrid credibility`). Needs a found position inside the grid
-        #[arg(long, value_name = "FILE.csv")]
-        record: Option<PathBuf>,
-    },
+    Review(ReviewArgs),
     /// Record a completed search in the incident file: as planned (--plan), as followed
     /// (--track) or as flown (--pattern). The file keeps its comments, the new text is
     /// validated before it replaces the old, and the old is kept as FILE.bak-TIME
@@ -165,6 +73,118 @@ enum Command {
         #[arg(long)]
         force: bool,
     },
+}
+
+/// The options of `seekgrid check`.
+#[derive(clap::Args)]
+struct CheckArgs {
+    /// The incident file (TOML)
+    file: PathBuf,
+    /// Treat every warning as an error: exit 2 and write nothing when there is one
+    #[arg(long)]
+    strict: bool,
+}
+
+/// The options of `seekgrid map`.
+#[derive(clap::Args)]
+struct MapArgs {
+    /// The incident file (TOML)
+    file: PathBuf,
+    /// Output folder (created; an existing non-empty folder needs --force). Written as one
+    /// unit: it appears whole when the run ends, never half-written
+    #[arg(long)]
+    out: PathBuf,
+    /// The time the map describes (RFC 3339, UTC): searches ended by then are applied and
+    /// drift is carried to it. Default: the end of the last logged search
+    #[arg(long)]
+    at: Option<String>,
+    /// Comma-separated output layers to write (default: every layer listed here); a layer
+    /// with nothing to show (no search, no drift, no segment) writes nothing and
+    /// summary.json says why
+    #[arg(long, value_enum, value_delimiter = ',')]
+    outputs: Vec<MapLayer>,
+    /// Also print the summary as JSON on standard output
+    #[arg(long)]
+    json: bool,
+    /// Treat every warning as an error: exit 2 and write nothing when there is one
+    #[arg(long)]
+    strict: bool,
+    /// Replace an existing output folder: the whole earlier folder goes when this run is
+    /// complete, no file of it stays
+    #[arg(long)]
+    force: bool,
+}
+
+/// The options of `seekgrid plan`.
+#[derive(clap::Args)]
+struct PlanArgs {
+    /// The incident file (TOML), with its [[unit]] list
+    file: PathBuf,
+    /// Start of the period (RFC 3339, UTC): the plan works on the belief at that time,
+    /// after the searches logged by then
+    #[arg(long)]
+    start: String,
+    /// Output folder (created; an existing non-empty folder needs --force). Written as one
+    /// unit: it appears whole when the run ends, never half-written
+    #[arg(long)]
+    out: PathBuf,
+    /// Comma-separated output layers to write (default: summary, probability, containment,
+    /// heatmap, segments and every plan layer: plan, routes, briefing, plan-map, effort)
+    #[arg(long, value_enum, value_delimiter = ',')]
+    outputs: Vec<PlanLayer>,
+    /// Also print the summary as JSON on standard output
+    #[arg(long)]
+    json: bool,
+    /// Treat every warning as an error: exit 2 and write nothing when there is one
+    #[arg(long)]
+    strict: bool,
+    /// Replace an existing output folder: the whole earlier folder goes when this run is
+    /// complete, no file of it stays
+    #[arg(long)]
+    force: bool,
+}
+
+/// The options of `seekgrid credibility`.
+#[derive(clap::Args)]
+struct CredibilityArgs {
+    /// The track record (CSV, as appended by `seekgrid review ... --record FILE`)
+    record: PathBuf,
+    /// Also write credibility.md and credibility.json into this folder (created; an
+    /// existing non-empty folder needs --force)
+    #[arg(long)]
+    out: Option<PathBuf>,
+    /// Shrinkage constant k, in incidents: an analyst with n incidents keeps n/(n+k) of
+    /// the weight Bayes' rule gives them and takes the rest from the equal share
+    #[arg(long, default_value_t = seekgrid_prior::credibility::DEFAULT_SHRINKAGE_INCIDENTS)]
+    shrinkage_incidents: f64,
+    /// Print the report as JSON on standard output instead of the table
+    #[arg(long)]
+    json: bool,
+    /// Replace an existing output folder whole
+    #[arg(long)]
+    force: bool,
+}
+
+/// The options of `seekgrid review`.
+#[derive(clap::Args)]
+struct ReviewArgs {
+    /// The incident file (TOML), with its `[outcome]` table when the incident has ended
+    /// (without one the review ends at the last logged search, scores no analyst, and says
+    /// what it could not compute)
+    file: PathBuf,
+    /// Output folder (created; an existing non-empty folder needs --force). Written as one
+    /// unit: it appears whole when the run ends, never half-written
+    #[arg(long)]
+    out: PathBuf,
+    /// Replace an existing output folder: the whole earlier folder goes when this run is
+    /// complete, no file of it stays
+    #[arg(long)]
+    force: bool,
+    /// Also append one row per analyst and one for the pool (log score, rank, bias, weight
+    /// used and implied) to this track record (CSV, created with its header when missing;
+    /// read by `seekgrid credibility`). Needs a found position inside the grid
+    #[arg(long, value_name = "FILE.csv")]
+    record: Option<PathBuf>,
 }
 
 /// A layer `seekgrid map` can write: its `--outputs` values and their help come from the
@@ -260,190 +280,11 @@ fn main() -> ExitCode {
 fn run(cli: Cli) -> Result<(), Failure> {
     let run_id = run_id();
     match cli.command {
-        Command::Check { file, strict } => {
-            let incident = seekgrid_incident::load(&file)?;
-            // Preparing projects every position and validates every shape and search.
-            let prepared = seekgrid_engine::prepare::prepare(&incident)
-                .map_err(|e| located(&incident, Some(e.item()), &e.to_string()))?;
-            let size = sized(&incident)?;
-            let warnings = seekgrid_engine::warnings::before_computing(&incident, &prepared)
-                .map_err(|e| located(&incident, e.item(), &e.to_string()))?;
-            report_warnings(&incident, &warnings, strict)?;
-            println!(
-                "{}: ok ({} analyst(s), {} scenario(s), {} search(es), {} unit(s)); {}",
-                file.display(),
-                incident.analysts.len(),
-                incident.scenarios.len(),
-                incident.searches.len(),
-                incident.units.len(),
-                describe_size(&size)
-            );
-            Ok(())
-        }
-        Command::Map {
-            file,
-            out,
-            at,
-            outputs,
-            json,
-            strict,
-            force,
-        } => {
-            let layers: Vec<Layer> = outputs.iter().map(|l| l.0).collect();
-            let selection = if layers.is_empty() {
-                OutputSelection::map_default()
-            } else {
-                OutputSelection::of(&layers)
-            };
-            let at = at.map(|t| parse_time(&t, "--at")).transpose()?;
-            let incident = seekgrid_incident::load(&file)?;
-            sized(&incident)?;
-            let dir = open_output(&out, force, &run_id, &incident.input_files())?;
-            let summary = map_incident(&incident, &dir, at, &selection, strict)?;
-            commit(dir)?;
-            if json {
-                println!(
-                    "{}",
-                    serde_json::to_string_pretty(&summary)
-                        .map_err(|e| Failure::failed(e.to_string()))?
-                );
-            } else {
-                eprintln!("{}", one_line(&summary, &out, &run_id));
-            }
-            Ok(())
-        }
-        Command::Plan {
-            file,
-            start,
-            out,
-            outputs,
-            json,
-            strict,
-            force,
-        } => {
-            let layers: Vec<Layer> = outputs.iter().map(|l| l.0).collect();
-            let selection = if layers.is_empty() {
-                OutputSelection::plan_default()
-            } else {
-                OutputSelection::of(&layers)
-            };
-            let start = parse_time(&start, "--start")?;
-            let incident = seekgrid_incident::load(&file)?;
-            sized(&incident)?;
-            let dir = open_output(&out, force, &run_id, &incident.input_files())?;
-            let summary = plan_incident(&incident, &dir, start, &selection, strict)?;
-            commit(dir)?;
-            if json {
-                println!(
-                    "{}",
-                    serde_json::to_string_pretty(&summary)
-                        .map_err(|e| Failure::failed(e.to_string()))?
-                );
-            } else {
-                eprintln!(
-                    "wrote {} as run {run_id} (plan POS {:.4}, best possible {:.4})\n{}",
-                    out.display(),
-                    summary.pos_plan.unwrap_or(0.0),
-                    summary.pos_optimal_bound.unwrap_or(0.0),
-                    CAUTION
-                );
-            }
-            Ok(())
-        }
-        Command::Credibility {
-            record,
-            out,
-            shrinkage_incidents,
-            json,
-            force,
-        } => {
-            let options = seekgrid_prior::credibility::CredibilityOptions {
-                shrinkage_incidents,
-            };
-            let report = credibility_report(&record, &options)?;
-            let name = record.display().to_string();
-            if let Some(out) = &out {
-                let dir = open_output(out, force, &run_id, std::slice::from_ref(&record))?;
-                seekgrid_render::credibility::write(&report, &name, &dir)
-                    .map_err(|e| Failure::failed(e.to_string()))?;
-                commit(dir)?;
-                eprintln!("wrote {} as run {run_id}", out.display());
-            }
-            if json {
-                let doc = seekgrid_render::credibility::credibility_json(&report, &name, None);
-                println!(
-                    "{}",
-                    serde_json::to_string_pretty(&doc)
-                        .map_err(|e| Failure::failed(e.to_string()))?
-                );
-            } else {
-                print!(
-                    "{}",
-                    seekgrid_render::credibility::credibility_table(&report, &name)
-                );
-            }
-            Ok(())
-        }
-        Command::Review {
-            file,
-            out,
-            force,
-            record,
-        } => {
-            let incident = seekgrid_incident::load(&file)?;
-            sized(&incident)?;
-            let mut inputs = incident.input_files();
-            inputs.extend(record.iter().cloned());
-            let dir = open_output(&out, force, &run_id, &inputs)?;
-            let (review, doc) = review_incident(&incident, &dir)?;
-            // The rows are made before the folder is put in place, so a review that cannot be
-            // recorded says so before anything is written.
-            let rows = match &record {
-                Some(_) => Some(
-                    seekgrid_render::record::record_rows(&file, &review).map_err(|e| {
-                        Failure::bad_input(format!("--record: nothing appended: {e}"))
-                    })?,
-                ),
-                None => None,
-            };
-            commit(dir)?;
-            if let (Some(path), Some(rows)) = (&record, rows) {
-                let appended = seekgrid_render::record::append_record(path, &rows, &run_id)
-                    .map_err(|e| match e {
-                        RenderError::Io { .. } | RenderError::Internal(_) => {
-                            Failure::failed(e.to_string())
-                        }
-                        other => Failure::bad_input(format!(
-                            "{}: the review is written to {}, but no row was appended: {other}",
-                            path.display(),
-                            out.display()
-                        )),
-                    })?;
-                eprintln!(
-                    "appended {} row(s) to {}{}",
-                    appended.rows_added,
-                    path.display(),
-                    if appended.created {
-                        " (created with its header)"
-                    } else {
-                        ""
-                    }
-                );
-            }
-            eprintln!(
-                "wrote {} as run {run_id} (review to {}, {} search(es), cumulative POS {:.4}{})\n{}",
-                out.display(),
-                doc.end,
-                doc.searches.len(),
-                doc.pos_cumulative,
-                doc.pod_at_truth_cumulative
-                    .map_or(String::new(), |p| format!(
-                        ", POD at the found position {p:.4}"
-                    )),
-                CAUTION
-            );
-            Ok(())
-        }
+        Command::Check(a) => check_command(a),
+        Command::Map(a) => map_command(a, &run_id),
+        Command::Plan(a) => plan_command(a, &run_id),
+        Command::Credibility(a) => credibility_command(a, &run_id),
+        Command::Review(a) => review_command(a, &run_id),
         Command::Log(args) => {
             let message = log::run(&args, chrono::Utc::now())?;
             eprintln!("{message}\n{CAUTION}");
@@ -451,6 +292,199 @@ fn run(cli: Cli) -> Result<(), Failure> {
         }
         Command::Demo { out, force } => demo::run(&out, force, &run_id),
     }
+}
+
+/// `seekgrid check`: validates the incident, sizes the run and reports its warnings.
+fn check_command(a: CheckArgs) -> Result<(), Failure> {
+    let CheckArgs { file, strict } = a;
+    let incident = seekgrid_incident::load(&file)?;
+    // Preparing projects every position and validates every shape and search.
+    let prepared = seekgrid_engine::prepare::prepare(&incident)
+        .map_err(|e| located(&incident, Some(e.item()), &e.to_string()))?;
+    let size = sized(&incident)?;
+    let warnings = seekgrid_engine::warnings::before_computing(&incident, &prepared)
+        .map_err(|e| located(&incident, e.item(), &e.to_string()))?;
+    report_warnings(&incident, &warnings, strict)?;
+    println!(
+        "{}: ok ({} analyst(s), {} scenario(s), {} search(es), {} unit(s)); {}",
+        file.display(),
+        incident.analysts.len(),
+        incident.scenarios.len(),
+        incident.searches.len(),
+        incident.units.len(),
+        describe_size(&size)
+    );
+    Ok(())
+}
+
+/// `seekgrid map`: the map at a time, its layers written into one output folder.
+fn map_command(a: MapArgs, run_id: &str) -> Result<(), Failure> {
+    let MapArgs {
+        file,
+        out,
+        at,
+        outputs,
+        json,
+        strict,
+        force,
+    } = a;
+    let layers: Vec<Layer> = outputs.iter().map(|l| l.0).collect();
+    let selection = if layers.is_empty() {
+        OutputSelection::map_default()
+    } else {
+        OutputSelection::of(&layers)
+    };
+    let at = at.map(|t| parse_time(&t, "--at")).transpose()?;
+    let incident = seekgrid_incident::load(&file)?;
+    sized(&incident)?;
+    let dir = open_output(&out, force, run_id, &incident.input_files())?;
+    let summary = map_incident(&incident, &dir, at, &selection, strict)?;
+    commit(dir)?;
+    if json {
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&summary).map_err(|e| Failure::failed(e.to_string()))?
+        );
+    } else {
+        eprintln!("{}", one_line(&summary, &out, run_id));
+    }
+    Ok(())
+}
+
+/// `seekgrid plan`: the plan of the next period and its layers.
+fn plan_command(a: PlanArgs, run_id: &str) -> Result<(), Failure> {
+    let PlanArgs {
+        file,
+        start,
+        out,
+        outputs,
+        json,
+        strict,
+        force,
+    } = a;
+    let layers: Vec<Layer> = outputs.iter().map(|l| l.0).collect();
+    let selection = if layers.is_empty() {
+        OutputSelection::plan_default()
+    } else {
+        OutputSelection::of(&layers)
+    };
+    let start = parse_time(&start, "--start")?;
+    let incident = seekgrid_incident::load(&file)?;
+    sized(&incident)?;
+    let dir = open_output(&out, force, run_id, &incident.input_files())?;
+    let summary = plan_incident(&incident, &dir, start, &selection, strict)?;
+    commit(dir)?;
+    if json {
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&summary).map_err(|e| Failure::failed(e.to_string()))?
+        );
+    } else {
+        eprintln!(
+            "wrote {} as run {run_id} (plan POS {:.4}, best possible {:.4})\n{}",
+            out.display(),
+            summary.pos_plan.unwrap_or(0.0),
+            summary.pos_optimal_bound.unwrap_or(0.0),
+            CAUTION
+        );
+    }
+    Ok(())
+}
+
+/// `seekgrid credibility`: the report of a track record.
+fn credibility_command(a: CredibilityArgs, run_id: &str) -> Result<(), Failure> {
+    let CredibilityArgs {
+        record,
+        out,
+        shrinkage_incidents,
+        json,
+        force,
+    } = a;
+    let options = seekgrid_prior::credibility::CredibilityOptions {
+        shrinkage_incidents,
+    };
+    let report = credibility_report(&record, &options)?;
+    let name = record.display().to_string();
+    if let Some(out) = &out {
+        let dir = open_output(out, force, run_id, std::slice::from_ref(&record))?;
+        seekgrid_render::credibility::write(&report, &name, &dir)
+            .map_err(|e| Failure::failed(e.to_string()))?;
+        commit(dir)?;
+        eprintln!("wrote {} as run {run_id}", out.display());
+    }
+    if json {
+        let doc = seekgrid_render::credibility::credibility_json(&report, &name, None);
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&doc).map_err(|e| Failure::failed(e.to_string()))?
+        );
+    } else {
+        print!(
+            "{}",
+            seekgrid_render::credibility::credibility_table(&report, &name)
+        );
+    }
+    Ok(())
+}
+
+/// `seekgrid review`: the review of an ended incident, and its rows appended to a track record.
+fn review_command(a: ReviewArgs, run_id: &str) -> Result<(), Failure> {
+    let ReviewArgs {
+        file,
+        out,
+        force,
+        record,
+    } = a;
+    let incident = seekgrid_incident::load(&file)?;
+    sized(&incident)?;
+    let mut inputs = incident.input_files();
+    inputs.extend(record.iter().cloned());
+    let dir = open_output(&out, force, run_id, &inputs)?;
+    let (review, doc) = review_incident(&incident, &dir)?;
+    // The rows are made before the folder is put in place, so a review that cannot be
+    // recorded says so before anything is written.
+    let rows = match &record {
+        Some(_) => Some(
+            seekgrid_render::record::record_rows(&file, &review)
+                .map_err(|e| Failure::bad_input(format!("--record: nothing appended: {e}")))?,
+        ),
+        None => None,
+    };
+    commit(dir)?;
+    if let (Some(path), Some(rows)) = (&record, rows) {
+        let appended =
+            seekgrid_render::record::append_record(path, &rows, run_id).map_err(|e| match e {
+                RenderError::Io { .. } | RenderError::Internal(_) => Failure::failed(e.to_string()),
+                other => Failure::bad_input(format!(
+                    "{}: the review is written to {}, but no row was appended: {other}",
+                    path.display(),
+                    out.display()
+                )),
+            })?;
+        eprintln!(
+            "appended {} row(s) to {}{}",
+            appended.rows_added,
+            path.display(),
+            if appended.created {
+                " (created with its header)"
+            } else {
+                ""
+            }
+        );
+    }
+    eprintln!(
+        "wrote {} as run {run_id} (review to {}, {} search(es), cumulative POS {:.4}{})\n{}",
+        out.display(),
+        doc.end,
+        doc.searches.len(),
+        doc.pos_cumulative,
+        doc.pod_at_truth_cumulative
+            .map_or(String::new(), |p| format!(
+                ", POD at the found position {p:.4}"
+            )),
+        CAUTION
+    );
+    Ok(())
 }
 
 /// Reads a track record and builds its credibility report; shared by `credibility` and `demo`.

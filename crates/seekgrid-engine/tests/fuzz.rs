@@ -16,8 +16,8 @@
 //! * `SEEKGRID_FUZZ_SEED`: the seed of the first round (default: derived from the target's
 //!   name). A failure prints the seed of its round and the command that repeats it.
 //!
-//! `cargo test -p seekgrid-incident --release --test fuzz`; a long run of one target:
-//! `SEEKGRID_FUZZ_SECONDS=600 cargo test -p seekgrid-incident --release --test fuzz
+//! `cargo test -p seekgrid-engine --release --test fuzz`; a long run of one target:
+//! `SEEKGRID_FUZZ_SECONDS=600 cargo test -p seekgrid-engine --release --test fuzz
 //! incident_file -- --nocapture`.
 
 use geo::{Coord, MultiPolygon};
@@ -99,7 +99,7 @@ where
             Err(TestError::Fail(reason, value)) => panic!(
                 "fuzz target {name} failed: {reason}\nminimal input: {value:#?}\nrepeat with: \
                  SEEKGRID_FUZZ_SEED={seed} SEEKGRID_FUZZ_CASES={cases} cargo test -p \
-                 seekgrid-incident --release --test fuzz {name} -- --nocapture"
+                 seekgrid-engine --release --test fuzz {name} -- --nocapture"
             ),
             Err(TestError::Abort(reason)) => {
                 panic!("fuzz target {name} aborted at seed {seed}: {reason}")
