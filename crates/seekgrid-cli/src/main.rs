@@ -328,12 +328,7 @@ fn map_command(a: MapArgs, run_id: &str) -> Result<(), Failure> {
         strict,
         force,
     } = a;
-    let layers: Vec<Layer> = outputs.iter().map(|l| l.0).collect();
-    let selection = if layers.is_empty() {
-        OutputSelection::map_default()
-    } else {
-        OutputSelection::of(&layers)
-    };
+    let selection = chosen(outputs.iter().map(|l| l.0), OutputSelection::map_default);
     let at = at.map(|t| parse_time(&t, "--at")).transpose()?;
     let incident = seekgrid_incident::load(&file)?;
     sized(&incident)?;
@@ -341,10 +336,7 @@ fn map_command(a: MapArgs, run_id: &str) -> Result<(), Failure> {
     let summary = map_incident(&incident, &dir, at, &selection, strict)?;
     commit(dir)?;
     if json {
-        println!(
-            "{}",
-            serde_json::to_string_pretty(&summary).map_err(|e| Failure::failed(e.to_string()))?
-        );
+        print_json(&summary)?;
     } else {
         eprintln!("{}", one_line(&summary, &out, run_id));
     }
@@ -362,12 +354,7 @@ fn plan_command(a: PlanArgs, run_id: &str) -> Result<(), Failure> {
         strict,
         force,
     } = a;
-    let layers: Vec<Layer> = outputs.iter().map(|l| l.0).collect();
-    let selection = if layers.is_empty() {
-        OutputSelection::plan_default()
-    } else {
-        OutputSelection::of(&layers)
-    };
+    let selection = chosen(outputs.iter().map(|l| l.0), OutputSelection::plan_default);
     let start = parse_time(&start, "--start")?;
     let incident = seekgrid_incident::load(&file)?;
     sized(&incident)?;
@@ -375,10 +362,7 @@ fn plan_command(a: PlanArgs, run_id: &str) -> Result<(), Failure> {
     let summary = plan_incident(&incident, &dir, start, &selection, strict)?;
     commit(dir)?;
     if json {
-        println!(
-            "{}",
-            serde_json::to_string_pretty(&summary).map_err(|e| Failure::failed(e.to_string()))?
-        );
+        print_json(&summary)?;
     } else {
         eprintln!(
             "wrote {} as run {run_id} (plan POS {:.4}, best possible {:.4})\n{}",
@@ -414,10 +398,7 @@ fn credibility_command(a: CredibilityArgs, run_id: &str) -> Result<(), Failure> 
     }
     if json {
         let doc = seekgrid_render::credibility::credibility_json(&report, &name, None);
-        println!(
-            "{}",
-            serde_json::to_string_pretty(&doc).map_err(|e| Failure::failed(e.to_string()))?
-        );
+        print_json(&doc)?;
     } else {
         print!(
             "{}",
@@ -538,6 +519,26 @@ fn located(incident: &Incident, item: Option<Item>, message: &str) -> Failure {
         Some(item) => Failure::bad_input(incident.error_at(&item, message).to_string()),
         None => Failure::bad_input(format!("{}: {message}", incident.path.display())),
     }
+}
+
+/// The layers chosen with `--outputs`, or `default` when none is given.
+fn chosen(
+    layers: impl Iterator<Item = Layer>,
+    default: fn() -> OutputSelection,
+) -> OutputSelection {
+    let layers: Vec<Layer> = layers.collect();
+    if layers.is_empty() {
+        default()
+    } else {
+        OutputSelection::of(&layers)
+    }
+}
+
+/// Prints `value` as pretty JSON on standard output (`--json`).
+fn print_json(value: &impl serde::Serialize) -> Result<(), Failure> {
+    let text = serde_json::to_string_pretty(value).map_err(|e| Failure::failed(e.to_string()))?;
+    println!("{text}");
+    Ok(())
 }
 
 /// Prints each warning on standard error as `FILE:LINE:COL: warning: …`; under `--strict`,
