@@ -141,17 +141,11 @@ pub(crate) fn environment_covers(incident: &Incident, end: Time) -> Result<(), M
         let ScenarioKind::Drift(d) = &s.kind else {
             continue;
         };
-        if d.hold_environment_beyond_series {
-            continue;
-        }
-        let until = end.max(d.adrift_latest);
-        for (key, v) in [("current", &d.current), ("wind", &d.wind)] {
-            if let Some(message) = v.uncovered(key, d.adrift_earliest, until) {
-                return Err(MapError::EnvironmentNotCovered {
-                    id: s.id.clone(),
-                    message,
-                });
-            }
+        if let Some((_, _, message)) = d.environment_gaps(end).into_iter().next() {
+            return Err(MapError::EnvironmentNotCovered {
+                id: s.id.clone(),
+                message,
+            });
         }
     }
     Ok(())

@@ -38,6 +38,56 @@ pub fn scale_error(zone: UtmZone, lon_deg: f64, lat_deg: f64) -> Option<f64> {
     (ground > 0.0 && projected.is_finite()).then(|| projected / ground - 1.0)
 }
 
+/// Where a `crs` stands from the incident's first position.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ZoneDistance {
+    /// The first position, [lon, lat].
+    pub position: [f64; 2],
+    /// Degrees of longitude from the `crs` zone's central meridian ([`degrees_from_central_meridian`]).
+    pub off_deg: f64,
+    /// The position's own UTM zone.
+    pub own: UtmZone,
+    /// The relative error of distances drawn in the `crs` zone there ([`scale_error`]).
+    pub scale_error: Option<f64>,
+}
+
+/// How far a `crs` is from the position's own zone.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ZoneReach {
+    /// Within half a zone of its central meridian: the position's own zone (or as good).
+    Own,
+    /// In the neighbouring zone ([`ZONE_HALF_WIDTH_DEG`] to [`NEIGHBOUR_ZONE_DEG`]): a warning.
+    Neighbouring,
+    /// Farther: refused unless the file says `allow_distant_crs = true`.
+    Distant,
+}
+
+impl ZoneDistance {
+    /// How far `zone` is from `position`; `None` where the position has no UTM zone.
+    #[must_use]
+    pub fn of(zone: UtmZone, position: [f64; 2]) -> Option<Self> {
+        let [lon, lat] = position;
+        Some(Self {
+            position,
+            off_deg: degrees_from_central_meridian(zone, lon),
+            own: UtmZone::for_position(lon, lat).ok()?,
+            scale_error: scale_error(zone, lon, lat),
+        })
+    }
+
+    /// Which of the three reaches the distance falls in.
+    #[must_use]
+    pub fn reach(&self) -> ZoneReach {
+        if self.off_deg <= ZONE_HALF_WIDTH_DEG {
+            ZoneReach::Own
+        } else if self.off_deg <= NEIGHBOUR_ZONE_DEG {
+            ZoneReach::Neighbouring
+        } else {
+            ZoneReach::Distant
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

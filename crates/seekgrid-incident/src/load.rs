@@ -350,27 +350,25 @@ impl Validator<'_> {
     /// Refuses a `crs` whose zone is past the neighbouring one from the first position: grid
     /// distances there are off by percents (a typing slip in the zone number, usually).
     fn distant_crs(&mut self, crs: Option<UtmZone>, scenarios: &[ScenarioDef]) {
-        let (Some(zone), Some([lon, lat])) = (crs, crate::model::first_position(scenarios)) else {
+        let (Some(zone), Some(position)) = (crs, crate::model::first_position(scenarios)) else {
             return;
         };
-        let off = crate::crs::degrees_from_central_meridian(zone, lon);
-        if off <= crate::crs::NEIGHBOUR_ZONE_DEG {
+        let Some(d) = crate::crs::ZoneDistance::of(zone, position) else {
+            return;
+        };
+        if d.reach() != crate::crs::ZoneReach::Distant {
             return;
         }
-        let Ok(own) = UtmZone::for_position(lon, lat) else {
-            return;
-        };
-        let error = crate::crs::scale_error(zone, lon, lat)
-            .filter(|e| e.abs() < 10.0)
-            .map_or_else(
-                || "where that zone cannot draw distances at all".to_owned(),
-                |e| {
-                    format!(
-                        "where its grid distances differ from those on the ground by {:+.1} %",
-                        100.0 * e
-                    )
-                },
-            );
+        let ([lon, lat], off, own) = (d.position, d.off_deg, d.own);
+        let error = d.scale_error.filter(|e| e.abs() < 10.0).map_or_else(
+            || "where that zone cannot draw distances at all".to_owned(),
+            |e| {
+                format!(
+                    "where its grid distances differ from those on the ground by {:+.1} %",
+                    100.0 * e
+                )
+            },
+        );
         self.err(
             &p("incident").key("crs"),
             format!(
@@ -390,20 +388,8 @@ impl Validator<'_> {
             let ScenarioKind::Drift(d) = &s.kind else {
                 continue;
             };
-            if d.hold_environment_beyond_series {
-                continue;
-            }
-            let end = until.max(d.adrift_latest);
-            for (key, v) in [("current", &d.current), ("wind", &d.wind)] {
-                if let Some(message) = v.uncovered(key, d.adrift_earliest, end) {
-                    let at = s.at.key(key);
-                    let at = if matches!(v, VectorDef::Field { .. }) {
-                        at.key("field")
-                    } else {
-                        at.key("series")
-                    };
-                    self.err(&at, message);
-                }
+            for (key, file_key, message) in d.environment_gaps(until) {
+                self.err(&s.at.key(key).key(file_key), message);
             }
         }
     }

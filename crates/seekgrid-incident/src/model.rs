@@ -822,6 +822,30 @@ impl VectorDef {
 }
 
 impl DriftDef {
+    /// The wind and current that do not cover this drift from going adrift to the later of
+    /// `until` and the latest time adrift: for each, its key in the scenario (`"current"`,
+    /// `"wind"`), the key of its file (`"series"`, `"field"`) and what is missing. Empty when
+    /// they cover it, or when the scenario says `hold_environment_beyond_series = true`.
+    #[must_use]
+    pub fn environment_gaps(&self, until: Time) -> Vec<(&'static str, &'static str, String)> {
+        if self.hold_environment_beyond_series {
+            return Vec::new();
+        }
+        let end = until.max(self.adrift_latest);
+        [("current", &self.current), ("wind", &self.wind)]
+            .into_iter()
+            .filter_map(|(key, v)| {
+                let file_key = if matches!(v, VectorDef::Field { .. }) {
+                    "field"
+                } else {
+                    "series"
+                };
+                v.uncovered(key, self.adrift_earliest, end)
+                    .map(|message| (key, file_key, message))
+            })
+            .collect()
+    }
+
     /// The drift crate's scenario.
     ///
     /// # Errors

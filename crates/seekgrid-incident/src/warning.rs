@@ -9,7 +9,6 @@
 use crate::crs;
 use crate::locate::FieldPath;
 use crate::model::{Incident, Item};
-use seekgrid_core::UtmZone;
 use serde::Serialize;
 use std::path::PathBuf;
 
@@ -138,13 +137,12 @@ impl Incident {
     /// are quiet; farther ones are refused by the loader unless `allow_distant_crs = true`).
     fn crs_warning(&self) -> Option<Warning> {
         let zone = self.crs?;
-        let [lon, lat] = self.first_position()?;
-        let off = crs::degrees_from_central_meridian(zone, lon);
-        if off <= crs::ZONE_HALF_WIDTH_DEG || off > crs::NEIGHBOUR_ZONE_DEG {
+        let d = crs::ZoneDistance::of(zone, self.first_position()?)?;
+        if d.reach() != crs::ZoneReach::Neighbouring {
             return None;
         }
-        let own = UtmZone::for_position(lon, lat).ok()?;
-        let error = crs::scale_error(zone, lon, lat).unwrap_or(f64::NAN);
+        let ([lon, lat], off, own) = (d.position, d.off_deg, d.own);
+        let error = d.scale_error.unwrap_or(f64::NAN);
         Some(Warning::new(
             WarningKind::CrsNeighbouringZone,
             Item::Header,
