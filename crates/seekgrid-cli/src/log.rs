@@ -529,11 +529,11 @@ fn grid_extent(
     at: DateTime<Utc>,
 ) -> Result<seekgrid_core::ProjectedBox, Failure> {
     let at = at.max(incident.reference_time);
-    let m = seekgrid_engine::timeline::map(
+    let grid = seekgrid_engine::timeline::grid_at(
         incident,
         &seekgrid_engine::MapOptions { at: Some(at) },
         &|_, _, _| {},
     )
     .map_err(|e| bad(format!("{}: {e}", incident.path.display())))?;
-    Ok(m.grid.extent())
+    Ok(grid.extent())
 }

@@ -214,6 +214,25 @@ pub fn map(
     })
 }
 
+/// The grid [`map`] would compute on for `options`, without the belief: the first steps of
+/// [`map`] only (the inputs, the drift, the grid extent), for a caller that needs no more, such as
+/// `seekgrid log` checking that a new search reaches the grid.
+///
+/// # Errors
+/// See [`MapError`]; the same errors [`map`] gives in these steps.
+pub fn grid_at(
+    incident: &Incident,
+    options: &MapOptions,
+    progress: Progress<'_>,
+) -> Result<GridSpec, MapError> {
+    let prepared = prepare(incident)?;
+    let schedule = Schedule::new(incident, &prepared, options);
+    crate::warnings::environment_covers(incident, schedule.drift_end())?;
+    let drift_runs = run_drift(&prepared, &schedule, progress)?;
+    let drifting = Drifting { runs: &drift_runs };
+    choose_grid(incident, &prepared, &schedule, &drifting).map(|(grid, _)| grid)
+}
+
 /// An incident set up at its reference time, ready to be carried forward: the inputs in the
 /// frame, the drift simulated once, the grid, and the belief before any search. [`map`] and
 /// the review ([`crate::review`]) both start here; the review then reads the belief at many

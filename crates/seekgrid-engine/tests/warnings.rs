@@ -175,3 +175,21 @@ fn a_map_beyond_the_wind_series_is_refused_unless_the_file_says_hold() {
     let (_dir, inc) = load(&held);
     assert!(map(&inc, &at("2026-06-15T15:01:00Z"), &|_, _, _| {}).is_ok());
 }
+
+#[test]
+fn the_grid_alone_is_the_grid_of_the_map() {
+    // grid_at runs only the first steps of map (inputs, drift, extent): the same grid.
+    let (_dir, inc) = load(&format!(
+        "{}{FAR_SEARCH}",
+        TWO_ANALYSTS.replace("object_afloat = true\n", "")
+    ));
+    let (_dir2, drift) = load(DRIFT);
+    for (inc, options) in [
+        (&inc, MapOptions { at: None }),
+        (&drift, at("2026-06-14T12:00:00Z")),
+    ] {
+        let grid = seekgrid_engine::timeline::grid_at(inc, &options, &|_, _, _| {}).unwrap();
+        let m = map(inc, &options, &|_, _, _| {}).unwrap();
+        assert_eq!(grid, m.grid);
+    }
+}
