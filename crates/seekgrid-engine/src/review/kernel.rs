@@ -3,30 +3,22 @@
 //! scores.
 //!
 //! The map spreads each particle with a Gaussian kernel integrated over the cells (Silverman's
-//! bandwidth h per cloud, truncated at 4 h, renormalised over the cells inside the grid). Done
-//! particle by particle that costs (8 h / cell)² operations per particle: about 2·10⁹ for
-//! 200,000 particles at h = 13 cells, seconds per time. The review needs the field at every
-//! search end and every hour, so for a cloud whose bandwidth is at least
-//! [`FAST_FROM_CELLS`] cells it:
-//!
-//! 1. shares each particle's mass between the four nearest cell centres, in proportion to its
-//!    distance from them (bilinear, "cloud-in-cell" binning: R. W. Hockney and J. W. Eastwood,
-//!    *Computer Simulation Using Particles*, 1981, ch. 5; from memory);
-//! 2. spreads each cell centre's mass with the same cell-integrated, truncated kernel, one axis
-//!    after the other (the kernel is a product of a kernel in x and one in y), each source
-//!    renormalised over the cells inside the grid.
-//!
-//! That is the map's kernel with every particle moved to a cell centre and the shift undone
-//! linearly: the field's variance grows by about s²/6 per axis (s the cell side), a relative
-//! change of the peak density of about s²/(6 h²), 4 % at h = 2 s and below 0.5 % at h = 6 s
-//! (computed from the variances; checked against the particle-by-particle field in the tests
-//! below). Narrower clouds are spread exactly, particle by particle, which is then cheap.
-//! Mass is kept exactly as in the map: the particles inside the grid, stranded ones in their
-//! own cell.
+//! bandwidth h per cloud, truncated at 4 h, renormalised over the cells inside the grid), by
+//! [`seekgrid_core::particle_density::add_particles_where_accurate`]: binned onto the cell
+//! centres and convolved where that stays within 1e-4 of the particle-by-particle spread,
+//! particle by particle elsewhere. The review needs the field at every search end and every
+//! hour, so its timeline bins every cloud whose bandwidth is at least [`FAST_FROM_CELLS`] cell
+//! sides ([`seekgrid_core::particle_density::add_particles_binned`]), also narrower or smaller
+//! clouds than the map bins: the binning adds about s²/6 to each particle's variance per axis
+//! and the binned kernel takes that much off on average, so what remains is the spread of
+//! f (1 − f) s² about s²/6 (f the particle's offset from a centre), at most about s²/(6 h²) of
+//! the peak for a cloud narrower than a cell (4 % at h = 2 s; computed; checked against the
+//! particle-by-particle field in the tests below). Narrower clouds are spread exactly,
+//! particle by particle, which is then cheap. Mass is kept exactly as in the map: the
+//! particles inside the grid, stranded ones in their own cell.
 
 use ndarray::Array2;
-use rayon::prelude::*;
-use seekgrid_core::particle_density::{add_particles, silverman_bandwidth_m};
+use seekgrid_core::particle_density::{add_particles, add_particles_binned, silverman_bandwidth_m};
 use seekgrid_core::{GridSpec, Particles, neumaier_sum};
 use std::ops::Range;
 
@@ -53,154 +45,7 @@ pub(crate) fn add_particles_fast(
         if h < FAST_FROM_CELLS * s {
             add_particles(cells, grid, particles, std::slice::from_ref(range));
         } else {
-            spread_cloud(cells, grid, particles, range.clone(), h);
-        }
-    }
-}
-
-/// The kernel of one source at a cell centre: the mass of a normal (bandwidth `h`) in the
-/// cells at offsets `first..first + len`, those meeting ±4 h.
-fn centred_kernel(h: f64, s: f64) -> (isize, Vec<f64>) {
-    // Cells meeting [x - 4h, x + 4h] for x at a centre: floor(0.5 - 4h/s) ..= ceil(0.5 + 4h/s) - 1.
-    let first = (0.5 - 4.0 * h / s).floor() as isize;
-    let end = (0.5 + 4.0 * h / s).ceil() as isize;
-    let g = (first..end)
-        .map(|k| {
-            let k = k as f64;
-            (phi((k + 0.5) * s / h) - phi((k - 0.5) * s / h)).max(0.0)
-        })
-        .collect();
-    (first, g)
-}
-
-/// Per source index, the kernel mass that falls inside `0..n`.
-fn normalisers(first: isize, g: &[f64], n: usize) -> Vec<f64> {
-    (0..n as isize)
-        .map(|c| {
-            g.iter()
-                .enumerate()
-                .filter(|(j, _)| {
-                    let t = c + first + *j as isize;
-                    t >= 0 && t < n as isize
-                })
-                .map(|(_, v)| *v)
-                .sum()
-        })
-        .collect()
-}
-
-/// Lower neighbouring centre and the share of the upper one, clamped to `0..n`.
-fn bilinear(u: f64, n: usize) -> (usize, usize, f64) {
-    let lo = u.floor();
-    let f = u - lo;
-    let lo = lo as isize;
-    let last = n as isize - 1;
-    if lo < 0 {
-        (0, 0, 0.0)
-    } else if lo >= last {
-        (last as usize, last as usize, 0.0)
-    } else {
-        (lo as usize, lo as usize + 1, f)
-    }
-}
-
-fn spread_cloud(
-    cells: &mut Array2<f64>,
-    grid: &GridSpec,
-    particles: &Particles,
-    range: Range<usize>,
-    h: f64,
-) {
-    let (rows, cols) = (grid.rows(), grid.cols());
-    let s = grid.cell_m();
-    let (west, north) = (grid.west_m(), grid.north_m());
-    let mut binned = Array2::<f64>::zeros((rows, cols));
-    let (mut r_min, mut r_max, mut c_min, mut c_max) = (usize::MAX, 0, usize::MAX, 0);
-    for i in range {
-        let w = particles.weights()[i];
-        if w == 0.0 {
-            continue;
-        }
-        let p = particles.position(i);
-        let Some(own) = grid.locate(p) else {
-            continue;
-        };
-        if particles.stranded()[i] {
-            cells[own] += w;
-            continue;
-        }
-        let (c0, c1, fx) = bilinear((p.x - west) / s - 0.5, cols);
-        let (r0, r1, fy) = bilinear((north - p.y) / s - 0.5, rows);
-        binned[[r0, c0]] += w * (1.0 - fx) * (1.0 - fy);
-        binned[[r0, c1]] += w * fx * (1.0 - fy);
-        binned[[r1, c0]] += w * (1.0 - fx) * fy;
-        binned[[r1, c1]] += w * fx * fy;
-        r_min = r_min.min(r0);
-        r_max = r_max.max(r1);
-        c_min = c_min.min(c0);
-        c_max = c_max.max(c1);
-    }
-    if r_min > r_max {
-        return;
-    }
-    let (first, g) = centred_kernel(h, s);
-    let nx = normalisers(first, &g, cols);
-    let ny = normalisers(first, &g, rows);
-    let reach = |lo: usize, hi: usize, n: usize| {
-        let a = (lo as isize + first).max(0) as usize;
-        let b = ((hi as isize + first + g.len() as isize).max(0) as usize).min(n);
-        a..b
-    };
-    let out_cols = reach(c_min, c_max, cols);
-    let out_rows = reach(r_min, r_max, rows);
-    let width = out_cols.len();
-
-    // Pass along x: each source row of the box spread over the output columns.
-    let src_rows: Vec<usize> = (r_min..=r_max).collect();
-    let mut along_x = vec![0.0; src_rows.len() * width];
-    along_x
-        .par_chunks_mut(width)
-        .zip(src_rows.par_iter())
-        .for_each(|(out, &r)| {
-            let norm_y = ny[r];
-            for c in c_min..=c_max {
-                let m = binned[[r, c]];
-                if m == 0.0 {
-                    continue;
-                }
-                let m = m / (nx[c] * norm_y);
-                // Offsets j put mass into column c + first + j; keep those inside the output.
-                let base = c as isize + first - out_cols.start as isize;
-                let j0 = (-base).max(0) as usize;
-                let j1 = ((width as isize - base).max(0) as usize).min(g.len());
-                for j in j0..j1 {
-                    out[(base + j as isize) as usize] += m * g[j];
-                }
-            }
-        });
-
-    // Pass along y: each output row gathers the source rows within reach.
-    let mut field = vec![0.0; out_rows.len() * width];
-    field
-        .par_chunks_mut(width)
-        .zip(out_rows.clone().into_par_iter())
-        .for_each(|(out, r)| {
-            for (j, gv) in g.iter().enumerate() {
-                // Source row r0 reaches r when r = r0 + first + j.
-                let r0 = r as isize - first - j as isize;
-                if r0 < r_min as isize || r0 > r_max as isize {
-                    continue;
-                }
-                let src = &along_x[(r0 as usize - r_min) * width..][..width];
-                for (o, v) in out.iter_mut().zip(src) {
-                    *o += gv * v;
-                }
-            }
-        });
-    for (k, r) in out_rows.enumerate() {
-        let row = &field[k * width..][..width];
-        for (c, v) in out_cols.clone().zip(row) {
-            cells[[r, c]] += v;
+            add_particles_binned(cells, grid, particles, std::slice::from_ref(range));
         }
     }
 }
