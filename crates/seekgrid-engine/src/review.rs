@@ -39,7 +39,10 @@
 //! * **Truth**: the found position. Its density is the belief's probability in the grid cell
 //!   that holds it divided by the cell's area (per km²); drifting particles are spread by the
 //!   map's kernel ([`seekgrid_core::particle_density`]; in the timeline by its fast binned form,
-//!   see `review/kernel.rs`). The rank ([`seekgrid_core::rank::truth_rank`]) is the mass and
+//!   see `review/kernel.rs`). The scores read that kernel particle by particle in the truth's
+//!   cell alone; the map bins wide clouds of many particles, within 1e-4 of the peak cell of
+//!   the particle-by-particle spread, so a map's POC at the truth may differ from the scores'
+//!   by that much. The rank ([`seekgrid_core::rank::truth_rank`]) is the mass and
 //!   area of the cells the belief rated denser than the truth. For a drifting object the
 //!   timeline's density is that of the found *place* at each time, not of where the object was
 //!   then; likewise a search's POD at the truth is its POD at the found place.
