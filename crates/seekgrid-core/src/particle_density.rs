@@ -689,7 +689,7 @@ mod tests {
                 .collect();
             let n = xs.len();
             let p = Particles::new(xs, ys, vec![1.0 / n as f64; n], vec![false; n]).unwrap();
-            let ranges = [0..n];
+            let ranges = std::slice::from_ref(&(0..n)).to_vec();
             let h = silverman_bandwidth_m(&p, 0..n, grid.cell_m());
             assert!(binned_is_accurate(h, grid.cell_m(), n), "h = {h}");
             let (worst, mass) = binned_against_direct(&grid, &p, &ranges);
