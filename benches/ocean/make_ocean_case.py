@@ -203,8 +203,8 @@ def main():
     ap.add_argument("--seed", type=int, default=16)
     ap.add_argument("--particles-total", type=int, default=1_000_000,
                     help="particles over all drift scenarios (default 1,000,000)")
-    ap.add_argument("--cell-m", type=float, default=60.0,
-                    help="[grid] cell_m (default 60: an automatic grid of about 4 M cells)")
+    ap.add_argument("--cell-m", type=float, default=150.0,
+                    help="[grid] cell_m (default 150: an automatic grid of about 4 M cells)")
     ap.add_argument("--force", action="store_true", help="replace the files of an earlier run")
     args = ap.parse_args()
     OUT = args.dir
@@ -241,6 +241,10 @@ def main():
     w("")
     w("[grid]")
     w(f"cell_m = {args.cell_m:g}")
+    # `check` sizes the grid before any drift from the drift's possible reach (about 740 km
+    # square here), far wider than the automatic grid `map` settles on (about 2000 x 2000
+    # cells): the default limit would refuse the case.
+    w("max_cells = 25000000")
     w("")
 
     # Analysts.
@@ -363,10 +367,10 @@ def main():
     # Searches: 50 over the 48 hours after T0, alternating a GPS track and a pattern, each
     # placed near where the drift would be at its middle.
     craft = [  # unit, speed kn, fix interval s, sweep width range m
-        ("aircraft-1", 150.0, 30, (4000, 7000)), ("aircraft-2", 140.0, 30, (4000, 7000)),
-        ("helicopter-1", 90.0, 20, (2500, 4500)), ("helicopter-2", 95.0, 20, (2500, 4500)),
-        ("vessel-1", 12.0, 60, (1500, 3000)), ("vessel-2", 14.0, 60, (1500, 3000)),
-        ("vessel-3", 10.0, 60, (1200, 2500)),
+        ("aircraft-1", 150.0, 30, (1500, 3000)), ("aircraft-2", 140.0, 30, (1500, 3000)),
+        ("helicopter-1", 90.0, 20, (1000, 2500)), ("helicopter-2", 95.0, 20, (1000, 2500)),
+        ("vessel-1", 12.0, 60, (600, 1500)), ("vessel-2", 14.0, 60, (600, 1500)),
+        ("vessel-3", 10.0, 60, (500, 1200)),
     ]
     patterns = ["parallel-sweep", "creeping-line", "expanding-square", "sector-search"]
     tracks = 0
@@ -450,8 +454,8 @@ def main():
 
     # Units for the next period.
     for uid, speed, hours, sweep, spacing_min in (
-            ("aircraft-1", 150, 5, 6000, 2000), ("helicopter-1", 90, 3, 3500, 1000),
-            ("vessel-1", 12, 10, 2500, 800), ("vessel-2", 14, 10, 2200, 800)):
+            ("aircraft-1", 150, 5, 2500, 1500), ("helicopter-1", 90, 3, 1800, 800),
+            ("vessel-1", 12, 10, 1200, 500), ("vessel-2", 14, 10, 1000, 500)):
         w("[[unit]]")
         w(f'id = "{uid}"')
         w(f"speed_kn = {speed}")
