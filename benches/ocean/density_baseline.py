@@ -143,12 +143,11 @@ def bin_sources(x, y, w, h, s, rows, cols):
     r_lo, r_hi = int(cy.min()) - 2, int(cy.max()) + 3
     c_lo, c_hi = int(cx.min()) - 2, int(cx.max()) + 3
     bw = c_hi - c_lo
-    flat = np.zeros((r_hi - r_lo) * bw)
-    for a in range(5):
-        ra = (cy + offs[a] - r_lo) * bw
-        wa = k * sy[a]
-        for b in range(5):
-            flat += np.bincount(ra + cx + offs[b] - c_lo, weights=wa * sx[b], minlength=flat.size)
+    # All 25 shares of every particle in one bincount.
+    idx = ((cy[None, :] + offs[:, None] - r_lo) * bw)[:, None, :] \
+        + (cx[None, :] + offs[:, None] - c_lo)[None, :, :]
+    wts = (k * sy)[:, None, :] * sx[None, :, :]
+    flat = np.bincount(idx.ravel(), weights=wts.ravel(), minlength=(r_hi - r_lo) * bw)
     return first, g, flat.reshape(r_hi - r_lo, bw), r_lo, c_lo
 
 
