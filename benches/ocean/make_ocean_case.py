@@ -244,7 +244,7 @@ def main():
     # `check` sizes the grid before any drift from the drift's possible reach (about 740 km
     # square here), far wider than the automatic grid `map` settles on (about 2000 x 2000
     # cells): the default limit would refuse the case.
-    w("max_cells = 25000000")
+    w("max_cells = 36000000")
     w("")
 
     # Analysts.
