@@ -113,6 +113,10 @@ struct MapArgs {
     /// complete, no file of it stays
     #[arg(long)]
     force: bool,
+    /// Print how long each phase took (wall clock and CPU seconds) on standard error; the
+    /// same figures are in summary.json under `phases`
+    #[arg(long)]
+    verbose: bool,
 }
 
 /// The options of `seekgrid plan`.
@@ -142,6 +146,10 @@ struct PlanArgs {
     /// complete, no file of it stays
     #[arg(long)]
     force: bool,
+    /// Print how long each phase took (wall clock and CPU seconds) on standard error; the
+    /// same figures are in summary.json under `phases`
+    #[arg(long)]
+    verbose: bool,
 }
 
 /// The options of `seekgrid credibility`.
@@ -327,6 +335,7 @@ fn map_command(a: MapArgs, run_id: &str) -> Result<(), Failure> {
         json,
         strict,
         force,
+        verbose,
     } = a;
     let selection = chosen(outputs.iter().map(|l| l.0), OutputSelection::map_default);
     let at = at.map(|t| parse_time(&t, "--at")).transpose()?;
@@ -335,6 +344,9 @@ fn map_command(a: MapArgs, run_id: &str) -> Result<(), Failure> {
     let dir = open_output(&out, force, run_id, &incident.input_files())?;
     let summary = map_incident(&incident, &dir, at, &selection, strict)?;
     commit(dir)?;
+    if verbose {
+        print_phases(&summary.phases);
+    }
     if json {
         print_json(&summary)?;
     } else {
@@ -353,6 +365,7 @@ fn plan_command(a: PlanArgs, run_id: &str) -> Result<(), Failure> {
         json,
         strict,
         force,
+        verbose,
     } = a;
     let selection = chosen(outputs.iter().map(|l| l.0), OutputSelection::plan_default);
     let start = parse_time(&start, "--start")?;
@@ -361,6 +374,9 @@ fn plan_command(a: PlanArgs, run_id: &str) -> Result<(), Failure> {
     let dir = open_output(&out, force, run_id, &incident.input_files())?;
     let summary = plan_incident(&incident, &dir, start, &selection, strict)?;
     commit(dir)?;
+    if verbose {
+        print_phases(&summary.phases);
+    }
     if json {
         print_json(&summary)?;
     } else {
@@ -717,6 +733,24 @@ fn commit(dir: OutputDir) -> Result<(), Failure> {
         .map_err(|e| Failure::failed(e.to_string()))
 }
 
+/// Prints each phase's wall and CPU time on standard error (`--verbose`), with the totals.
+fn print_phases(phases: &[seekgrid_render::summary::PhaseSummary]) {
+    let width = phases
+        .iter()
+        .map(|p| p.phase.len())
+        .max()
+        .unwrap_or(5)
+        .max(5);
+    let cpu = |c: Option<f64>| c.map_or_else(|| "-".to_owned(), |c| format!("{c:.3}"));
+    eprintln!("{:width$}  {:>9}  {:>9}", "phase", "wall s", "cpu s");
+    for p in phases {
+        eprintln!("{:width$}  {:>9.3}  {:>9}", p.phase, p.wall_s, cpu(p.cpu_s));
+    }
+    let wall: f64 = phases.iter().map(|p| p.wall_s).sum();
+    let total_cpu = phases.iter().map(|p| p.cpu_s).sum::<Option<f64>>();
+    eprintln!("{:width$}  {:>9.3}  {:>9}", "total", wall, cpu(total_cpu));
+}
+
 /// Runs `work` with a progress callback that drives a bar on a terminal (and does nothing
 /// when standard error is piped), then clears the bar.
 fn with_progress<T>(work: impl FnOnce(seekgrid_engine::timeline::Progress<'_>) -> T) -> T {
@@ -725,7 +759,7 @@ fn with_progress<T>(work: impl FnOnce(seekgrid_engine::timeline::Progress<'_>) -
         if let Some(b) = &bar {
             b.set_length(total);
             b.set_position(done);
-            b.set_message(format!("drifting {what}"));
+            b.set_message(what.to_owned());
         }
     };
     let result = work(&progress);
@@ -742,7 +776,7 @@ fn progress_bar() -> Option<indicatif::ProgressBar> {
     }
     let b = indicatif::ProgressBar::new(0);
     if let Ok(style) =
-        indicatif::ProgressStyle::with_template("{msg:20} [{bar:40}] {pos}/{len} particles ({eta})")
+        indicatif::ProgressStyle::with_template("{msg:32} [{bar:40}] {pos}/{len} ({eta})")
     {
         b.set_style(style.progress_chars("=> "));
     }

@@ -23,6 +23,7 @@
 
 pub mod credibility;
 mod located;
+pub mod phases;
 pub mod planning;
 pub mod prepare;
 pub mod review;

@@ -39,6 +39,18 @@ pub enum PlanRunError {
     Plan(#[from] plan::PlanError),
 }
 
+/// The practical plan of `units` against the map's belief, timed as the phase `practical plan`.
+fn practical(
+    m: &IncidentMap,
+    units: &[plan::UnitSpec],
+    options: &plan::PlanOptions,
+    progress: Progress<'_>,
+) -> Result<plan::Plan, plan::PlanError> {
+    m.phases.time_shown("practical plan", progress, || {
+        plan::plan(&m.belief, units, options)
+    })
+}
+
 /// Plans the period starting at `start` against the belief at that time.
 ///
 /// # Errors
@@ -54,7 +66,9 @@ pub fn plan_at(
     let m = map(incident, &MapOptions { at: Some(start) }, progress)?;
     let units: Vec<plan::UnitSpec> = incident.units.iter().map(UnitDef::spec).collect();
     let options = plan::PlanOptions::default();
-    let bound = plan::optimal_bound(&m.belief, &units, &options)?;
+    let bound = m.phases.time_shown("plan bound", progress, || {
+        plan::optimal_bound(&m.belief, &units, &options)
+    })?;
     let teams: Vec<plan::UnitSpec> = units
         .iter()
         .filter(|u| matches!(u.kind, plan::UnitKind::GroundTeam { .. }))
@@ -67,8 +81,7 @@ pub fn plan_at(
         .collect();
     let (segments, areas) = match (&m.prepared.segments, teams.is_empty()) {
         (Some(segs), false) => {
-            let poc = &m.poc;
-            let rows = seekgrid_prior::segment_table(poc, &m.grid, segs);
+            let rows = seekgrid_prior::segment_table(m.poc(), &m.grid, segs);
             let table: Vec<(String, f64, f64)> = rows
                 .iter()
                 .map(|r| (r.id.clone(), r.poa, r.area_m2))
@@ -77,11 +90,11 @@ pub fn plan_at(
             let areas = if others.is_empty() {
                 None
             } else {
-                Some(plan::plan(&m.belief, &others, &options)?)
+                Some(practical(&m, &others, &options, progress)?)
             };
             (Some(sp), areas)
         }
-        _ => (None, Some(plan::plan(&m.belief, &units, &options)?)),
+        _ => (None, Some(practical(&m, &units, &options, progress)?)),
     };
     Ok(PlanRun {
         map: m,

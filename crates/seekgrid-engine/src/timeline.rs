@@ -1,6 +1,7 @@
 //! The timeline of an incident: the prior at the reference time, drift carried forward, and
 //! every completed search applied in time order as a Bayesian update.
 
+use crate::phases::PhaseTimes;
 use crate::prepare::{PrepareError, Prepared, PreparedGeometry, PreparedSearch, prepare};
 use crate::slices;
 use geo::{Coord, Euclidean, Length};
@@ -103,9 +104,14 @@ pub struct IncidentMap {
     /// Cumulative POS of the applied searches, `1 - Π(1 - POS_k)` with each search's
     /// conditional POS (docs/references.md §3).
     pub pos_cumulative: f64,
-    /// The probability of containment per cell at `at`: the grid part plus the particles
-    /// spread by the kernel of [`seekgrid_core::particle_density`], computed once.
-    pub poc: Array2<f64>,
+    /// The probability of containment per cell at `at`, computed on first use by
+    /// [`IncidentMap::poc`].
+    poc: std::sync::OnceLock<Array2<f64>>,
+    /// The index range of each drift scenario's particles in the belief.
+    clouds: Vec<std::ops::Range<usize>>,
+    /// How long each phase of the run took, in the order they ended (the particle density
+    /// when [`IncidentMap::poc`] first computes it; the outputs add theirs).
+    pub phases: PhaseTimes,
     /// Of each stationary scenario's mass on the grid, the share the land (or water) mask
     /// kept, in scenario order; empty when no mask applies.
     pub kept_by_mask: Vec<(String, f64)>,
@@ -167,7 +173,9 @@ pub enum MapError {
     },
 }
 
-/// Progress of long steps (drift simulations): called with (done, total).
+/// Progress of a run: called with the phase running (e.g. `drift adrift-after-the-sighting`,
+/// `searches`, `particle density`) and how much of it is done, (done, total); the drift
+/// counts particles, other phases 0 of 1 as they start and 1 of 1 as they end.
 pub type Progress<'a> = &'a (dyn Fn(&str, u64, u64) + Sync);
 
 /// Computes the map of an incident at a time, in named steps: choose the searches to apply,
@@ -185,17 +193,20 @@ pub fn map(
     let replay = Replay::start(incident, options.at, &[], progress)?;
     let drifting = replay.drifting();
     let mut log = SearchLog::new(replay.belief_before_searches.clone());
-    for s in replay.to_apply() {
-        log.apply(s, &drifting)?;
-    }
-    drifting.move_particles(&mut log.belief, replay.at)?;
-    let poc = poc_cells(
-        &log.belief,
-        &replay.grid,
-        &particle_clouds(&replay.drift_runs),
-    );
+    replay
+        .phases
+        .time_shown("searches", progress, || -> Result<(), MapError> {
+            for s in replay.to_apply() {
+                log.apply(s, &drifting)?;
+            }
+            drifting.move_particles(&mut log.belief, replay.at)?;
+            Ok(())
+        })?;
+    let clouds = particle_clouds(&replay.drift_runs);
     Ok(IncidentMap {
-        poc,
+        poc: std::sync::OnceLock::new(),
+        clouds,
+        phases: replay.phases,
         prepared: replay.prepared,
         grid: replay.grid,
         grid_auto: replay.grid_auto,
@@ -262,6 +273,8 @@ pub(crate) struct Replay {
     pub(crate) kept_by_mask: Vec<(String, f64)>,
     /// See [`IncidentMap::warnings`].
     pub(crate) warnings: Vec<seekgrid_incident::Warning>,
+    /// How long each step took so far.
+    pub(crate) phases: PhaseTimes,
 }
 
 impl Replay {
@@ -275,24 +288,38 @@ impl Replay {
         extra_record_at: &[Time],
         progress: Progress<'_>,
     ) -> Result<Self, MapError> {
-        let prepared = prepare(incident)?;
+        let phases = PhaseTimes::default();
+        let prepared = phases.time_shown("inputs", progress, || prepare(incident))?;
         let mut schedule = Schedule::new(incident, &prepared, &MapOptions { at });
         schedule.extra_record_at = extra_record_at.to_vec();
         crate::warnings::environment_covers(incident, schedule.drift_end())?;
         let mut warnings = incident.warnings();
         warnings.extend(crate::warnings::about_the_time(incident, schedule.at));
-        let drift_runs = run_drift(&prepared, &schedule, progress)?;
+        // The drift reports its own progress, particle by particle.
+        let drift_runs = phases.time("drift", || run_drift(&prepared, &schedule, progress))?;
         let drifting = Drifting { runs: &drift_runs };
-        let (grid, grid_auto) = choose_grid(incident, &prepared, &schedule, &drifting)?;
+        let (grid, grid_auto) = phases.time_shown("grid", progress, || {
+            choose_grid(incident, &prepared, &schedule, &drifting)
+        })?;
         warnings.extend(schedule.leave_out_searches_outside(&grid, grid_auto));
-        let prior = build_prior(&prepared, &grid)?;
-        let mut stationary =
-            StationaryPart::where_the_object_can_be(prior.as_ref(), incident, &prepared, &grid)?;
+        let (prior, mut stationary) =
+            phases.time_shown("stationary part", progress, || -> Result<_, MapError> {
+                let prior = build_prior(&prepared, &grid)?;
+                let stationary = StationaryPart::where_the_object_can_be(
+                    prior.as_ref(),
+                    incident,
+                    &prepared,
+                    &grid,
+                )?;
+                Ok((prior, stationary))
+            })?;
         let kept_by_mask = std::mem::take(&mut stationary.kept_by_mask);
         warnings.extend(crate::warnings::about_the_mask(incident, &kept_by_mask));
         let declared_share_of_outside = stationary.declared_share_of_outside();
         let belief_before_searches =
-            stationary.into_belief(&prepared, &drifting, schedule.reference_time)?;
+            phases.time_shown("belief at the reference time", progress, || {
+                stationary.into_belief(&prepared, &drifting, schedule.reference_time)
+            })?;
         let to_apply = schedule
             .to_apply
             .iter()
@@ -312,6 +339,7 @@ impl Replay {
             pending,
             kept_by_mask,
             warnings,
+            phases,
         })
     }
 
@@ -453,7 +481,8 @@ fn run_drift(
             step_s: None,
             also_record_at: schedule.drift_record_times(d.scenario.adrift_earliest, end),
         };
-        let report = |done: u64, total: u64| progress(&d.id, done, total);
+        let phase = format!("drift {}", d.id);
+        let report = |done: u64, total: u64| progress(&phase, done, total);
         let run = drift::simulate(
             &d.scenario,
             &prepared.frame,
@@ -1048,6 +1077,19 @@ pub(crate) fn particle_clouds(
 }
 
 impl IncidentMap {
+    /// The probability of containment per cell at the map's time: the grid part plus the
+    /// particles spread by the kernel of [`seekgrid_core::particle_density`] (binned where that
+    /// stays within 1e-4 of the direct spread's peak cell, particle by particle elsewhere).
+    /// Computed on the first call only, and timed as the phase `particle density`; outputs
+    /// that do not read it (the summary alone) never compute it.
+    pub fn poc(&self) -> &Array2<f64> {
+        self.poc.get_or_init(|| {
+            self.phases.time("particle density", || {
+                poc_cells(&self.belief, &self.grid, &self.clouds)
+            })
+        })
+    }
+
     /// Each analyst's share of the stationary part after the land (or water) mask, with a
     /// linear pool: `Σ_s∈a m_s k_s / Σ_s m_s k_s` over the stationary scenarios, with `m_s` the
     /// scenario's mass in the pool and `k_s` the share of it the mask kept. `None` when no mask

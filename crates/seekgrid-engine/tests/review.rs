@@ -309,8 +309,8 @@ fn the_rank_of_the_truth_matches_a_plain_sort_of_the_map_at_the_end() {
     .unwrap();
     let cell = r.truth.as_ref().unwrap().cell.unwrap();
     let area_km2 = m.grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
-    let truth_density = m.poc[cell] / area_km2;
-    let mut d: Vec<f64> = m.poc.iter().copied().collect();
+    let truth_density = m.poc()[cell] / area_km2;
+    let mut d: Vec<f64> = m.poc().iter().copied().collect();
     d.sort_by(|a, b| b.total_cmp(a));
     let above: Vec<f64> = d
         .iter()
@@ -680,11 +680,11 @@ fn a_drift_scenario_is_scored_with_the_maps_kernel_at_the_found_time() {
     let cell = r.truth.as_ref().unwrap().cell.unwrap();
     let area_km2 = m.grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
     let pool = r.pool.unwrap().density_per_km2;
-    let peak = m.poc.iter().copied().fold(0.0, f64::max) / area_km2;
+    let peak = m.poc().iter().copied().fold(0.0, f64::max) / area_km2;
     assert!(
-        (pool - m.poc[cell] / area_km2).abs() < 1e-4 * peak,
+        (pool - m.poc()[cell] / area_km2).abs() < 1e-4 * peak,
         "{pool} vs {}",
-        m.poc[cell] / area_km2
+        m.poc()[cell] / area_km2
     );
     // The pool is the mix of its analysts (linear pool, equal weights).
     let mix: f64 = r
@@ -703,8 +703,8 @@ fn a_drift_scenario_is_scored_with_the_maps_kernel_at_the_found_time() {
         &quiet(),
     )
     .unwrap();
-    let exact = after.poc[cell] / area_km2;
-    let peak = after.poc.iter().copied().fold(0.0, f64::max) / area_km2;
+    let exact = after.poc()[cell] / area_km2;
+    let peak = after.poc().iter().copied().fold(0.0, f64::max) / area_km2;
     let fast = r.timeline.last().unwrap().truth.unwrap().density_per_km2;
     assert!((fast - exact).abs() < 1e-4 * peak, "{fast} vs {exact}");
     // The drift analyst's mean is carried to the found time: 5 to 6 h adrift at 1 kn east,

@@ -513,7 +513,8 @@ fn with_plan(
 }
 
 /// Writes the chosen layers (the summary last) and returns the summary, which lists every file
-/// written (sidecars included) and the chosen layers that wrote nothing.
+/// written (sidecars included) and the chosen layers that wrote nothing. Each layer's writing
+/// is timed into the map's phases (the summary lists those written before it).
 ///
 /// # Errors
 /// [`RenderError`] from a writer (a file that cannot be written, a layer that cannot be drawn).
@@ -524,7 +525,9 @@ pub fn write(
 ) -> Result<Summary, RenderError> {
     let mut out = Recorder::new(dir);
     for layer in selection.in_write_order() {
-        write_layer(layer, c, &mut out)?;
+        c.map.phases.time(&format!("write {}", layer.name()), || {
+            write_layer(layer, c, &mut out)
+        })?;
     }
     Ok(summary::summarise(c, &out))
 }

@@ -90,7 +90,7 @@ pub(crate) fn probability(c: &Computed, out: &mut Recorder) -> Result<(), Render
     let layer = render::CellLayer {
         frame: &m.prepared.frame,
         grid: &m.grid,
-        poc: &m.poc,
+        poc: m.poc(),
         pod_cumulative: m.pod_cumulative.as_ref(),
     };
     let mut members = foreign(c.incident, m, out.run_id());
@@ -124,7 +124,7 @@ pub(crate) fn containment(c: &Computed, out: &mut Recorder) -> Result<(), Render
     let bytes = render::containment_geojson(
         &m.prepared.frame,
         &m.grid,
-        &m.poc,
+        m.poc(),
         &CONTAINMENT_LEVELS,
         "containment",
         foreign(c.incident, m, out.run_id()),
@@ -141,7 +141,7 @@ pub(crate) fn containment(c: &Computed, out: &mut Recorder) -> Result<(), Render
 pub(crate) fn heatmap(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
     let m = c.map;
     let cell_km2 = m.grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
-    let density = m.poc.mapv(|p| p / cell_km2);
+    let density = m.poc().mapv(|p| p / cell_km2);
     let sub = subtitle(m, "Probability map");
     let style = MapStyle::density(&c.incident.title, &sub);
     let mut overlays = base_overlays(c.incident, m);
@@ -267,7 +267,7 @@ struct SegmentRow {
 
 /// Per segment: POA now, area, density, and after searches cumulative POD and POS.
 fn segment_rows(m: &IncidentMap, segments: &[seekgrid_prior::Segment]) -> Vec<SegmentRow> {
-    let now = seekgrid_prior::segment_table(&m.poc, &m.grid, segments);
+    let now = seekgrid_prior::segment_table(m.poc(), &m.grid, segments);
     // Cumulative POD of a segment: its prior mass weighted by each cell's cumulative POD,
     // over its prior mass; its POS: that weighted mass itself (share of the original prior).
     let before = m.belief_before_searches.cells();

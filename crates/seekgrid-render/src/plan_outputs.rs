@@ -626,7 +626,7 @@ pub(crate) fn picture(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result
     }
     let t = plan_totals(run);
     let cell_km2 = m.grid.cell_area_m2() / M2_PER_KM2;
-    let density = m.poc.mapv(|p| p / cell_km2);
+    let density = m.poc().mapv(|p| p / cell_km2);
     let sub = format!(
         "Plan for the period from {} UTC | POS {:.3} of at best {:.3}",
         run.start.format("%Y-%m-%d %H:%M"),

@@ -271,6 +271,32 @@ pub struct Summary {
     /// Plans only: the plan, its parts and each unit.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub plan: Option<PlanSummary>,
+    /// How long each phase of the run took, in the order they ended: the engine's steps, the
+    /// particle density when an output read it, and each output written before this summary.
+    pub phases: Vec<PhaseSummary>,
+}
+
+/// One phase of the run and its time.
+#[derive(Debug, Clone, Serialize)]
+pub struct PhaseSummary {
+    /// What ran (`drift`, `searches`, `particle density`, `write probability`, ...).
+    pub phase: String,
+    /// Wall-clock time, seconds.
+    pub wall_s: f64,
+    /// CPU time of the whole process (all threads) during the phase, seconds; absent where
+    /// the platform does not give it.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub cpu_s: Option<f64>,
+}
+
+impl From<seekgrid_engine::phases::PhaseTime> for PhaseSummary {
+    fn from(p: seekgrid_engine::phases::PhaseTime) -> Self {
+        Self {
+            phase: p.phase,
+            wall_s: p.wall_s,
+            cpu_s: p.cpu_s,
+        }
+    }
 }
 
 /// The summary of a computed result: the map, the plan when there is one, and the files
@@ -281,6 +307,7 @@ pub fn summarise(c: &Computed, out: &Recorder) -> Summary {
     s.run_id = Some(out.run_id().to_owned());
     s.outputs = out.files().clone();
     s.outputs_not_written = out.not_written().clone();
+    s.phases = c.map.phases.list().into_iter().map(Into::into).collect();
     if let Some(run) = c.plan {
         let plan = plan_outputs::plan_summary(run);
         s.pos_plan = Some(plan.pos_plan);
@@ -424,5 +451,6 @@ fn summarise_map(incident: &Incident, m: &IncidentMap) -> Summary {
         pos_plan: None,
         pos_optimal_bound: None,
         plan: None,
+        phases: Vec::new(),
     }
 }

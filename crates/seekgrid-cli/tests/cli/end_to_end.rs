@@ -166,6 +166,66 @@ fn outputs_option_writes_only_what_is_asked_and_json_prints_the_summary() {
     assert_eq!(o.status.code(), Some(2));
 }
 
+/// The phase names in a summary's `phases`, in order.
+fn phase_names(summary: &Value) -> Vec<String> {
+    summary["phases"]
+        .as_array()
+        .expect("summary.json lists its phases")
+        .iter()
+        .map(|p| {
+            assert!(p["wall_s"].as_f64().is_some_and(|t| t >= 0.0), "{p}");
+            p["phase"].as_str().unwrap().to_owned()
+        })
+        .collect()
+}
+
+#[test]
+fn the_particle_density_is_computed_only_for_outputs_that_read_it_and_once() {
+    // The marine demo drifts 20,000 particles. `--outputs summary` reads no per-cell field, so
+    // the run never spreads the particles; a plan with its maps spreads them exactly once.
+    let dir = tempfile::tempdir().unwrap();
+    let f = workspace().join("scenarios/marine/incident.toml");
+    let out = dir.path().join("summary-only");
+    let o = seekgrid(&[
+        "map",
+        f.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--outputs",
+        "summary",
+        "--json",
+        "--verbose",
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let printed: Value = serde_json::from_str(&stdout(&o)).unwrap();
+    let names = phase_names(&printed);
+    assert!(names.contains(&"drift".to_owned()), "{names:?}");
+    assert!(!names.contains(&"particle density".to_owned()), "{names:?}");
+    // --verbose prints the same phases with their times on standard error.
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.lines().any(|l| l.starts_with("drift ")), "{err}");
+    assert!(err.lines().any(|l| l.starts_with("total ")), "{err}");
+
+    let out = dir.path().join("plan");
+    let o = seekgrid(&[
+        "plan",
+        f.to_str().unwrap(),
+        "--start",
+        "2026-06-14T22:00:00Z",
+        "--out",
+        out.to_str().unwrap(),
+        "--json",
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let printed: Value = serde_json::from_str(&stdout(&o)).unwrap();
+    let names = phase_names(&printed);
+    let density = names.iter().filter(|n| *n == "particle density").count();
+    assert_eq!(density, 1, "{names:?}");
+    for phase in ["practical plan", "plan bound", "write plan-map", "write heatmap"] {
+        assert!(names.contains(&phase.to_owned()), "{phase}: {names:?}");
+    }
+}
+
 #[test]
 fn demo_summary_accounts_for_all_the_mass() {
     let demo = demo_once();
