@@ -97,7 +97,7 @@ layers! {
         files: ["summary.json"],
         sidecars: [],
         plan_only: false,
-        description: "what the run computed (grid, normalised weights, `poc_in_grid`, `poc_outside` and its parts, analyst diagnostics, searches, drift, the plan's POS and bound) and every file written, sidecars included",
+        description: "what the run computed (grid, normalised weights, `poc_in_grid`, `poc_outside` and its parts, analyst diagnostics, searches, drift, the plan's POS and bound), each phase's wall and CPU time (`phases`), and every file written, sidecars included",
     }
     Probability {
         name: "probability",

@@ -221,7 +221,12 @@ fn the_particle_density_is_computed_only_for_outputs_that_read_it_and_once() {
     let names = phase_names(&printed);
     let density = names.iter().filter(|n| *n == "particle density").count();
     assert_eq!(density, 1, "{names:?}");
-    for phase in ["practical plan", "plan bound", "write plan-map", "write heatmap"] {
+    for phase in [
+        "practical plan",
+        "plan bound",
+        "write plan-map",
+        "write heatmap",
+    ] {
         assert!(names.contains(&phase.to_owned()), "{phase}: {names:?}");
     }
 }
