@@ -110,7 +110,8 @@ pub struct ForecastGrid {
     pub units: String,
     /// The level used, described ("depth 0.494 m of 3 levels"), or `None` without a level axis.
     pub level: Option<String>,
-    /// Longitudes, ascending (the file's own numbers: 0..360 or -180..180).
+    /// Longitudes, ascending; an axis that starts at 180° or beyond (a 0..360 file) is moved
+    /// one turn west.
     pub lon: RegularAxis,
     /// Latitudes, ascending (a north-to-south file is turned round).
     pub lat: RegularAxis,
@@ -1023,6 +1024,15 @@ fn read_component(
     })
 }
 
+/// A longitude axis that starts at 180° or beyond, moved one turn west (so that a file in
+/// 0..360 gives the same numbers as one in -180..180; exact for the values files use).
+fn west_of_180(mut lon: RegularAxis) -> RegularAxis {
+    if lon.start_deg >= 180.0 {
+        lon.start_deg -= 360.0;
+    }
+    lon
+}
+
 /// Whether the bytes start a NetCDF classic or 64-bit offset file ("CDF" 1 or 2), a CDF-5
 /// file ("CDF" 5), or an HDF5 (NetCDF-4) file.
 fn netcdf_kind(bytes: &[u8]) -> Option<&'static str> {
@@ -1115,7 +1125,7 @@ pub fn read_netcdf(
         components: (u_name, v_name),
         units,
         level: u.level,
-        lon: u.lon,
+        lon: west_of_180(u.lon),
         lat: u.lat,
         times: u.times,
         u_kn: u.values_kn,
@@ -1481,7 +1491,7 @@ pub fn read_grib(
         components: (name(cu), name(cv)),
         units: "m s-1".to_owned(),
         level,
-        lon,
+        lon: west_of_180(lon),
         lat,
         times,
         u_kn,
