@@ -1,4 +1,4 @@
-//! Gridded current from a forecast file against the same values as a CSV lattice: 100 000
+//! Gridded current from a forecast file against the same values as a CSV lattice: 20 000
 //! particles x 24 hourly steps through a 41 x 41 lattice of 25 hourly times. The CSV lattice
 //! path builds the field with `GriddedField::from_samples`, a forecast file with
 //! `GriddedField::on_lattice` (box refused beyond its edges, and once with uneven times);
@@ -13,7 +13,7 @@ use seekgrid_core::units::SECONDS_PER_HOUR;
 use seekgrid_drift::*;
 use std::hint::black_box;
 
-const PARTICLES: usize = 100_000;
+const PARTICLES: usize = 20_000;
 const STEPS: usize = 24;
 const N: usize = 41;
 

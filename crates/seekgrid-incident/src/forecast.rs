@@ -149,12 +149,12 @@ impl ForecastGrid {
         let mut land: Vec<Option<bool>> = vec![None; plane];
         let mut set = 0;
         for k in 0..self.times.len() {
-            for p in 0..plane {
+            for (p, known) in land.iter_mut().enumerate() {
                 let i = k * plane + p;
                 if !(self.u_kn[i].is_nan() || self.v_kn[i].is_nan()) {
                     continue;
                 }
-                let is = *land[p].get_or_insert_with(|| {
+                let is = *known.get_or_insert_with(|| {
                     let lon = self.lon.start_deg + self.lon.step_deg * (p % nlon) as f64;
                     let lat = self.lat.start_deg + self.lat.step_deg * (p / nlon) as f64;
                     // The coastline is in -180..180.
@@ -428,6 +428,11 @@ fn cf_times(values: &[f64], per_s: f64, reference: Time) -> Option<Vec<Time>> {
 // ------------------------------------------------------------------------------------------
 // NetCDF
 
+/// The NetCDF default fill value of a float variable (netcdf.h `NC_FILL_FLOAT`).
+const NC_FILL_FLOAT: f32 = 9.969_21e36;
+/// The NetCDF default fill value of a double variable (netcdf.h `NC_FILL_DOUBLE`).
+const NC_FILL_DOUBLE: f64 = 9.969_209_968_386_869e36;
+
 /// What a NetCDF reader gives the CF logic: names, dimensions, attributes and values.
 trait CfSource {
     fn var_names(&self) -> Vec<String>;
@@ -483,10 +488,10 @@ impl CfSource for Nc3 {
         let data = self.reader.read_var(var).map_err(|e| format!("{e:?}"))?;
         // The NetCDF default fill values (netcdf.h NC_FILL_*), used when no _FillValue is set.
         Ok(match data {
-            D::F64(v) => (v, Some(9.969_209_968_386_869e36)),
+            D::F64(v) => (v, Some(NC_FILL_DOUBLE)),
             D::F32(v) => (
                 v.into_iter().map(f64::from).collect(),
-                Some(f64::from(9.969_209_968_386_869e36_f32)),
+                Some(f64::from(NC_FILL_FLOAT)),
             ),
             D::I32(v) => (
                 v.into_iter().map(f64::from).collect(),
@@ -505,7 +510,7 @@ impl CfSource for Nc3 {
 #[cfg(feature = "netcdf4")]
 mod nc4 {
     //! NetCDF-4 (HDF5) through the `netcdf` crate and the system's libnetcdf.
-    use super::{CfSource, ForecastFormat};
+    use super::{CfSource, ForecastFormat, NC_FILL_DOUBLE, NC_FILL_FLOAT};
 
     pub(super) struct Nc4 {
         pub(super) file: netcdf::File,
@@ -560,10 +565,10 @@ mod nc4 {
             // The default fill values of netcdf.h for the stored type.
             let fill = match v.vartype() {
                 netcdf::types::NcVariableType::Float(netcdf::types::FloatType::F32) => {
-                    Some(f64::from(9.969_209_968_386_869e36_f32))
+                    Some(f64::from(NC_FILL_FLOAT))
                 }
                 netcdf::types::NcVariableType::Float(netcdf::types::FloatType::F64) => {
-                    Some(9.969_209_968_386_869e36)
+                    Some(NC_FILL_DOUBLE)
                 }
                 _ => None,
             };
