@@ -418,3 +418,38 @@ pattern = { kind = "parallel-sweep", center = [-63.0, 44.05], length_m = 4000, w
         "{e}"
     );
 }
+
+#[test]
+fn a_grib2_current_with_a_bitmap_has_no_value_where_eccodes_reports_missing() {
+    // computed: grib_get_data -m MISSING counts 24 missing points over the 4 messages (u and v
+    // at 2 times, the same 6 nodes each), frozen by make_forecast_fixtures.py.
+    let r = &reference()["grib_current_bitmap"];
+    let missing = r["missing_points"].as_u64().unwrap() as usize;
+    let g = read_grib(
+        &[fixture("current_bitmap.grib2")],
+        Quantity::Current,
+        &ForecastOptions::default(),
+    )
+    .unwrap();
+    assert_eq!(r["messages"].as_u64(), Some(4));
+    assert_eq!(g.times.len(), 2);
+    assert_eq!(2 * g.missing_nodes(), missing);
+    let mps = 1852.0 / 3600.0;
+    for (u, v) in g.u_kn.iter().zip(&g.v_kn) {
+        if u.is_finite() {
+            assert_abs_diff_eq!(u * mps, 0.25, epsilon = 1e-9);
+            assert_abs_diff_eq!(v * mps, -0.125, epsilon = 1e-9);
+        }
+    }
+    // The coastline of land_fill.nc covers those nodes: they become a zero current.
+    let coast = load(
+        &format!("{{ grib = \"{}\" }}", fixture("current_bitmap.grib2").display()),
+        "{ speed_kn = 0, from_deg = 0 }",
+        "coastline = \"land_fill_coast.geojson\"",
+    )
+    .unwrap();
+    match &drift_def(&coast).current {
+        VectorDef::Forecast { grid, .. } => assert_eq!(grid.missing_nodes(), 0),
+        _ => panic!("not a forecast"),
+    }
+}
