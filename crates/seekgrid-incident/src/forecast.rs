@@ -121,6 +121,9 @@ pub struct ForecastGrid {
     pub u_kn: Vec<f64>,
     /// Northward component, knots, same index; NaN: no value.
     pub v_kn: Vec<f64>,
+    /// Nodes (over all times) with no value in the file that [`ForecastGrid::apply_land`] set
+    /// to zero because the coastline puts them on land.
+    pub land_nodes: usize,
 }
 
 impl ForecastGrid {
@@ -167,6 +170,7 @@ impl ForecastGrid {
                 }
             }
         }
+        self.land_nodes += set;
         set
     }
 
@@ -190,7 +194,7 @@ impl ForecastGrid {
             .map(|m| format!("{}", *m as f64 / 60.0))
             .collect();
         format!(
-            "{} {}; variables: {}; using u = {}, v = {} ({}); grid {} x {} (lon x lat): lon {} to {} by {}, lat {} to {} by {} degrees; {} times {} to {}{}; level: {}; {} nodes with no value",
+            "{} {}; variables: {}; using u = {}, v = {} ({}); grid {} x {} (lon x lat): lon {} to {} by {}, lat {} to {} by {} degrees; {} times {} to {}{}; level: {}; {} fill nodes on the coastline's land set to zero; {} nodes with no value at sea (a drift that needs one is refused)",
             self.format.name(),
             files.join(", "),
             self.variables.join(", "),
@@ -214,6 +218,7 @@ impl ForecastGrid {
                 format!(" every {} h", steps.join("/"))
             },
             self.level.as_deref().unwrap_or("none (single level)"),
+            self.land_nodes,
             self.missing_nodes(),
         )
     }
@@ -1135,6 +1140,7 @@ pub fn read_netcdf(
         times: u.times,
         u_kn: u.values_kn,
         v_kn: v.values_kn,
+        land_nodes: 0,
     })
 }
 
@@ -1501,6 +1507,7 @@ pub fn read_grib(
         times,
         u_kn,
         v_kn,
+        land_nodes: 0,
     })
 }
 

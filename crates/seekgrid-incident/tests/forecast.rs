@@ -379,6 +379,7 @@ fn fill_values_become_zero_only_where_the_coastline_is_land() {
     // Six corner nodes (lon >= -63.0, lat >= 44.25) at two times have the fill value.
     assert_eq!(grid(&open).missing_nodes(), 12);
     assert_eq!(grid(&coast).missing_nodes(), 0);
+    assert_eq!(grid(&coast).land_nodes, 12);
     // Without the coastline the drift from 63.1 W 44.0 N needs the fill node at 63.0 W
     // 44.25 N within hours, and is refused naming it.
     let d = drift_def(&open);
@@ -443,7 +444,10 @@ fn a_grib2_current_with_a_bitmap_has_no_value_where_eccodes_reports_missing() {
     }
     // The coastline of land_fill.nc covers those nodes: they become a zero current.
     let coast = load(
-        &format!("{{ grib = \"{}\" }}", fixture("current_bitmap.grib2").display()),
+        &format!(
+            "{{ grib = \"{}\" }}",
+            fixture("current_bitmap.grib2").display()
+        ),
         "{ speed_kn = 0, from_deg = 0 }",
         "coastline = \"land_fill_coast.geojson\"",
     )
