@@ -299,6 +299,18 @@ fn regular(values: &[f64]) -> Option<(RegularAxis, bool)> {
     ))
 }
 
+/// Longitudes that jump by a turn across the Greenwich meridian or the antimeridian
+/// (`359.5, 359.75, 0, 0.25`) made continuous (`359.5, 359.75, 360, 360.25`).
+fn unwrap_longitudes(mut lons: Vec<f64>) -> Vec<f64> {
+    for i in 1..lons.len() {
+        let step = lons[i] - lons[i - 1];
+        if step.abs() > 180.0 {
+            lons[i] -= 360.0 * (step / 360.0).round();
+        }
+    }
+    lons
+}
+
 // ------------------------------------------------------------------------------------------
 // CF time axes
 
@@ -864,7 +876,7 @@ fn read_component(
     let lon_dim = dim_of(Role::Lon).unwrap_or_default();
     let lat_dim = dim_of(Role::Lat).unwrap_or_default();
     let time_dim = dim_of(Role::Time).unwrap_or_default();
-    let lon_values = coordinate(src, file, &lon_dim)?;
+    let lon_values = unwrap_longitudes(coordinate(src, file, &lon_dim)?);
     let lat_values = coordinate(src, file, &lat_dim)?;
     let not_regular = |d: &str| {
         invalid(
@@ -1350,7 +1362,19 @@ fn grib_fields(
                 format!("{what}: the grid is not a regular latitude/longitude grid"),
             )
         };
-        let (lon, _) = regular(&lons).ok_or_else(bad_grid)?;
+        // A grid across the Greenwich meridian whose longitudes come as 0..360 sorts into two
+        // runs (0, 0.25, ..., 359.5, 359.75): read the western run a turn east.
+        let (lon, wrap) = match regular(&lons) {
+            Some((a, _)) => (a, false),
+            None => {
+                let mut east: Vec<f64> = lons
+                    .iter()
+                    .map(|l| if *l < 180.0 { l + 360.0 } else { *l })
+                    .collect();
+                east.sort_by(f64::total_cmp);
+                (regular(&east).ok_or_else(bad_grid)?.0, true)
+            }
+        };
         let (lat, _) = regular(&lats).ok_or_else(bad_grid)?;
         if lon.n * lat.n != values.len() {
             return Err(bad_grid());
@@ -1364,7 +1388,8 @@ fn grib_fields(
             }
         };
         for ((la, lo), val) in latlons.iter().zip(&values) {
-            let i = index_of(*lo, &lon);
+            let lo = if wrap && *lo < 180.0 { lo + 360.0 } else { *lo };
+            let i = index_of(lo, &lon);
             let j = index_of(*la, &lat);
             grid[j * lon.n + i] = f64::from(*val);
         }
@@ -1587,5 +1612,19 @@ mod tests {
             .collect();
         assert!(regular(&v).is_some());
         assert!(regular(&[0.0, 1.0, 3.0]).is_none());
+    }
+
+    #[test]
+    fn longitudes_across_greenwich_or_the_antimeridian_are_made_continuous() {
+        assert_eq!(
+            unwrap_longitudes(vec![359.5, 359.75, 0.0, 0.25]),
+            vec![359.5, 359.75, 360.0, 360.25]
+        );
+        assert_eq!(
+            unwrap_longitudes(vec![179.5, -180.0, -179.5]),
+            vec![179.5, 180.0, 180.5]
+        );
+        let (a, _) = regular(&unwrap_longitudes(vec![359.5, 359.75, 0.0, 0.25])).unwrap();
+        assert_eq!((a.start_deg, a.step_deg, a.n), (359.5, 0.25, 4));
     }
 }

@@ -457,3 +457,34 @@ fn a_grib2_current_with_a_bitmap_has_no_value_where_eccodes_reports_missing() {
         _ => panic!("not a forecast"),
     }
 }
+
+#[test]
+fn a_grib2_grid_across_the_greenwich_meridian_keeps_its_points_in_order() {
+    // computed: grib_get_data of wind_greenwich.grib2 (359.5 E to 0.5 E by 0.25, printed as
+    // -0.5 to 0.5), frozen by make_forecast_fixtures.py; u rows then v rows.
+    let g = read_grib(
+        &[fixture("wind_greenwich.grib2")],
+        Quantity::Wind,
+        &ForecastOptions::default(),
+    )
+    .unwrap();
+    assert_eq!((g.lon.start_deg, g.lon.step_deg, g.lon.n), (-0.5, 0.25, 5));
+    assert_eq!((g.lat.start_deg, g.lat.n), (50.0, 2));
+    let rows = reference()["grib_greenwich"]["rows"]
+        .as_array()
+        .unwrap()
+        .clone();
+    assert_eq!(rows.len(), 20);
+    let mps = 1852.0 / 3600.0;
+    for (n, row) in rows.iter().enumerate() {
+        let (lat, lon, value) = (
+            row[0].as_f64().unwrap(),
+            row[1].as_f64().unwrap(),
+            row[2].as_f64().unwrap(),
+        );
+        let values = if n < 10 { &g.u_kn } else { &g.v_kn };
+        let i = ((lon - g.lon.start_deg) / g.lon.step_deg).round() as usize;
+        let j = ((lat - g.lat.start_deg) / g.lat.step_deg).round() as usize;
+        assert_abs_diff_eq!(values[j * g.lon.n + i] * mps, value, epsilon = 1e-9);
+    }
+}
