@@ -630,8 +630,9 @@ pub struct RawVector {
     pub series: Option<String>,
     /// CSV gridded field: `lon,lat,time,u_kn,v_kn`.
     pub field: Option<String>,
-    /// A CF NetCDF forecast file (docs/incident-format.md, "Forecast files").
-    pub netcdf: Option<String>,
+    /// A CF NetCDF forecast file, or several of one forecast (docs/incident-format.md,
+    /// "Forecast files").
+    pub netcdf: Option<OneOrMany>,
     /// One GRIB2 forecast file, or several (one or more times each).
     pub grib: Option<OneOrMany>,
     /// NetCDF: the eastward component's variable, instead of the search by standard_name.

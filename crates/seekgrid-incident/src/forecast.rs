@@ -1156,6 +1156,71 @@ pub fn read_netcdf(
     })
 }
 
+/// Reads several CF NetCDF files of one forecast (daily files, say) into one
+/// [`ForecastGrid`]: each is read by [`read_netcdf`], and their times are put together in
+/// order.
+///
+/// # Errors
+/// Those of [`read_netcdf`]; files on different grids, with other variables or units, or
+/// giving the same time twice.
+pub fn read_netcdf_files(
+    files: &[PathBuf],
+    q: Quantity,
+    opts: &ForecastOptions,
+) -> Result<ForecastGrid, IncidentError> {
+    let Some(first) = files.first() else {
+        return Err(invalid(Path::new(""), "no NetCDF file given"));
+    };
+    let mut parts: Vec<ForecastGrid> = files
+        .iter()
+        .map(|f| read_netcdf(f, q, opts))
+        .collect::<Result<_, _>>()?;
+    if parts.len() == 1 {
+        return Ok(parts.remove(0));
+    }
+    for (f, p) in files.iter().zip(&parts).skip(1) {
+        let a = &parts[0];
+        if p.lon != a.lon || p.lat != a.lat || p.components != a.components || p.units != a.units {
+            return Err(invalid(
+                f,
+                format!(
+                    "is not on the grid of {} (or has other u/v variables or units); give files of one forecast",
+                    first.display()
+                ),
+            ));
+        }
+    }
+    let plane = parts[0].lon.n * parts[0].lat.n;
+    let mut slabs: Vec<(Time, usize, usize)> = parts
+        .iter()
+        .enumerate()
+        .flat_map(|(n, p)| p.times.iter().enumerate().map(move |(k, t)| (*t, n, k)))
+        .collect();
+    slabs.sort_by_key(|s| s.0);
+    if let Some(w) = slabs.windows(2).find(|w| w[0].0 == w[1].0) {
+        return Err(invalid(
+            &files[w[1].1],
+            format!(
+                "gives the time {} that {} gives too; give each time once",
+                w[1].0.to_rfc3339(),
+                files[w[0].1].display()
+            ),
+        ));
+    }
+    let mut out = parts[0].clone();
+    out.files = files.to_vec();
+    out.times = slabs.iter().map(|s| s.0).collect();
+    out.u_kn = Vec::with_capacity(plane * slabs.len());
+    out.v_kn = Vec::with_capacity(plane * slabs.len());
+    for &(_, n, k) in &slabs {
+        out.u_kn
+            .extend_from_slice(&parts[n].u_kn[k * plane..(k + 1) * plane]);
+        out.v_kn
+            .extend_from_slice(&parts[n].v_kn[k * plane..(k + 1) * plane]);
+    }
+    Ok(out)
+}
+
 #[cfg(feature = "netcdf4")]
 fn open_netcdf4(file: &Path) -> Result<Box<dyn CfSource>, IncidentError> {
     let f = netcdf::open(file).map_err(|e| {

@@ -1011,9 +1011,16 @@ impl Validator<'_> {
                 BeyondBox::Refuse
             },
         };
-        if let Some(rel) = &v.netcdf {
-            let file = self.resolve(rel);
-            return forecast::read_netcdf(&file, quantity, &options)
+        if let Some(list) = &v.netcdf {
+            let files: Vec<PathBuf> = list.paths().iter().map(|p| self.resolve(p)).collect();
+            if files.is_empty() {
+                self.err(
+                    &at.key("netcdf"),
+                    "netcdf = [] names no file; give one or more NetCDF files",
+                );
+                return None;
+            }
+            return forecast::read_netcdf_files(&files, quantity, &options)
                 .map(|mut g| {
                     self.apply_land(&mut g);
                     forecast(g, "netcdf")

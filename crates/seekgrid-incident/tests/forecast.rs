@@ -221,11 +221,14 @@ const CURRENT: &str =
 
 #[test]
 fn the_same_wind_as_netcdf_grib2_and_csv_gives_identical_particle_clouds() {
+    // Also as two NetCDF files of two times each.
     // The three files hold the same decoded values (make_forecast_fixtures.py): the lattices
     // are equal and so, seed for seed, is every particle.
     let sigmas = "speed_sigma_kn = 1.0, direction_sigma_deg = 10";
     let runs: Vec<drift::DriftRun> = [
         format!("{{ netcdf = \"wind_same.nc\", {sigmas} }}"),
+        // Two files in the wrong order: their times are put in order.
+        format!("{{ netcdf = [\"wind_same_b.nc\", \"wind_same_a.nc\"], {sigmas} }}"),
         format!("{{ grib = [\"wind_a.grib2\", \"wind_b.grib2\"], {sigmas} }}"),
         format!("{{ field = \"wind_same.csv\", {sigmas} }}"),
     ]
