@@ -419,7 +419,7 @@ impl GriddedField {
         let lon = self.lon_near_centre(lon_deg);
         if let Some((side, edge)) = self.outside_side(lon, lat_deg) {
             return Some(format!(
-                "the {} does not reach the drift: a particle is at {lon_deg:.3}, {lat_deg:.3} (lon, lat) at {when}, beyond the {side} side of the field's box ({edge})",
+                "the {} does not reach the drift: a particle is at {lon_deg:.3}, {lat_deg:.3} (lon, lat) at {when}, beyond the {side} side of the field's box ({edge}); give a field of a larger area, or hold its edge values beyond the box (hold_environment_beyond_series = true in an incident file)",
                 self.label
             ));
         }
@@ -439,7 +439,7 @@ impl GriddedField {
         let (i, j, k) = node.unwrap_or((i0, j0, k0));
         let node_time = self.t0 + chrono::TimeDelta::milliseconds((self.times_s[k] * 1e3) as i64);
         Some(format!(
-            "the {} has no value (a fill value or NaN that no coastline makes land) at the node {:.4}, {:.4} (lon, lat) at {}, which a particle at {lon_deg:.3}, {lat_deg:.3} needs at {when}",
+            "the {} has no value (a fill value or NaN that no coastline makes land) at the node {:.4}, {:.4} (lon, lat) at {}, which a particle at {lon_deg:.3}, {lat_deg:.3} needs at {when}; if that node is land, give a coastline that covers it (its current is then zero), otherwise give a field with a value there",
             self.label,
             self.lon0_deg + self.dlon_deg * i as f64,
             self.lat0_deg + self.dlat_deg * j as f64,

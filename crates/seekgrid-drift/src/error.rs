@@ -74,13 +74,11 @@ pub enum DriftError {
     },
     /// A gridded field gives no value where a particle needs one: beyond the side of its box
     /// (a forecast file, [`crate::environment::BeyondBox::Refuse`]) or at a node with no value.
-    #[error(
-        "{field}: {what}; give a file that covers the whole drift (a larger area), a coastline that makes the fill nodes land, or hold_environment_beyond_series = true to hold the edge values"
-    )]
+    #[error("{field}: {what}")]
     FieldGap {
         /// `current` or `wind`.
         field: String,
-        /// Where and what is missing.
+        /// Where and what is missing, and the fix.
         what: String,
     },
     /// Zero particles requested.

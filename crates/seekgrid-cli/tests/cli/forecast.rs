@@ -185,7 +185,10 @@ fn a_fill_value_in_the_clouds_way_exits_2_unless_the_coastline_makes_it_land() {
     let text = out(&o);
     assert_eq!(o.status.code(), Some(2), "{text}");
     assert!(
-        text.contains("land_fill.nc") && text.contains("no value") && text.contains("uo"),
+        text.contains("land_fill.nc")
+            && text.contains("no value")
+            && text.contains("uo")
+            && text.contains("give a coastline that covers it"),
         "{text}"
     );
     assert!(!d.path().join("out").exists(), "nothing is written");
@@ -205,7 +208,9 @@ fn a_cloud_that_leaves_the_field_exits_2_naming_the_side_unless_held() {
     let text = out(&o);
     assert_eq!(o.status.code(), Some(2), "{text}");
     assert!(
-        text.contains("east side") && text.contains("wind_same.nc"),
+        text.contains("east side")
+            && text.contains("wind_same.nc")
+            && text.contains("hold_environment_beyond_series = true"),
         "{text}"
     );
 }
