@@ -522,8 +522,11 @@ impl GriddedField {
         self.direction_sigma_deg
     }
 
-    /// The interpolated velocity (u east, v north) in knots at a position and time: trilinear
-    /// in longitude, latitude and time, held at the edge value outside the lattice.
+    /// The interpolated velocity (u east, v north) in knots at a position and time: bilinear
+    /// in longitude and latitude, linear in time, held at the first or last time beyond the
+    /// times. Outside the box: the edge value with [`BeyondBox::HoldEdge`], NaN with
+    /// [`BeyondBox::Refuse`]; NaN too next to a node with no value ([`GriddedField::gap_at`]
+    /// says which).
     #[must_use]
     pub fn velocity_kn_at(&self, lon_deg: f64, lat_deg: f64, time: Time) -> (f64, f64) {
         self.velocity_kn_at_s(lon_deg, lat_deg, (time - self.t0).as_seconds_f64())
