@@ -137,6 +137,9 @@ pub struct GriddedField {
     times_s: Vec<f64>,
     nt: usize,
     beyond_box: BeyondBox,
+    /// Whether the longitudes go round the whole earth (`nlon * dlon == 360`): the last
+    /// column then neighbours the first, and the box has no west or east side.
+    lon_periodic: bool,
     /// What the field is, for messages (`"current"`, `"wind from wind.grib2 (10u, 10v)"`).
     label: String,
     /// Velocity components, index `(it * nlat + ilat) * nlon + ilon`.
@@ -268,6 +271,7 @@ impl GriddedField {
             times_s: (0..nt).map(|k| k as f64 * dt).collect(),
             nt,
             beyond_box: BeyondBox::HoldEdge,
+            lon_periodic: false,
             label: "gridded".to_owned(),
             u_kn: u,
             v_kn: v,
@@ -380,6 +384,8 @@ impl GriddedField {
             times_s,
             nt,
             beyond_box,
+            lon_periodic: lon.n > 1
+                && (lon.step_deg * lon.n as f64 - 360.0).abs() <= 1e-3 * lon.step_deg,
             label: label.to_owned(),
             u_kn,
             v_kn,
@@ -423,19 +429,20 @@ impl GriddedField {
                 self.label
             ));
         }
-        let (i0, _) = bracket(lon, self.lon0_deg, self.dlon_deg, self.nlon);
+        let (i0, _, i1) = self.lon_cell(lon);
         let (j0, _) = bracket(lat_deg, self.lat0_deg, self.dlat_deg, self.nlat);
         let (k0, _) = self.bracket_time(t_s);
-        let node = (0..2)
-            .flat_map(|dk| (0..2).flat_map(move |dj| (0..2).map(move |di| (di, dj, dk))))
-            .map(|(di, dj, dk)| {
-                (
-                    (i0 + di).min(self.nlon - 1),
-                    (j0 + dj).min(self.nlat - 1),
-                    (k0 + dk).min(self.nt - 1),
-                )
+        let node = [k0, (k0 + 1).min(self.nt - 1)]
+            .into_iter()
+            .flat_map(|k| {
+                [j0, (j0 + 1).min(self.nlat - 1)]
+                    .into_iter()
+                    .flat_map(move |j| [i0, i1].into_iter().map(move |i| (i, j, k)))
             })
-            .find(|&(i, j, k)| self.u_kn[self.idx(i, j, k)].is_nan());
+            .find(|&(i, j, k)| {
+                let n = self.idx(i, j, k);
+                self.u_kn[n].is_nan() || self.v_kn[n].is_nan()
+            });
         let (i, j, k) = node.unwrap_or((i0, j0, k0));
         let node_time = self.t0 + chrono::TimeDelta::milliseconds((self.times_s[k] * 1e3) as i64);
         Some(format!(
@@ -458,15 +465,30 @@ impl GriddedField {
         lon_deg - 360.0 * ((lon_deg - centre) / 360.0).round()
     }
 
+    /// The columns either side of a longitude and the weight of the eastern one: clamped to
+    /// the box, or round the earth when the longitudes go all the way round.
+    #[inline]
+    fn lon_cell(&self, lon: f64) -> (usize, f64, usize) {
+        if self.lon_periodic {
+            // Between the last column and the first as between any two.
+            let f = ((lon - self.lon0_deg) / self.dlon_deg).rem_euclid(self.nlon as f64);
+            let i = (f.floor() as usize).min(self.nlon - 1);
+            (i, f - i as f64, (i + 1) % self.nlon)
+        } else {
+            let (i, w) = bracket(lon, self.lon0_deg, self.dlon_deg, self.nlon);
+            (i, w, (i + 1).min(self.nlon - 1))
+        }
+    }
+
     /// The side of the box a position is beyond and the edge there, or `None` inside (an
     /// axis of one node has no sides).
     fn outside_side(&self, lon: f64, lat: f64) -> Option<(&'static str, String)> {
         let (w, s, e, n) = self.bounds_deg();
         // A hair of tolerance: a particle exactly on the edge is inside.
         let tol = 1e-9;
-        if self.nlon > 1 && lon < w - tol {
+        if self.nlon > 1 && !self.lon_periodic && lon < w - tol {
             Some(("west", format!("longitude {w}")))
-        } else if self.nlon > 1 && lon > e + tol {
+        } else if self.nlon > 1 && !self.lon_periodic && lon > e + tol {
             Some(("east", format!("longitude {e}")))
         } else if self.nlat > 1 && lat < s - tol {
             Some(("south", format!("latitude {s}")))
@@ -541,10 +563,9 @@ impl GriddedField {
         if self.beyond_box == BeyondBox::Refuse && self.outside_side(lon, lat_deg).is_some() {
             return (f64::NAN, f64::NAN);
         }
-        let (i0, wi) = bracket(lon, self.lon0_deg, self.dlon_deg, self.nlon);
+        let (i0, wi, i1) = self.lon_cell(lon);
         let (j0, wj) = bracket(lat_deg, self.lat0_deg, self.dlat_deg, self.nlat);
         let (k0, wk) = self.bracket_time(t_s);
-        let i1 = (i0 + 1).min(self.nlon - 1);
         let j1 = (j0 + 1).min(self.nlat - 1);
         let k1 = (k0 + 1).min(self.nt - 1);
         let idx = |i: usize, j: usize, k: usize| (k * self.nlat + j) * self.nlon + i;

@@ -350,3 +350,30 @@ fn a_node_with_no_value_next_to_a_particle_stops_the_drift_with_its_place() {
         "{text}"
     );
 }
+
+#[test]
+fn a_field_round_the_whole_earth_interpolates_across_its_last_and_first_columns() {
+    // computed by hand: columns at 0, 90, 180 and 270 E with u = 1, 2, 3, 4; at 315 E
+    // (= -45) halfway between 270 (4) and 0 (1): 2.5; nowhere is it beyond the box.
+    let f = GriddedField::on_lattice(
+        axis(0.0, 90.0, 4),
+        axis(-10.0, 20.0, 2),
+        &[hours(0.0)],
+        vec![1.0, 2.0, 3.0, 4.0, 1.0, 2.0, 3.0, 4.0],
+        vec![0.0; 8],
+        (0.0, 0.0),
+        BeyondBox::Refuse,
+        "global wind",
+    )
+    .unwrap();
+    for lon in [315.0, -45.0, -405.0] {
+        let (u, _) = f.velocity_kn_at(lon, 0.0, hours(0.0));
+        assert_abs_diff_eq!(u, 2.5, epsilon = 1e-12);
+    }
+    let (u, _) = f.velocity_kn_at(45.0, 0.0, hours(0.0));
+    assert_abs_diff_eq!(u, 1.5, epsilon = 1e-12);
+    assert!(f.gap_at(-45.0, 0.0, hours(0.0)).is_none());
+    // Beyond its latitudes it still refuses, naming the side.
+    let gap = f.gap_at(-45.0, 12.0, hours(0.0)).unwrap();
+    assert!(gap.contains("north side"), "{gap}");
+}
