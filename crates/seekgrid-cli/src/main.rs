@@ -322,7 +322,32 @@ fn check_command(a: CheckArgs) -> Result<(), Failure> {
         incident.units.len(),
         describe_size(&size)
     );
+    for line in forecast_lines(&incident) {
+        println!("{line}");
+    }
     Ok(())
+}
+
+/// What `check` says of each forecast file a drift reads: variables, grid, time span and what
+/// it will use.
+fn forecast_lines(incident: &seekgrid_incident::Incident) -> Vec<String> {
+    use seekgrid_incident::model::{ScenarioKind, VectorDef};
+    let mut out = Vec::new();
+    for s in &incident.scenarios {
+        let ScenarioKind::Drift(d) = &s.kind else {
+            continue;
+        };
+        for (key, v) in [("current", &d.current), ("wind", &d.wind)] {
+            if let VectorDef::Forecast { grid, .. } = v {
+                out.push(format!(
+                    "  scenario \"{}\" {key}: {}",
+                    s.id,
+                    grid.describe()
+                ));
+            }
+        }
+    }
+    out
 }
 
 /// `seekgrid map`: the map at a time, its layers written into one output folder.

@@ -110,12 +110,18 @@ pub struct GridSample {
     pub v_kn: f64,
 }
 
-/// A velocity field on a regular longitude/latitude/time lattice, interpolated trilinearly.
+/// A velocity field on a regular longitude/latitude lattice at a sequence of times,
+/// interpolated bilinearly in space and linearly in time.
 ///
-/// Outside the lattice, in space or time, the value at the nearest edge is used (held
-/// constant), as a [`Environment::Series`] is beyond its ends; give a lattice that covers the
-/// whole drift. An axis with a single node is constant along that axis. The sigmas apply to
-/// every node. Build it with [`GriddedField::from_samples`].
+/// Beyond its times the value at the first or last time is used (held constant), as a
+/// [`Environment::Series`] is beyond its ends. Outside its box in space the value at the
+/// nearest edge is used when [`BeyondBox::HoldEdge`]; with [`BeyondBox::Refuse`] (forecast
+/// files) a particle that leaves the box stops the simulation with
+/// [`DriftError::FieldGap`] naming the side. A node with no value (NaN: a fill value of a
+/// forecast file that is not over land) does the same when a particle needs it. An axis with a
+/// single node is constant along that axis. The sigmas apply to every node. Build it with
+/// [`GriddedField::from_samples`] (nodes in any order) or [`GriddedField::on_lattice`] (axes
+/// and arrays, as a forecast file gives them).
 #[derive(Debug, Clone, PartialEq)]
 pub struct GriddedField {
     lon0_deg: f64,
@@ -125,8 +131,17 @@ pub struct GriddedField {
     dlat_deg: f64,
     nlat: usize,
     t0: Time,
-    dt_s: f64,
+    /// The time step when the times are evenly spaced (the fast path), else `None`.
+    dt_s: Option<f64>,
+    /// Seconds of each time after `t0`, strictly increasing, `times_s[0] == 0`.
+    times_s: Vec<f64>,
     nt: usize,
+    beyond_box: BeyondBox,
+    /// Whether the longitudes go round the whole earth (`nlon * dlon == 360`): the last
+    /// column then neighbours the first, and the box has no west or east side.
+    lon_periodic: bool,
+    /// What the field is, for messages (`"current"`, `"wind from wind.grib2 (10u, 10v)"`).
+    label: String,
     /// Velocity components, index `(it * nlat + ilat) * nlon + ilon`.
     u_kn: Vec<f64>,
     v_kn: Vec<f64>,
@@ -252,13 +267,263 @@ impl GriddedField {
             dlat_deg: dlat,
             nlat,
             t0,
-            dt_s: dt,
+            dt_s: Some(dt),
+            times_s: (0..nt).map(|k| k as f64 * dt).collect(),
             nt,
+            beyond_box: BeyondBox::HoldEdge,
+            lon_periodic: false,
+            label: "gridded".to_owned(),
             u_kn: u,
             v_kn: v,
             speed_sigma_kn,
             direction_sigma_deg,
         })
+    }
+
+    /// A field from its axes and arrays, as a forecast file gives them: `lon` and `lat` regular
+    /// axes (ascending), `times` strictly increasing (evenly spaced or not), and `u_kn`,
+    /// `v_kn` with index `(it * nlat + ilat) * nlon + ilon`. A NaN component marks a node with
+    /// no value (see [`GriddedField`]); every other value must be finite. `label` names the
+    /// field in the messages of [`DriftError::FieldGap`].
+    ///
+    /// # Errors
+    /// [`DriftError::BadGrid`] when an axis is empty or not ascending, a step is not finite
+    /// and positive, the arrays do not have one value per node, a component is infinite, or
+    /// the times do not increase; [`DriftError::NotFinite`] or [`DriftError::Negative`] for a
+    /// bad sigma.
+    #[allow(clippy::too_many_arguments)]
+    pub fn on_lattice(
+        lon: RegularAxis,
+        lat: RegularAxis,
+        times: &[Time],
+        u_kn: Vec<f64>,
+        v_kn: Vec<f64>,
+        sigmas: (f64, f64),
+        beyond_box: BeyondBox,
+        label: &str,
+    ) -> Result<Self, DriftError> {
+        let bad = |what: String| DriftError::BadGrid {
+            field: "gridded".to_owned(),
+            what,
+        };
+        let (speed_sigma_kn, direction_sigma_deg) = sigmas;
+        for (name, value) in [
+            ("gridded.speed_sigma_kn", speed_sigma_kn),
+            ("gridded.direction_sigma_deg", direction_sigma_deg),
+        ] {
+            if !value.is_finite() {
+                return Err(DriftError::NotFinite {
+                    field: name.to_owned(),
+                    value,
+                });
+            }
+            if value < 0.0 {
+                return Err(DriftError::Negative {
+                    field: name.to_owned(),
+                    value,
+                });
+            }
+        }
+        for (name, axis) in [("lon", &lon), ("lat", &lat)] {
+            if axis.n == 0
+                || !axis.start_deg.is_finite()
+                || !(axis.n == 1 || (axis.step_deg.is_finite() && axis.step_deg > 0.0))
+            {
+                return Err(bad(format!(
+                    "the {name} axis ({} nodes from {} by {}) is empty or not ascending; give an ascending regular axis",
+                    axis.n, axis.start_deg, axis.step_deg
+                )));
+            }
+        }
+        let Some(&t0) = times.first() else {
+            return Err(bad("it has no times; give at least one".to_owned()));
+        };
+        let times_s: Vec<f64> = times.iter().map(|t| (*t - t0).as_seconds_f64()).collect();
+        if let Some(k) = (1..times_s.len()).find(|&k| times_s[k] <= times_s[k - 1]) {
+            return Err(bad(format!(
+                "time {} ({}) does not come after the time before it; give increasing times",
+                k,
+                times[k].to_rfc3339()
+            )));
+        }
+        let nt = times_s.len();
+        let nodes = lon.n * lat.n * nt;
+        if u_kn.len() != nodes || v_kn.len() != nodes {
+            return Err(bad(format!(
+                "{} u and {} v values for the {} x {} x {nt} (lon x lat x time) lattice of {nodes} nodes; give one value per node",
+                u_kn.len(),
+                v_kn.len(),
+                lon.n,
+                lat.n
+            )));
+        }
+        if let Some(i) = (0..nodes).find(|&i| u_kn[i].is_infinite() || v_kn[i].is_infinite()) {
+            return Err(bad(format!(
+                "node {i} has an infinite component; check the file's values"
+            )));
+        }
+        let dt_s = if nt < 2 {
+            Some(0.0)
+        } else {
+            let dt = times_s[nt - 1] / (nt - 1) as f64;
+            times_s
+                .iter()
+                .enumerate()
+                .all(|(k, &t)| (t - k as f64 * dt).abs() <= 1e-9 * dt)
+                .then_some(dt)
+        };
+        Ok(Self {
+            lon0_deg: lon.start_deg,
+            dlon_deg: if lon.n == 1 { 0.0 } else { lon.step_deg },
+            nlon: lon.n,
+            lat0_deg: lat.start_deg,
+            dlat_deg: if lat.n == 1 { 0.0 } else { lat.step_deg },
+            nlat: lat.n,
+            t0,
+            dt_s,
+            times_s,
+            nt,
+            beyond_box,
+            lon_periodic: lon.n > 1
+                && (lon.step_deg * lon.n as f64 - 360.0).abs() <= 1e-3 * lon.step_deg,
+            label: label.to_owned(),
+            u_kn,
+            v_kn,
+            speed_sigma_kn,
+            direction_sigma_deg,
+        })
+    }
+
+    /// The first time of the field.
+    #[must_use]
+    pub fn first_time(&self) -> Time {
+        self.t0
+    }
+
+    /// The box the field covers: (west, south, east, north) degrees, the longitudes as given.
+    #[must_use]
+    pub fn bounds_deg(&self) -> (f64, f64, f64, f64) {
+        (
+            self.lon0_deg,
+            self.lat0_deg,
+            self.lon0_deg + self.dlon_deg * (self.nlon - 1) as f64,
+            self.lat0_deg + self.dlat_deg * (self.nlat - 1) as f64,
+        )
+    }
+
+    /// What is wrong at a position and time where the interpolation gives no value (see
+    /// [`GriddedField`]): the side of the box the position is beyond, or the node with no
+    /// value; `None` where the field has a value.
+    #[must_use]
+    pub fn gap_at(&self, lon_deg: f64, lat_deg: f64, time: Time) -> Option<String> {
+        let t_s = (time - self.t0).as_seconds_f64();
+        let (u, v) = self.velocity_kn_at_s(lon_deg, lat_deg, t_s);
+        if u.is_finite() && v.is_finite() {
+            return None;
+        }
+        let when = time.format("%Y-%m-%dT%H:%MZ");
+        let lon = self.lon_near_centre(lon_deg);
+        if let Some((side, edge)) = self.outside_side(lon, lat_deg) {
+            return Some(format!(
+                "the {} does not reach the drift: a particle is at {lon_deg:.3}, {lat_deg:.3} (lon, lat) at {when}, beyond the {side} side of the field's box ({edge}); give a field of a larger area, or hold its edge values beyond the box (hold_environment_beyond_series = true in an incident file)",
+                self.label
+            ));
+        }
+        let (i0, _, i1) = self.lon_cell(lon);
+        let (j0, _) = bracket(lat_deg, self.lat0_deg, self.dlat_deg, self.nlat);
+        let (k0, _) = self.bracket_time(t_s);
+        let node = [k0, (k0 + 1).min(self.nt - 1)]
+            .into_iter()
+            .flat_map(|k| {
+                [j0, (j0 + 1).min(self.nlat - 1)]
+                    .into_iter()
+                    .flat_map(move |j| [i0, i1].into_iter().map(move |i| (i, j, k)))
+            })
+            .find(|&(i, j, k)| {
+                let n = self.idx(i, j, k);
+                self.u_kn[n].is_nan() || self.v_kn[n].is_nan()
+            });
+        let (i, j, k) = node.unwrap_or((i0, j0, k0));
+        let node_time = self.t0 + chrono::TimeDelta::milliseconds((self.times_s[k] * 1e3) as i64);
+        Some(format!(
+            "the {} has no value (a fill value or NaN that no coastline makes land) at the node {:.4}, {:.4} (lon, lat) at {}, which a particle at {lon_deg:.3}, {lat_deg:.3} needs at {when}; if that node is land, give a coastline that covers it (its current is then zero), otherwise give a field with a value there",
+            self.label,
+            self.lon0_deg + self.dlon_deg * i as f64,
+            self.lat0_deg + self.dlat_deg * j as f64,
+            node_time.format("%Y-%m-%dT%H:%MZ")
+        ))
+    }
+
+    fn idx(&self, i: usize, j: usize, k: usize) -> usize {
+        (k * self.nlat + j) * self.nlon + i
+    }
+
+    /// The longitude brought to the turn nearest the lattice centre (antimeridian lattices).
+    #[inline]
+    fn lon_near_centre(&self, lon_deg: f64) -> f64 {
+        let centre = self.lon0_deg + 0.5 * self.dlon_deg * (self.nlon - 1) as f64;
+        lon_deg - 360.0 * ((lon_deg - centre) / 360.0).round()
+    }
+
+    /// The columns either side of a longitude and the weight of the eastern one: clamped to
+    /// the box, or round the earth when the longitudes go all the way round.
+    #[inline]
+    fn lon_cell(&self, lon: f64) -> (usize, f64, usize) {
+        if self.lon_periodic {
+            // Between the last column and the first as between any two.
+            let f = ((lon - self.lon0_deg) / self.dlon_deg).rem_euclid(self.nlon as f64);
+            let i = (f.floor() as usize).min(self.nlon - 1);
+            (i, f - i as f64, (i + 1) % self.nlon)
+        } else {
+            let (i, w) = bracket(lon, self.lon0_deg, self.dlon_deg, self.nlon);
+            (i, w, (i + 1).min(self.nlon - 1))
+        }
+    }
+
+    /// The side of the box a position is beyond and the edge there, or `None` inside (an
+    /// axis of one node has no sides).
+    fn outside_side(&self, lon: f64, lat: f64) -> Option<(&'static str, String)> {
+        let (w, s, e, n) = self.bounds_deg();
+        // A hair of tolerance: a particle exactly on the edge is inside.
+        let tol = 1e-9;
+        if self.nlon > 1 && !self.lon_periodic && lon < w - tol {
+            Some(("west", format!("longitude {w}")))
+        } else if self.nlon > 1 && !self.lon_periodic && lon > e + tol {
+            Some(("east", format!("longitude {e}")))
+        } else if self.nlat > 1 && lat < s - tol {
+            Some(("south", format!("latitude {s}")))
+        } else if self.nlat > 1 && lat > n + tol {
+            Some(("north", format!("latitude {n}")))
+        } else {
+            None
+        }
+    }
+
+    /// Lower time index and weight of the upper time, clamped to the times.
+    #[inline]
+    fn bracket_time(&self, t_s: f64) -> (usize, f64) {
+        match self.dt_s {
+            Some(dt) => bracket(t_s, 0.0, dt, self.nt),
+            None => {
+                let n = self.nt;
+                let t = t_s.clamp(0.0, self.times_s[n - 1]);
+                let j = self.times_s.partition_point(|&x| x <= t).clamp(1, n - 1);
+                let (a, b) = (self.times_s[j - 1], self.times_s[j]);
+                (j - 1, (t - a) / (b - a))
+            }
+        }
+    }
+
+    /// The field's times as seconds after its first time.
+    pub(crate) fn times_s(&self) -> &[f64] {
+        &self.times_s
+    }
+
+    /// The same field, named `label` in messages.
+    #[must_use]
+    pub fn labelled(mut self, label: &str) -> Self {
+        label.clone_into(&mut self.label);
+        self
     }
 
     /// Lattice shape: (longitudes, latitudes, times).
@@ -279,22 +544,28 @@ impl GriddedField {
         self.direction_sigma_deg
     }
 
-    /// The interpolated velocity (u east, v north) in knots at a position and time: trilinear
-    /// in longitude, latitude and time, held at the edge value outside the lattice.
+    /// The interpolated velocity (u east, v north) in knots at a position and time: bilinear
+    /// in longitude and latitude, linear in time, held at the first or last time beyond the
+    /// times. Outside the box: the edge value with [`BeyondBox::HoldEdge`], NaN with
+    /// [`BeyondBox::Refuse`]; NaN too next to a node with no value ([`GriddedField::gap_at`]
+    /// says which).
     #[must_use]
     pub fn velocity_kn_at(&self, lon_deg: f64, lat_deg: f64, time: Time) -> (f64, f64) {
         self.velocity_kn_at_s(lon_deg, lat_deg, (time - self.t0).as_seconds_f64())
     }
 
     /// As [`GriddedField::velocity_kn_at`] with the time in seconds after the first lattice time.
+    ///
+    /// NaN components where the field has no value: beyond its box with
+    /// [`BeyondBox::Refuse`], or next to a node with no value.
     pub(crate) fn velocity_kn_at_s(&self, lon_deg: f64, lat_deg: f64, t_s: f64) -> (f64, f64) {
-        // Bring the longitude to the turn nearest the lattice centre (antimeridian lattices).
-        let centre = self.lon0_deg + 0.5 * self.dlon_deg * (self.nlon - 1) as f64;
-        let lon = lon_deg - 360.0 * ((lon_deg - centre) / 360.0).round();
-        let (i0, wi) = bracket(lon, self.lon0_deg, self.dlon_deg, self.nlon);
+        let lon = self.lon_near_centre(lon_deg);
+        if self.beyond_box == BeyondBox::Refuse && self.outside_side(lon, lat_deg).is_some() {
+            return (f64::NAN, f64::NAN);
+        }
+        let (i0, wi, i1) = self.lon_cell(lon);
         let (j0, wj) = bracket(lat_deg, self.lat0_deg, self.dlat_deg, self.nlat);
-        let (k0, wk) = bracket(t_s, 0.0, self.dt_s, self.nt);
-        let i1 = (i0 + 1).min(self.nlon - 1);
+        let (k0, wk) = self.bracket_time(t_s);
         let j1 = (j0 + 1).min(self.nlat - 1);
         let k1 = (k0 + 1).min(self.nt - 1);
         let idx = |i: usize, j: usize, k: usize| (k * self.nlat + j) * self.nlon + i;
@@ -313,6 +584,28 @@ impl GriddedField {
         }
         (u, v)
     }
+}
+
+/// A regular axis of a lattice: `n` values from `start_deg` by `step_deg`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RegularAxis {
+    /// The first value, degrees.
+    pub start_deg: f64,
+    /// The step, degrees (> 0; ignored for one node).
+    pub step_deg: f64,
+    /// The number of values (>= 1).
+    pub n: usize,
+}
+
+/// What a [`GriddedField`] gives outside its box in space.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum BeyondBox {
+    /// The value at the nearest edge (the CSV lattice, or a forecast file the incident says to
+    /// hold).
+    HoldEdge,
+    /// No value: a particle that leaves the box stops the simulation with
+    /// [`DriftError::FieldGap`].
+    Refuse,
 }
 
 /// Lower node index and weight of the upper node along one axis, clamped to the lattice.
@@ -471,14 +764,27 @@ impl<'a> Prepared<'a> {
         match self {
             Prepared::Constant(_) => Vec::new(),
             Prepared::Series { t_s, .. } => t_s.clone(),
-            Prepared::Gridded { field, offset_s } => (0..field.nt)
-                .map(|k| k as f64 * field.dt_s - offset_s)
-                .collect(),
+            Prepared::Gridded { field, offset_s } => {
+                field.times_s().iter().map(|t| t - offset_s).collect()
+            }
         }
     }
 
+    /// Whether the value is the same everywhere at a time (so that it can be tabulated once
+    /// per step): not a gridded field, unless the field has one node in space.
     pub(crate) fn is_uniform(&self) -> bool {
-        !matches!(self, Prepared::Gridded { .. })
+        match self {
+            Prepared::Gridded { field, .. } => field.nlon == 1 && field.nlat == 1,
+            _ => true,
+        }
+    }
+
+    /// The gridded field, if this is one.
+    pub(crate) fn field(&self) -> Option<(&GriddedField, f64)> {
+        match self {
+            Prepared::Gridded { field, offset_s } => Some((field, *offset_s)),
+            _ => None,
+        }
     }
 
     /// The nominal sample at `t_s` seconds after the origin; `lon_lat` is needed only for

@@ -72,6 +72,15 @@ pub enum DriftError {
         /// What is wrong and how to fix it.
         what: String,
     },
+    /// A gridded field gives no value where a particle needs one: beyond the side of its box
+    /// (a forecast file, [`crate::environment::BeyondBox::Refuse`]) or at a node with no value.
+    #[error("{field}: {what}")]
+    FieldGap {
+        /// `current` or `wind`.
+        field: String,
+        /// Where and what is missing, and the fix.
+        what: String,
+    },
     /// Zero particles requested.
     #[error(
         "particles is 0; ask for between 1 and 20 000 000 particles (10 000 or more for a smooth cloud)"

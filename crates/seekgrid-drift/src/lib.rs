@@ -66,7 +66,9 @@ pub mod spread;
 /// A time, UTC.
 pub type Time = chrono::DateTime<chrono::Utc>;
 
-pub use environment::{Convention, Environment, GridSample, GriddedField, VectorEstimate};
+pub use environment::{
+    BeyondBox, Convention, Environment, GridSample, GriddedField, RegularAxis, VectorEstimate,
+};
 pub use error::DriftError;
 pub use land::LandMask;
 pub use leeway::{Leeway, MAX_JIBE_PER_H};

@@ -130,6 +130,15 @@ struct ParticleMeta {
     strand_s: f64,
 }
 
+/// Where and when a gridded field gave a particle no value (see [`DriftError::FieldGap`]).
+#[derive(Clone, Copy, Debug)]
+struct Fault {
+    /// Seconds after the start.
+    t_s: f64,
+    /// Working frame position.
+    at: Coord<f64>,
+}
+
 /// The result of [`simulate()`]: particle positions stored at the record times, with what is
 /// needed to give them at any time between start and end.
 ///
@@ -510,7 +519,7 @@ impl<'a> Model<'a> {
         out: &mut [f64],
         land: Option<&LandMask>,
         random_walk: RandomWalk,
-    ) -> ParticleMeta {
+    ) -> (ParticleMeta, Option<Fault>) {
         let (mut rng, mut walk) = self.rngs(i);
         let init = self.draw_init(&mut rng);
         let mut pos = init.start;
@@ -530,6 +539,7 @@ impl<'a> Model<'a> {
         out[1] = pos.y;
         let adrift_s = init.adrift_s;
         let mut hints = [0usize; 2];
+        let mut fault = None;
 
         // One midpoint step from s to e; returns false when the particle strands.
         let mut substep = |pos: &mut Coord<f64>,
@@ -543,17 +553,31 @@ impl<'a> Model<'a> {
                 return None;
             }
             let half = 0.5 * dt;
-            let v = if let Some((c, w)) = shared {
+            let finite = |v: Coord<f64>| v.x.is_finite() && v.y.is_finite();
+            let (v, mid) = if let Some((c, w)) = shared {
                 // The step's nominal environment, worked out once for all particles.
-                self.velocity_of(c, w, &init, side)
+                (self.velocity_of(c, w, &init, side), *pos)
             } else {
                 let mid = if self.uniform {
                     *pos
                 } else {
-                    *pos + self.velocity(*pos, s, &init, side, &mut hints) * half
+                    let v0 = self.velocity(*pos, s, &init, side, &mut hints);
+                    if !finite(v0) {
+                        fault = Some(Fault { t_s: s, at: *pos });
+                        return Some(s);
+                    }
+                    *pos + v0 * half
                 };
-                self.velocity(mid, s + half, &init, side, &mut hints)
+                (self.velocity(mid, s + half, &init, side, &mut hints), mid)
             };
+            if !finite(v) {
+                // A gridded field with no value here: the particle stops and the run fails.
+                fault = Some(Fault {
+                    t_s: s + half,
+                    at: mid,
+                });
+                return Some(s);
+            }
             let mut new = *pos + v * dt;
             if diffusion {
                 let scale = self.diffusion_grid * dt.sqrt();
@@ -606,7 +630,30 @@ impl<'a> Model<'a> {
             out[2 * k + 2] = pos.x;
             out[2 * k + 3] = pos.y;
         }
-        ParticleMeta { adrift_s, strand_s }
+        (ParticleMeta { adrift_s, strand_s }, fault)
+    }
+
+    /// The error for a fault: which field has no value there and why.
+    fn field_gap(&self, start: Time, f: Fault) -> DriftError {
+        let (lon, lat) = self.frame.to_lon_lat(f.at);
+        let time = start + TimeDelta::milliseconds((f.t_s * 1e3).round() as i64);
+        for (name, env) in [("current", &self.current), ("wind", &self.wind)] {
+            if let Some((field, _)) = env.field()
+                && let Some(what) = field.gap_at(lon, lat, time)
+            {
+                return DriftError::FieldGap {
+                    field: name.to_owned(),
+                    what,
+                };
+            }
+        }
+        DriftError::FieldGap {
+            field: "current".to_owned(),
+            what: format!(
+                "the environment gives no finite value at {lon:.3}, {lat:.3} (lon, lat) at {}",
+                time.to_rfc3339()
+            ),
+        }
     }
 
     /// Runs particles `0..n` without land or diffusion and returns the mean and RMS radius of
@@ -857,6 +904,7 @@ pub fn simulate(
     let mut meta = vec![ParticleMeta::default(); n];
     let done = AtomicU64::new(0);
     let total = n as u64;
+    let first_fault: std::sync::Mutex<Option<(usize, Fault)>> = std::sync::Mutex::new(None);
     positions
         .par_chunks_mut(CHUNK_PARTICLES * records * 2)
         .zip(meta.par_chunks_mut(CHUNK_PARTICLES))
@@ -867,19 +915,27 @@ pub fn simulate(
                 .zip(meta_chunk.iter_mut())
                 .enumerate()
             {
-                *m = model.run_particle(
-                    c * CHUNK_PARTICLES + j,
-                    &lattice,
-                    out,
-                    land,
-                    RandomWalk::Included,
-                );
+                let i = c * CHUNK_PARTICLES + j;
+                let (meta, fault) =
+                    model.run_particle(i, &lattice, out, land, RandomWalk::Included);
+                *m = meta;
+                if let Some(f) = fault {
+                    // The lowest particle index is kept: the same report at any thread count.
+                    let mut first = first_fault.lock().unwrap_or_else(|e| e.into_inner());
+                    if first.is_none_or(|(k, _)| i < k) {
+                        *first = Some((i, f));
+                    }
+                }
             }
             let count = meta_chunk.len() as u64;
             let now = done.fetch_add(count, Ordering::Relaxed) + count;
             progress(now, total);
         });
 
+    let first_fault = first_fault.into_inner().unwrap_or_else(|e| e.into_inner());
+    if let Some((_, f)) = first_fault {
+        return Err(model.field_gap(start, f));
+    }
     Ok(DriftRun {
         start,
         record_s: lattice.record_s,
@@ -968,8 +1024,8 @@ mod tests {
         let r = plain.record_s.len();
         for i in 0..scenario.particles {
             let (mut a, mut b) = (vec![0.0; 2 * r], vec![0.0; 2 * r]);
-            let ma = model.run_particle(i, &plain, &mut a, None, RandomWalk::Included);
-            let mb = model.run_particle(i, &table, &mut b, None, RandomWalk::Included);
+            let (ma, _) = model.run_particle(i, &plain, &mut a, None, RandomWalk::Included);
+            let (mb, _) = model.run_particle(i, &table, &mut b, None, RandomWalk::Included);
             assert_eq!(a, b, "particle {i}");
             assert_eq!(ma.strand_s, mb.strand_s);
         }

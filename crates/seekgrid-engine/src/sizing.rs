@@ -116,6 +116,19 @@ fn max_speed(v: &VectorDef) -> f64 {
             .iter()
             .map(|(_, s)| s.speed_kn + 3.0 * s.speed_sigma_kn)
             .fold(0.0, f64::max),
+        VectorDef::Forecast {
+            grid,
+            speed_sigma_kn,
+            ..
+        } => {
+            grid.u_kn
+                .iter()
+                .zip(&grid.v_kn)
+                .map(|(u, v)| u.hypot(*v))
+                .filter(|s| s.is_finite())
+                .fold(0.0, f64::max)
+                + 3.0 * speed_sigma_kn
+        }
         #[allow(unreachable_patterns)]
         _ => 0.0,
     }

@@ -1458,6 +1458,24 @@ fn check_vector(v: &VectorDef) -> Result<(), TestCaseError> {
                 || "field sigmas".to_owned(),
             )
         }
+        VectorDef::Forecast {
+            grid,
+            speed_sigma_kn,
+            direction_sigma_deg,
+            ..
+        } => {
+            // `forecast::read_netcdf`/`read_grib`: one value per node (NaN: none), times
+            // increasing, sigmas non-negative.
+            let nodes = grid.lon.n * grid.lat.n * grid.times.len();
+            ensure(
+                grid.u_kn.len() == nodes
+                    && grid.v_kn.len() == nodes
+                    && grid.times.windows(2).all(|w| w[0] < w[1])
+                    && non_negative(*speed_sigma_kn)
+                    && non_negative(*direction_sigma_deg),
+                || "forecast grid".to_owned(),
+            )
+        }
     }
 }
 

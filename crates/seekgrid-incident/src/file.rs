@@ -611,7 +611,8 @@ pub struct RawAdrift {
     pub latest: TimeText,
 }
 
-/// A current or wind estimate: constant, or a CSV time series, or a CSV gridded field.
+/// A current or wind estimate: constant, or a CSV time series, or a CSV gridded field, or a
+/// NetCDF or GRIB2 forecast file.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct RawVector {
@@ -629,6 +630,39 @@ pub struct RawVector {
     pub series: Option<String>,
     /// CSV gridded field: `lon,lat,time,u_kn,v_kn`.
     pub field: Option<String>,
+    /// A CF NetCDF forecast file, or several of one forecast (docs/incident-format.md,
+    /// "Forecast files").
+    pub netcdf: Option<OneOrMany>,
+    /// One GRIB2 forecast file, or several (one or more times each).
+    pub grib: Option<OneOrMany>,
+    /// NetCDF: the eastward component's variable, instead of the search by standard_name.
+    pub u_variable: Option<String>,
+    /// NetCDF: the northward component's variable.
+    pub v_variable: Option<String>,
+    /// The level to use, metres (depth for a current, height for a wind); default the
+    /// surface for a current, 10 m for a wind; the file's nearest level is taken.
+    pub level_m: Option<f64>,
+}
+
+/// One path, or a list of paths.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(untagged)]
+pub enum OneOrMany {
+    /// One path.
+    One(String),
+    /// Several paths.
+    Many(Vec<String>),
+}
+
+impl OneOrMany {
+    /// The paths, in order.
+    #[must_use]
+    pub fn paths(&self) -> Vec<&str> {
+        match self {
+            Self::One(s) => vec![s.as_str()],
+            Self::Many(v) => v.iter().map(String::as_str).collect(),
+        }
+    }
 }
 
 /// Leeway as downwind and crosswind components linear in wind speed.

@@ -27,6 +27,11 @@ pub const GEOMETRY_MAX_BYTES: u64 = 256 * 1024 * 1024;
 /// The largest CSV file read (series and fields of current or wind), bytes (256 MiB).
 pub const CSV_MAX_BYTES: u64 = 256 * 1024 * 1024;
 
+/// The largest forecast file read (NetCDF or GRIB2 wind or current), bytes (1 GiB). The whole
+/// file is read into memory; cut a larger forecast to the area and hours of the incident
+/// (`ncks -d`, `cdo sellonlatbox`, `grib_copy -w`) first.
+pub const FORECAST_MAX_BYTES: u64 = 1024 * 1024 * 1024;
+
 /// The UTF-8 encoding of U+FEFF, the byte-order mark.
 const UTF8_BOM: &[u8] = b"\xEF\xBB\xBF";
 
@@ -46,6 +51,8 @@ pub enum InputKind {
     Series,
     /// A CSV gridded field of current or wind; limit [`CSV_MAX_BYTES`].
     Field,
+    /// A NetCDF or GRIB2 forecast file of current or wind; limit [`FORECAST_MAX_BYTES`].
+    Forecast,
 }
 
 impl InputKind {
@@ -56,6 +63,7 @@ impl InputKind {
             Self::Incident => INCIDENT_MAX_BYTES,
             Self::Polygons | Self::Segments | Self::Track => GEOMETRY_MAX_BYTES,
             Self::Series | Self::Field => CSV_MAX_BYTES,
+            Self::Forecast => FORECAST_MAX_BYTES,
         }
     }
 
@@ -69,6 +77,7 @@ impl InputKind {
             Self::Track => "track",
             Self::Series => "series CSV",
             Self::Field => "field CSV",
+            Self::Forecast => "forecast file",
         }
     }
 
@@ -92,6 +101,9 @@ impl InputKind {
             Self::Track => "thin the track points or split the track",
             Self::Series | Self::Field => {
                 "keep only the rows for the times and the area of the incident"
+            }
+            Self::Forecast => {
+                "cut the forecast to the area and hours of the incident (`ncks -d`, `cdo sellonlatbox`, `grib_copy -w`)"
             }
         }
     }

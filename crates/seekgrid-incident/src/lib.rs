@@ -18,6 +18,7 @@ pub mod crs;
 pub mod edit;
 pub mod error;
 pub mod file;
+pub mod forecast;
 pub mod geofiles;
 pub mod input;
 pub mod load;

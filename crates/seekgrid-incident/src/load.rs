@@ -17,11 +17,13 @@ use crate::file::{
     RawPattern, RawPoint, RawRectangle, RawRings, RawRoute, RawScenario, RawSearch, RawSector,
     RawSegments, RawShape, RawSquare, RawSuspended, RawUnit, RawVector, TimeText,
 };
+use crate::forecast::{self, ForecastGrid, ForecastOptions, Quantity};
 use crate::geofiles;
 use crate::locate::{FieldPath, path_at, span_of};
 use crate::model::*;
 use chrono::{DateTime, Utc};
 use seekgrid_core::{DEFAULT_MAX_CELLS, UtmZone};
+use seekgrid_drift::BeyondBox;
 use seekgrid_prior as prior;
 use seekgrid_search as search;
 use std::collections::{BTreeMap, HashMap, HashSet};
@@ -88,6 +90,7 @@ pub fn parse(path: &Path, text: String) -> Result<Incident, IncidentErrors> {
         path: path.to_owned(),
         text: &text,
         errors: Vec::new(),
+        land: None,
     };
     let incident = v.incident(&raw);
     if v.errors.is_empty() {
@@ -118,6 +121,8 @@ struct Validator<'a> {
     path: PathBuf,
     text: &'a str,
     errors: Vec<IncidentError>,
+    /// The coastline's land polygons, for the fill values of forecast files.
+    land: Option<geo::MultiPolygon<f64>>,
 }
 
 /// The years a time in an incident file may fall in: a wider range is a typing slip, and times
@@ -190,6 +195,16 @@ impl Validator<'_> {
             .parent()
             .map(Path::to_path_buf)
             .unwrap_or_default()
+    }
+
+    /// Sets to zero the nodes of a forecast with no value (fill values) that the coastline
+    /// says are land; without a coastline nothing changes, and the drift refuses such nodes
+    /// where a particle needs them.
+    fn apply_land(&self, grid: &mut ForecastGrid) {
+        use geo::Contains;
+        if let Some(land) = &self.land {
+            grid.apply_land(|lon, lat| land.contains(&geo::Point::new(lon, lat)));
+        }
     }
 
     fn resolve(&self, rel: &str) -> PathBuf {
@@ -299,6 +314,7 @@ impl Validator<'_> {
 
     fn incident(&mut self, raw: &RawFile) -> Option<Incident> {
         let header = self.header(&raw.incident);
+        self.land.clone_from(&header.coastline);
         let grid = self.grid(&raw.grid);
         let pool = self.pool(raw.prior.as_ref().and_then(|pr| pr.pool.as_deref()));
         let analysts = self.analysts(raw);
@@ -877,8 +893,9 @@ impl Validator<'_> {
         let ok = self.position(&at.key("position"), position);
         let earliest = self.time(&at.key("adrift").key("earliest"), &adrift.earliest);
         let latest = self.time(&at.key("adrift").key("latest"), &adrift.latest);
-        let current = self.vector(&at.key("current"), current, Convention::Toward);
-        let wind = self.vector(&at.key("wind"), wind, Convention::From);
+        let hold = s.hold_environment_beyond_series.unwrap_or(false);
+        let current = self.vector(&at.key("current"), current, Convention::Toward, hold);
+        let wind = self.vector(&at.key("wind"), wind, Convention::From, hold);
         let def = DriftDef {
             position,
             position_sigma_m: s.position_sigma_m.unwrap_or(0.0),
@@ -922,6 +939,7 @@ impl Validator<'_> {
         at: &FieldPath,
         v: &RawVector,
         convention: Convention,
+        hold: bool,
     ) -> Option<VectorDef> {
         let (dir, dir_name, wrong_name, wrong) = match convention {
             Convention::Toward => (v.toward_deg, "toward_deg", "from_deg", v.from_deg.is_some()),
@@ -942,10 +960,90 @@ impl Validator<'_> {
             v.speed_kn.is_some() || dir.is_some(),
             v.series.is_some(),
             v.field.is_some(),
+            v.netcdf.is_some(),
+            v.grib.is_some(),
         ];
         if sources.iter().filter(|b| **b).count() != 1 {
-            self.err(at, format!("give exactly one of: speed_kn with {dir_name} (constant), series = \"file.csv\" (time series) or field = \"file.csv\" (gridded)"));
+            self.err(at, format!("give exactly one of: speed_kn with {dir_name} (constant), series = \"file.csv\" (time series), field = \"file.csv\" (gridded CSV), netcdf = \"file.nc\" or grib = \"file.grib2\" (forecast files)"));
             return None;
+        }
+        let forecast_only = [
+            ("u_variable", v.u_variable.is_some()),
+            ("v_variable", v.v_variable.is_some()),
+            ("level_m", v.level_m.is_some()),
+        ];
+        if v.netcdf.is_none() && v.grib.is_none() {
+            if let Some((key, _)) = forecast_only.iter().find(|(_, given)| *given) {
+                self.err(&at.key(key), format!("{key} applies to a forecast file only; give netcdf = \"file.nc\" or grib = \"file.grib2\", or remove {key}"));
+                return None;
+            }
+        } else if v.grib.is_some() {
+            for key in ["u_variable", "v_variable"] {
+                if forecast_only.iter().any(|(k, given)| *k == key && *given) {
+                    self.err(&at.key(key), format!("{key} applies to a NetCDF file only; a GRIB2 file is read by its parameter codes (docs/incident-format.md)"));
+                    return None;
+                }
+            }
+        }
+        if let Some(level) = v.level_m
+            && !(level.is_finite() && level >= 0.0)
+        {
+            self.err(&at.key("level_m"), format!("level_m is {level}; give metres below (current) or above (wind) the surface, 0 or more"));
+            return None;
+        }
+        let quantity = match convention {
+            Convention::Toward => Quantity::Current,
+            Convention::From => Quantity::Wind,
+        };
+        let options = ForecastOptions {
+            u_variable: v.u_variable.clone(),
+            v_variable: v.v_variable.clone(),
+            level_m: v.level_m,
+        };
+        let forecast = |grid: ForecastGrid, key: &'static str| VectorDef::Forecast {
+            grid: Box::new(grid),
+            key,
+            speed_sigma_kn,
+            direction_sigma_deg,
+            beyond_box: if hold {
+                BeyondBox::HoldEdge
+            } else {
+                BeyondBox::Refuse
+            },
+        };
+        if let Some(list) = &v.netcdf {
+            let files: Vec<PathBuf> = list.paths().iter().map(|p| self.resolve(p)).collect();
+            if files.is_empty() {
+                self.err(
+                    &at.key("netcdf"),
+                    "netcdf = [] names no file; give one or more NetCDF files",
+                );
+                return None;
+            }
+            return forecast::read_netcdf_files(&files, quantity, &options)
+                .map(|mut g| {
+                    self.apply_land(&mut g);
+                    forecast(g, "netcdf")
+                })
+                .map_err(|e| self.named_file_err(&at.key("netcdf"), e))
+                .ok();
+        }
+        if let Some(list) = &v.grib {
+            let files: Vec<PathBuf> = list.paths().iter().map(|p| self.resolve(p)).collect();
+            if files.is_empty() {
+                self.err(
+                    &at.key("grib"),
+                    "grib = [] names no file; give one or more GRIB2 files",
+                );
+                return None;
+            }
+            return forecast::read_grib(&files, quantity, &options)
+                .map(|mut g| {
+                    self.apply_land(&mut g);
+                    forecast(g, "grib")
+                })
+                .map_err(|e| self.named_file_err(&at.key("grib"), e))
+                .ok();
         }
         if let Some(rel) = &v.series {
             let file = self.resolve(rel);

@@ -8,6 +8,7 @@
 //! [`seekgrid_prior::RingInterpolation`], each read by its `parse` and written by its `name`.
 
 use crate::error::{ErrorKind, IncidentError};
+use crate::forecast::ForecastGrid;
 use crate::locate::{FieldPath, line_col, span_of};
 use chrono::{DateTime, Utc};
 use geo::{Coord, LineString, MultiPolygon, Polygon};
@@ -78,6 +79,9 @@ impl Incident {
                         match v {
                             VectorDef::Series { file, .. } | VectorDef::Field { file, .. } => {
                                 files.push(file.clone());
+                            }
+                            VectorDef::Forecast { grid, .. } => {
+                                files.extend(grid.files.iter().cloned());
                             }
                             VectorDef::Constant(_) => {}
                         }
@@ -208,6 +212,20 @@ pub enum VectorDef {
         speed_sigma_kn: f64,
         /// One-sigma direction error, degrees.
         direction_sigma_deg: f64,
+    },
+    /// A NetCDF or GRIB2 forecast read into a lattice (see [`crate::forecast`]).
+    Forecast {
+        /// The grid, its files and what was used.
+        grid: Box<ForecastGrid>,
+        /// The key of its source in the scenario (`"netcdf"`, `"grib"`).
+        key: &'static str,
+        /// One-sigma speed error, knots.
+        speed_sigma_kn: f64,
+        /// One-sigma direction error, degrees.
+        direction_sigma_deg: f64,
+        /// Outside its box: refuse, or hold the edge values
+        /// (`hold_environment_beyond_series = true`).
+        beyond_box: drift::BeyondBox,
     },
 }
 
@@ -739,6 +757,7 @@ impl VectorDef {
             Self::Constant(_) => return None,
             Self::Series { samples, .. } => samples.iter().map(|(t, _)| *t).collect(),
             Self::Field { samples, .. } => samples.iter().map(|s| s.time).collect(),
+            Self::Forecast { grid, .. } => grid.times.clone(),
         };
         let first = *times.iter().min()?;
         let last = *times.iter().max()?;
@@ -817,6 +836,32 @@ impl VectorDef {
                     *direction_sigma_deg,
                 )?)
             }
+            Self::Forecast {
+                grid,
+                speed_sigma_kn,
+                direction_sigma_deg,
+                beyond_box,
+                ..
+            } => {
+                let files: Vec<String> =
+                    grid.files.iter().map(|f| f.display().to_string()).collect();
+                let label = format!(
+                    "field of {} ({}, {})",
+                    files.join(", "),
+                    grid.components.0,
+                    grid.components.1
+                );
+                drift::Environment::Gridded(drift::GriddedField::on_lattice(
+                    grid.lon,
+                    grid.lat,
+                    &grid.times,
+                    grid.u_kn.clone(),
+                    grid.v_kn.clone(),
+                    (*speed_sigma_kn, *direction_sigma_deg),
+                    *beyond_box,
+                    &label,
+                )?)
+            }
         })
     }
 }
@@ -835,10 +880,10 @@ impl DriftDef {
         [("current", &self.current), ("wind", &self.wind)]
             .into_iter()
             .filter_map(|(key, v)| {
-                let file_key = if matches!(v, VectorDef::Field { .. }) {
-                    "field"
-                } else {
-                    "series"
+                let file_key = match v {
+                    VectorDef::Field { .. } => "field",
+                    VectorDef::Forecast { key, .. } => key,
+                    _ => "series",
                 };
                 v.uncovered(key, self.adrift_earliest, end)
                     .map(|message| (key, file_key, message))

@@ -5,6 +5,7 @@ mod catalogue;
 mod credibility;
 mod end_to_end;
 mod external;
+mod forecast;
 mod frame_vs_proj;
 mod golden;
 mod layers;

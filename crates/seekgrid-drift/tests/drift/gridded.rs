@@ -216,3 +216,164 @@ fn incomplete_or_irregular_lattices_are_refused() {
     nan[2].u_kn = f64::NAN;
     assert!(GriddedField::from_samples(&nan, 0.0, 0.0).is_err());
 }
+
+fn axis(start_deg: f64, step_deg: f64, n: usize) -> RegularAxis {
+    RegularAxis {
+        start_deg,
+        step_deg,
+        n,
+    }
+}
+
+/// A 2 x 2 lattice at the given hours with u = 1 + hour, v = 0 (knots) at every node.
+fn lattice_field(hours_at: &[f64], beyond: BeyondBox) -> GriddedField {
+    let times: Vec<Time> = hours_at.iter().map(|&h| hours(h)).collect();
+    let u: Vec<f64> = hours_at.iter().flat_map(|&h| [1.0 + h; 4]).collect();
+    GriddedField::on_lattice(
+        axis(-31.0, 1.0, 2),
+        axis(20.0, 0.5, 2),
+        &times,
+        u,
+        vec![0.0; 4 * hours_at.len()],
+        (0.0, 0.0),
+        beyond,
+        "current from test.nc (uo, vo)",
+    )
+    .unwrap()
+}
+
+#[test]
+fn uneven_forecast_times_are_interpolated_linearly_between_their_neighbours() {
+    // computed by hand: u = 1 + hour at 0, 1 and 4 h; at 2.5 h it is 3.5 (between 1 h and 4 h).
+    let f = lattice_field(&[0.0, 1.0, 4.0], BeyondBox::Refuse);
+    let (u, _) = f.velocity_kn_at(-30.5, 20.2, hours(2.5));
+    assert_abs_diff_eq!(u, 3.5, epsilon = 1e-12);
+    let (u, _) = f.velocity_kn_at(-30.5, 20.2, hours(0.5));
+    assert_abs_diff_eq!(u, 1.5, epsilon = 1e-12);
+    // Held beyond its last time (the incident refuses a time gap before the drift runs).
+    let (u, _) = f.velocity_kn_at(-30.5, 20.2, hours(9.0));
+    assert_abs_diff_eq!(u, 5.0, epsilon = 1e-12);
+}
+
+#[test]
+fn a_particle_leaving_a_refusing_field_names_the_side_of_the_box() {
+    // 1 kn + hour toward the east from 30.5°W: the cloud crosses 30°W within the hour.
+    let f = lattice_field(&[0.0, 1.0, 2.0, 3.0], BeyondBox::Refuse);
+    let s = scenario(
+        Environment::Gridded(f.clone()),
+        Environment::Constant(exact(0.0, 0.0)),
+        Leeway::NONE,
+    );
+    let options = SimulationOptions {
+        end: hours(3.0),
+        record_every_s: SECONDS_PER_HOUR,
+        step_s: Some(600.0),
+        also_record_at: Vec::new(),
+    };
+    // 1 to 4 kn east for 3 h is about 7.5 NM, 0.13° of longitude at 20°N: still inside.
+    assert!(simulate(&s, &frame(), None, &options, &|_, _| {}).is_ok());
+    let far = GriddedField::on_lattice(
+        axis(-30.6, 0.2, 2),
+        axis(20.0, 0.5, 2),
+        &[hours(0.0), hours(3.0)],
+        vec![4.0; 8],
+        vec![0.0; 8],
+        (0.0, 0.0),
+        BeyondBox::Refuse,
+        "current from test.nc (uo, vo)",
+    )
+    .unwrap();
+    let s = scenario(
+        Environment::Gridded(far.clone()),
+        Environment::Constant(exact(0.0, 0.0)),
+        Leeway::NONE,
+    );
+    let e = simulate(&s, &frame(), None, &options, &|_, _| {}).unwrap_err();
+    let text = e.to_string();
+    assert!(matches!(e, DriftError::FieldGap { .. }), "{text}");
+    assert!(
+        text.contains("east side") && text.contains("test.nc"),
+        "{text}"
+    );
+    // Held at its edge, the same drift runs.
+    let held = GriddedField::on_lattice(
+        axis(-30.6, 0.2, 2),
+        axis(20.0, 0.5, 2),
+        &[hours(0.0), hours(3.0)],
+        vec![4.0; 8],
+        vec![0.0; 8],
+        (0.0, 0.0),
+        BeyondBox::HoldEdge,
+        "current",
+    )
+    .unwrap();
+    let s = scenario(
+        Environment::Gridded(held),
+        Environment::Constant(exact(0.0, 0.0)),
+        Leeway::NONE,
+    );
+    assert!(simulate(&s, &frame(), None, &options, &|_, _| {}).is_ok());
+}
+
+#[test]
+fn a_node_with_no_value_next_to_a_particle_stops_the_drift_with_its_place() {
+    let mut u = vec![0.5; 8];
+    // The node at 30°W, 20.5°N at the second time has no value.
+    u[4 + 3] = f64::NAN;
+    let f = GriddedField::on_lattice(
+        axis(-31.0, 1.0, 2),
+        axis(20.0, 0.5, 2),
+        &[hours(0.0), hours(6.0)],
+        u,
+        vec![0.0; 8],
+        (0.0, 0.0),
+        BeyondBox::Refuse,
+        "current from test.nc (uo, vo)",
+    )
+    .unwrap();
+    let s = scenario(
+        Environment::Gridded(f),
+        Environment::Constant(exact(0.0, 0.0)),
+        Leeway::NONE,
+    );
+    let options = SimulationOptions {
+        end: hours(2.0),
+        record_every_s: SECONDS_PER_HOUR,
+        step_s: Some(600.0),
+        also_record_at: Vec::new(),
+    };
+    let text = simulate(&s, &frame(), None, &options, &|_, _| {})
+        .unwrap_err()
+        .to_string();
+    assert!(
+        text.contains("no value") && text.contains("-30.0000, 20.5000"),
+        "{text}"
+    );
+}
+
+#[test]
+fn a_field_round_the_whole_earth_interpolates_across_its_last_and_first_columns() {
+    // computed by hand: columns at 0, 90, 180 and 270 E with u = 1, 2, 3, 4; at 315 E
+    // (= -45) halfway between 270 (4) and 0 (1): 2.5; nowhere is it beyond the box.
+    let f = GriddedField::on_lattice(
+        axis(0.0, 90.0, 4),
+        axis(-10.0, 20.0, 2),
+        &[hours(0.0)],
+        vec![1.0, 2.0, 3.0, 4.0, 1.0, 2.0, 3.0, 4.0],
+        vec![0.0; 8],
+        (0.0, 0.0),
+        BeyondBox::Refuse,
+        "global wind",
+    )
+    .unwrap();
+    for lon in [315.0, -45.0, -405.0] {
+        let (u, _) = f.velocity_kn_at(lon, 0.0, hours(0.0));
+        assert_abs_diff_eq!(u, 2.5, epsilon = 1e-12);
+    }
+    let (u, _) = f.velocity_kn_at(45.0, 0.0, hours(0.0));
+    assert_abs_diff_eq!(u, 1.5, epsilon = 1e-12);
+    assert!(f.gap_at(-45.0, 0.0, hours(0.0)).is_none());
+    // Beyond its latitudes it still refuses, naming the side.
+    let gap = f.gap_at(-45.0, 12.0, hours(0.0)).unwrap();
+    assert!(gap.contains("north side"), "{gap}");
+}

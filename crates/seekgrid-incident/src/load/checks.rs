@@ -305,6 +305,9 @@ pub(super) fn drift(at: &FieldPath, def: &DriftDef, e: &DriftError) -> (Place, S
             };
             match vector {
                 VectorDef::Field { file, .. } => (Place::File(file.clone()), e.to_string()),
+                VectorDef::Forecast { grid, .. } if !grid.files.is_empty() => {
+                    (Place::File(grid.files[0].clone()), e.to_string())
+                }
                 _ => (Place::Field(at.key(field)), e.to_string()),
             }
         }
