@@ -24,17 +24,22 @@
 //!   estimators, M. P. Wand, "Fast computation of multivariate kernel estimators", *J.
 //!   Comput. Graph. Stat.* 3, 1994; from memory), then spreads each centre's mass with the
 //!   cell-integrated kernel of bandwidth √(h² − ½ cell²), one axis after the other (the kernel
-//!   is the product of a kernel in x and one in y). The cost is 25 operations per particle
-//!   plus (10 h / cell) operations per cell and axis, in parallel over rows, each row summed in
-//!   a fixed order: the result is the same at any thread count.
+//!   is the product of a kernel in x and one in y). For a wide kernel the centres are a lattice
+//!   k cells apart, k the largest whole number with h ≥ 4 k cells (the shares then add ½ (k
+//!   cell)², taken off the kernel likewise): the pass along x then runs over one source in k²
+//!   and the pass along y over one source row in k. The cost is 25 operations per particle
+//!   plus about (10 h / cell) / k operations per cell and axis, in parallel over rows, each row
+//!   summed in a fixed order: the result is the same at any thread count.
 //!
 //! Each particle's binned kernel is the mix of its centres' kernels; a normal of variance
 //! h² − ½ cell² convolved with the shares agrees with the particle's own kernel of variance h²
 //! in mean, variance, skewness and kurtosis wherever the particle sits in its cell, so the
 //! difference falls off as (cell / h)⁵ for every particle alone, not only on average over a
 //! cloud (a clump of particles on one spot is as accurate as a wide cloud). Measured against
-//! the direct spread for one particle at the worst offsets: 5.7e-5 of its peak at h = 3
-//! cells, 1.3e-5 at 4 cells, 2e-6 at 6 cells (tests below). Further differences, all small:
+//! the direct spread for one particle at the worst offsets: 5.8e-5 of its peak at h = 3
+//! cells, 1.4e-5 at 4 cells, 2e-6 at 6 cells, and at most 1.1e-5 from 8 cells up, where the
+//! centres are h / 4 or more apart (the accuracy depends on h over the centres' spacing;
+//! tests below). Further differences, all small:
 //! - the direct kernel is cut ±5 h about the particle, the binned one about each centre;
 //! - at the grid's edges, each particle is divided by the same mix of its centres' in-grid
 //!   masses rather than by its own kernel's in-grid mass, and particles near an edge share
@@ -238,16 +243,20 @@ fn spread_direct(
     }
 }
 
-/// The kernel of one source at a cell centre: the mass of a normal (bandwidth `h`) in the
-/// cells at offsets `first..first + len`, those meeting ±4 h.
-fn centred_kernel(h: f64, s: f64) -> (isize, Vec<f64>) {
-    // Cells meeting [x - 4h, x + 4h] for x at a centre: floor(0.5 - 4h/s) ..= ceil(0.5 + 4h/s) - 1.
-    let first = (0.5 - KERNEL_REACH_H * h / s).floor() as isize;
-    let end = (0.5 + KERNEL_REACH_H * h / s).ceil() as isize;
+/// The kernel of one source centre of a lattice of spacing `k` cells (centre `C` at the middle
+/// of cells `k C .. k C + k`): the mass of a normal (bandwidth `h`) in the cells at offsets
+/// `first..first + len` from cell `k C`, those meeting ±[`KERNEL_REACH_H`] h of the centre.
+fn centred_kernel(h: f64, s: f64, k: usize) -> (isize, Vec<f64>) {
+    // The centre sits k/2 cells from the lower edge of cell k C; cells meeting
+    // [centre - R, centre + R] (R in cells): floor(k/2 - R) ..= ceil(k/2 + R) - 1.
+    let half = k as f64 / 2.0;
+    let reach = KERNEL_REACH_H * h / s;
+    let first = (half - reach).floor() as isize;
+    let end = (half + reach).ceil() as isize;
     let g = (first..end)
-        .map(|k| {
-            let k = k as f64;
-            (phi((k + 0.5) * s / h) - phi((k - 0.5) * s / h)).max(0.0)
+        .map(|o| {
+            let o = o as f64;
+            (phi((o + 1.0 - half) * s / h) - phi((o - half) * s / h)).max(0.0)
         })
         .collect();
     (first, g)
@@ -257,16 +266,16 @@ fn centred_kernel(h: f64, s: f64) -> (isize, Vec<f64>) {
 /// centres either side of a particle's nearest one).
 const BEYOND: usize = 2;
 
-/// Per source index `-BEYOND..n + BEYOND` (the virtual centres beyond each edge, then the cell
-/// centres), the mass of its centred kernel that falls inside `0..n`; entry `t + BEYOND` is
-/// source `t`.
-fn normalisers(first: isize, g: &[f64], n: usize) -> Vec<f64> {
-    (-(BEYOND as isize)..(n + BEYOND) as isize)
+/// Per source index `-BEYOND..centres + BEYOND` of a lattice of spacing `k` cells (the virtual
+/// centres beyond each edge, then the lattice's centres), the mass of its centred kernel that
+/// falls inside cells `0..n`; entry `t + BEYOND` is source `t`.
+fn normalisers(first: isize, g: &[f64], n: usize, k: usize, centres: usize) -> Vec<f64> {
+    (-(BEYOND as isize)..(centres + BEYOND) as isize)
         .map(|c| {
             g.iter()
                 .enumerate()
                 .filter(|(j, _)| {
-                    let t = c + first + *j as isize;
+                    let t = k as isize * c + first + *j as isize;
                     t >= 0 && t < n as isize
                 })
                 .map(|(_, v)| *v)
@@ -328,11 +337,23 @@ fn spread_binned(
     // exactly its mass into the grid, as in the direct method. The shares add ½ s² to the
     // variance of every particle's kernel along each axis wherever it sits in its cell; the
     // centres' kernels take that much off theirs.
-    let (first, g) = centred_kernel((h * h - SHARES_VARIANCE_CELLS2 * s * s).sqrt(), s);
-    let nx = normalisers(first, &g, cols);
-    let ny = normalisers(first, &g, rows);
-    let mut binned = Array2::<f64>::zeros((rows + 2 * BEYOND, cols + 2 * BEYOND));
+    // Wide kernels take centres k cells apart (see `centre_spacing`): the shares then add
+    // ½ (k s)², and the cost of both passes falls by about k (along x by k²).
+    let k = centre_spacing(h, s);
+    let ks = k as isize;
+    let (first, g) = centred_kernel(
+        (h * h - SHARES_VARIANCE_CELLS2 * (k as f64 * s).powi(2)).sqrt(),
+        s,
+        k,
+    );
+    let (ccols, crows) = (cols.div_ceil(k), rows.div_ceil(k));
+    let nx = normalisers(first, &g, cols, k, ccols);
+    let ny = normalisers(first, &g, rows, k, crows);
+    let mut binned = Array2::<f64>::zeros((crows + 2 * BEYOND, ccols + 2 * BEYOND));
     let (mut r_min, mut r_max, mut c_min, mut c_max) = (usize::MAX, 0, usize::MAX, 0);
+    // A position in cells from the first cell centre, in lattice units from the first centre
+    // (which sits (k - 1)/2 cells beyond it).
+    let lattice = |u: f64| (u - (k as f64 - 1.0) / 2.0) / k as f64;
     // One thread, in particle order: the binned masses do not depend on the thread count.
     for i in range {
         let w = particles.weights()[i];
@@ -347,8 +368,8 @@ fn spread_binned(
             cells[own] += w;
             continue;
         }
-        let (c1, wx) = shares((p.x - west) / s - 0.5, cols);
-        let (r1, wy) = shares((north - p.y) / s - 0.5, rows);
+        let (c1, wx) = shares(lattice((p.x - west) / s - 0.5), ccols);
+        let (r1, wy) = shares(lattice((north - p.y) / s - 0.5), crows);
         let (c0, r0) = (c1 - BEYOND, r1 - BEYOND);
         let sx: f64 = wx.iter().zip(&nx[c0..]).map(|(a, b)| a * b).sum();
         let sy: f64 = wy.iter().zip(&ny[r0..]).map(|(a, b)| a * b).sum();
@@ -370,12 +391,12 @@ fn spread_binned(
     if r_min > r_max {
         return;
     }
-    // Output cells reached from shifted sources lo..=hi (real centres lo - BEYOND ..= hi -
-    // BEYOND).
+    // Output cells reached from shifted sources lo..=hi (lattice centres lo - BEYOND ..= hi -
+    // BEYOND): source t puts mass into cells k t + first + j.
     let shift = BEYOND as isize;
     let reach = |lo: usize, hi: usize, n: usize| {
-        let a = (lo as isize - shift + first).max(0) as usize;
-        let b = ((hi as isize - shift + first + g.len() as isize).max(0) as usize).min(n);
+        let a = (ks * (lo as isize - shift) + first).max(0) as usize;
+        let b = ((ks * (hi as isize - shift) + first + g.len() as isize).max(0) as usize).min(n);
         a..b
     };
     let out_cols = reach(c_min, c_max, cols);
@@ -398,8 +419,8 @@ fn spread_binned(
                 if m == 0.0 {
                     continue;
                 }
-                // Offsets j put mass into column (c - BEYOND) + first + j; keep those inside.
-                let base = c as isize - shift + first - out_cols.start as isize;
+                // Offsets j put mass into column k (c - BEYOND) + first + j; keep those inside.
+                let base = ks * (c as isize - shift) + first - out_cols.start as isize;
                 let j0 = (-base).max(0) as usize;
                 let j1 = ((width as isize - base).max(0) as usize).min(g.len());
                 for j in j0..j1 {
@@ -414,12 +435,15 @@ fn spread_binned(
         .par_chunks_mut(width)
         .zip(out_rows.clone().into_par_iter())
         .for_each(|(out, r)| {
-            for (j, gv) in g.iter().enumerate() {
-                // Shifted source row r0 reaches r when r = (r0 - BEYOND) + first + j.
-                let r0 = r as isize + shift - first - j as isize;
-                if r0 < r_min as isize || r0 > r_max as isize {
-                    continue;
-                }
+            // Shifted source row r0 reaches r with offset j = r - k (r0 - BEYOND) - first.
+            let top = r as isize - first;
+            // j < len: r0 - BEYOND >= ceil((top - len + 1) / k); j >= 0: r0 - BEYOND <=
+            // floor(top / k).
+            let lo = -(-(top - g.len() as isize + 1)).div_euclid(ks) + shift;
+            let hi = top.div_euclid(ks) + shift;
+            for r0 in lo.max(r_min as isize)..=hi.min(r_max as isize) {
+                let j = top - ks * (r0 - shift);
+                let gv = g[j as usize];
                 let src = &along_x[(r0 as usize - r_min) * width..][..width];
                 for (o, v) in out.iter_mut().zip(src) {
                     *o += gv * v;
@@ -433,6 +457,16 @@ fn spread_binned(
         }
     }
 }
+
+/// The spacing in cells of the binned field's source centres for a kernel of bandwidth `h` on
+/// cells of side `s`: the largest k with h ≥ [`BANDWIDTHS_PER_SPACING`] k s, at least 1.
+fn centre_spacing(h: f64, s: f64) -> usize {
+    ((h / (BANDWIDTHS_PER_SPACING * s)).floor() as usize).max(1)
+}
+
+/// The binned field's centres are at most h / `BANDWIDTHS_PER_SPACING` apart: with h at least
+/// 4 spacings each particle's binned kernel stays within 1.3e-5 of its peak (module docs).
+const BANDWIDTHS_PER_SPACING: f64 = 4.0;
 
 #[cfg(test)]
 mod tests {
@@ -625,15 +659,17 @@ mod tests {
     }
 
     #[test]
-    fn one_particle_binned_is_within_1e4_of_its_direct_kernel_from_three_cells() {
+    fn one_particle_binned_is_within_1e4_of_its_direct_kernel_from_three_cells_at_any_spacing() {
         // Reference: the direct spread; bound 1e-4 of the peak (issue 16), for one particle
-        // alone at offsets from its cell centre of 0, 0.21 (where the shares' odd moments
-        // beyond the fourth are largest), a quarter and a half cell, in the middle of the grid
-        // and two cells from a corner. Measured when written: at most 5.7e-5 at 3 cells,
-        // 1.3e-5 at 4, 2.1e-6 at 6; mass within 1e-15.
+        // alone at offsets from a cell centre of 0, 0.21, a quarter and a half cell, and 1.37
+        // and 2.5 cells (off the centres of the coarser lattices wide kernels use), in the
+        // middle of the grid and two cells from a corner, with bandwidths that use centres 1,
+        // 2, 3 (11.9 and 13 cells on either side of the change), 6 and 10 cells apart.
+        // Measured when written: at most 5.8e-5 at 3 cells, 1.4e-5 at 4, 2.1e-6 at 6, 1.1e-5
+        // from 8 cells up; mass within 1e-12.
         let grid = big_grid();
-        for h_cells in [3.0, 4.0, 6.0] {
-            for offset in [0.0, 0.21, 0.25, 0.5] {
+        for h_cells in [3.0, 4.0, 6.0, 8.0, 11.9, 13.0, 25.0, 41.0] {
+            for offset in [0.0, 0.21, 0.25, 0.5, 1.37, 2.5] {
                 for (x, y) in [(15_050.0, 14_950.0), (250.0, 29_750.0)] {
                     let p = Particles::new(
                         vec![x + offset * 100.0],
