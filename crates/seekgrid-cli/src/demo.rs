@@ -175,7 +175,7 @@ pub(crate) fn run(out: &Path, force: bool, run_id: &str) -> Result<(), Failure> 
             DEMO_STRICT,
         )?;
         eprintln!(
-            "{name}: plan from {plan_start} -> {} (plan POS {:.4}, best possible {:.4})",
+            "{name}: plan from {plan_start} -> {} (plan POS {:.4}; optimal allocation under exponential detection {:.4})",
             out.join(name).join("plan").display(),
             plan.pos_plan.unwrap_or(0.0),
             plan.pos_optimal_bound.unwrap_or(0.0)

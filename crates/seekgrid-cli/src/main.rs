@@ -40,7 +40,8 @@ enum Command {
     /// Compute the probability map at a time and write its layers
     #[command(after_help = AFTER_HELP)]
     Map(MapArgs),
-    /// Plan the next search period: the best possible POS for the units' effort and a
+    /// Plan the next search period: the optimal allocation of the units' effort under
+    /// exponential detection (the best possible POS when every unit detects by that law) and a
     /// practical plan (one area or segment per unit, pattern, spacing, waypoints)
     #[command(after_help = AFTER_HELP)]
     Plan(PlanArgs),
@@ -406,7 +407,7 @@ fn plan_command(a: PlanArgs, run_id: &str) -> Result<(), Failure> {
         print_json(&summary)?;
     } else {
         eprintln!(
-            "wrote {} as run {run_id} (plan POS {:.4}, best possible {:.4})\n{}",
+            "wrote {} as run {run_id} (plan POS {:.4}; optimal allocation under exponential detection {:.4})\n{}",
             out.display(),
             summary.pos_plan.unwrap_or(0.0),
             summary.pos_optimal_bound.unwrap_or(0.0),

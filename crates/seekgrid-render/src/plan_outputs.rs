@@ -460,15 +460,37 @@ fn briefing_warnings(md: &mut String, c: &Computed) {
     let _ = writeln!(md);
 }
 
+/// What the bound is to a reader: the best possible POS only when every unit detects by the
+/// exponential law (the bound's own law, docs/references.md §4); with inverse-cube or
+/// definite-range units a plan can exceed it, and the briefing says so rather than call it the
+/// best possible.
+fn bound_name(run: &PlanRun) -> String {
+    let other = run
+        .units
+        .iter()
+        .filter(|u| u.law != seekgrid_search::DetectionLaw::Exponential)
+        .count();
+    if other == 0 {
+        "best possible with the same total effort (optimal allocation, exponential detection)"
+            .to_owned()
+    } else {
+        format!(
+            "optimal allocation of the same total effort under exponential detection (a yardstick, not a ceiling: {other} of {} units detect by another law, and a plan for them can exceed it)",
+            run.units.len()
+        )
+    }
+}
+
 /// The whole plan's joint POS and bound: the numbers `pos_plan` and `pos_optimal_bound` of
 /// `summary.json`, with what they cover.
 fn briefing_headline(md: &mut String, run: &PlanRun) {
     let t = plan_totals(run);
     let _ = writeln!(
         md,
-        "Joint POS of the whole plan, {}: **{:.3}**; best possible with the same total effort (optimal allocation, exponential detection): **{:.3}**; efficiency {:.0} %. These are `pos_plan` and `pos_optimal_bound` in summary.json.\n",
+        "Joint POS of the whole plan, {}: **{:.3}**; {}: **{:.3}**; efficiency {:.0} %. These are `pos_plan` and `pos_optimal_bound` in summary.json.\n",
         t.covers,
         t.pos_plan,
+        bound_name(run),
         t.pos_optimal_bound,
         100.0 * t.efficiency
     );
@@ -480,7 +502,7 @@ fn briefing_areas(md: &mut String, frame: &Frame, p: &seekgrid_plan::Plan) {
     let _ = writeln!(md, "## Search areas\n");
     let _ = writeln!(
         md,
-        "Joint POS of the search areas ({}): **{:.3}**; best possible with these units' effort: **{:.3}**; efficiency {:.0} %. Turn allowance {:.0} % of track length.\n",
+        "Joint POS of the search areas ({}): **{:.3}**; optimal allocation of these units' effort under exponential detection: **{:.3}**; efficiency {:.0} %. Turn allowance {:.0} % of track length.\n",
         units.join(", "),
         p.pos_plan,
         p.pos_optimal_bound,
