@@ -118,12 +118,29 @@ pub fn add_particles_where_accurate(
     particles: &Particles,
     clouds: &[Range<usize>],
 ) -> Vec<f64> {
+    add_particles_choosing(cells, grid, particles, clouds, binned_is_accurate)
+}
+
+/// Adds the particles' mass to `cells`, cloud by cloud (`clouds` are index ranges of
+/// `particles`, one per drift scenario), each cloud with its own bandwidth: through the binned
+/// field when `binned(h_m, cell_m, n)` holds for its bandwidth `h_m` and particle count `n`,
+/// particle by particle otherwise. Returns the bandwidth used for each cloud, metres.
+///
+/// # Panics
+/// If `cells` is not `grid.rows()` x `grid.cols()`.
+pub fn add_particles_choosing(
+    cells: &mut Array2<f64>,
+    grid: &GridSpec,
+    particles: &Particles,
+    clouds: &[Range<usize>],
+    binned: impl Fn(f64, f64, usize) -> bool,
+) -> Vec<f64> {
     let s = grid.cell_m();
     clouds
         .iter()
         .map(|range| {
             let h = silverman_bandwidth_m(particles, range.clone(), s);
-            if binned_is_accurate(h, s, range.len()) {
+            if binned(h, s, range.len()) {
                 spread_binned(cells, grid, particles, range.clone(), h);
             } else {
                 spread_direct(cells, grid, particles, range.clone(), h);
@@ -166,21 +183,13 @@ pub fn add_particles_binned(
     particles: &Particles,
     clouds: &[Range<usize>],
 ) -> Vec<f64> {
-    let s = grid.cell_m();
-    clouds
-        .iter()
-        .map(|range| {
-            let h = silverman_bandwidth_m(particles, range.clone(), s);
-            spread_binned(cells, grid, particles, range.clone(), h);
-            h
-        })
-        .collect()
+    add_particles_choosing(cells, grid, particles, clouds, |_, _, _| true)
 }
 
 /// Adds the particles' mass to `cells`, cloud by cloud (`clouds` are index ranges of
 /// `particles`, one per drift scenario), every particle spread over the cells its kernel
-/// reaches: the reference for the binned field, and what the engine uses. Returns the
-/// bandwidth used for each cloud, metres.
+/// reaches: the reference for the binned field, and what serves narrow and small clouds.
+/// Returns the bandwidth used for each cloud, metres.
 ///
 /// # Panics
 /// If `cells` is not `grid.rows()` x `grid.cols()`.
@@ -190,15 +199,7 @@ pub fn add_particles(
     particles: &Particles,
     clouds: &[Range<usize>],
 ) -> Vec<f64> {
-    let s = grid.cell_m();
-    clouds
-        .iter()
-        .map(|range| {
-            let h = silverman_bandwidth_m(particles, range.clone(), s);
-            spread_direct(cells, grid, particles, range.clone(), h);
-            h
-        })
-        .collect()
+    add_particles_choosing(cells, grid, particles, clouds, |_, _, _| false)
 }
 
 fn spread_direct(

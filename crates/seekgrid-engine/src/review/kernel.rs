@@ -16,7 +16,7 @@
 
 use ndarray::Array2;
 use seekgrid_core::particle_density::{
-    BINNED_FROM_CELLS, KERNEL_REACH_H, add_particles, add_particles_binned, silverman_bandwidth_m,
+    BINNED_FROM_CELLS, KERNEL_REACH_H, add_particles_choosing, silverman_bandwidth_m,
 };
 use seekgrid_core::{GridSpec, Particles, neumaier_sum};
 use std::ops::Range;
@@ -34,15 +34,9 @@ pub(crate) fn add_particles_fast(
     particles: &Particles,
     clouds: &[Range<usize>],
 ) {
-    let s = grid.cell_m();
-    for range in clouds {
-        let h = silverman_bandwidth_m(particles, range.clone(), s);
-        if h < BINNED_FROM_CELLS * s {
-            add_particles(cells, grid, particles, std::slice::from_ref(range));
-        } else {
-            add_particles_binned(cells, grid, particles, std::slice::from_ref(range));
-        }
-    }
+    add_particles_choosing(cells, grid, particles, clouds, |h, s, _| {
+        h >= BINNED_FROM_CELLS * s
+    });
 }
 
 /// One axis of the map's kernel for a particle at `c`: its weight in cell `k` and the sum of
@@ -117,6 +111,7 @@ pub(crate) fn mass_in_cell(
 mod tests {
     use super::*;
     use seekgrid_core::DEFAULT_MAX_CELLS;
+    use seekgrid_core::particle_density::add_particles;
 
     /// A normal cloud of `n` particles (deterministic quasi-random draws) about (cx, cy).
     fn cloud(n: usize, cx: f64, cy: f64, sigma: f64) -> Particles {
