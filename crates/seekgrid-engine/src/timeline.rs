@@ -107,8 +107,6 @@ pub struct IncidentMap {
     /// The probability of containment per cell at `at`, computed on first use by
     /// [`IncidentMap::poc`].
     poc: std::sync::OnceLock<Array2<f64>>,
-    /// The index range of each drift scenario's particles in the belief.
-    clouds: Vec<std::ops::Range<usize>>,
     /// How long each phase of the run took, in the order they ended (the particle density
     /// when [`IncidentMap::poc`] first computes it; the outputs add theirs).
     pub phases: PhaseTimes,
@@ -202,10 +200,8 @@ pub fn map(
             drifting.move_particles(&mut log.belief, replay.at)?;
             Ok(())
         })?;
-    let clouds = particle_clouds(&replay.drift_runs);
     Ok(IncidentMap {
         poc: std::sync::OnceLock::new(),
-        clouds,
         phases: replay.phases,
         prepared: replay.prepared,
         grid: replay.grid,
@@ -1085,7 +1081,7 @@ impl IncidentMap {
     pub fn poc(&self) -> &Array2<f64> {
         self.poc.get_or_init(|| {
             self.phases.time("particle density", || {
-                poc_cells(&self.belief, &self.grid, &self.clouds)
+                poc_cells(&self.belief, &self.grid, &self.particle_clouds())
             })
         })
     }
