@@ -50,6 +50,7 @@
 #![deny(clippy::print_stdout, clippy::print_stderr, clippy::dbg_macro)]
 
 pub mod allocation;
+mod blocks;
 mod coverage;
 pub mod error;
 pub mod law;
