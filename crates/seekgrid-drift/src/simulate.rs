@@ -27,6 +27,11 @@ pub const CHUNK_PARTICLES: usize = 1024;
 /// Largest memory the stored records may take, bytes (16 bytes per particle per record).
 pub const MAX_RECORD_BYTES: u128 = 12 * (1 << 30);
 
+/// Bytes stored per particle per record: x and y in double precision. (Single-precision
+/// offsets would halve it, but round a stranded particle by up to centimetres, past the
+/// millimetre it is kept seaward of the shore.)
+const RECORD_BYTES: f64 = 16.0;
+
 /// Most time steps a run may have (a guard against a step of microseconds over days).
 pub const MAX_STEPS: f64 = 5.0e7;
 
@@ -147,10 +152,27 @@ struct Fault {
 pub struct DriftRun {
     start: Time,
     record_s: Vec<f64>,
-    /// Positions, particle-major: `[(i * records + k) * 2]` = x, `+ 1` = y.
-    positions: Vec<f64>,
+    /// The recorded positions, one block per [`CHUNK_PARTICLES`] particles.
+    chunks: Vec<ChunkRecords>,
     meta: Vec<ParticleMeta>,
     step_s: f64,
+}
+
+/// The recorded positions of one chunk of particles, time-major so that the chunk's positions
+/// at one record lie together (a snapshot reads each chunk in one sweep): particle `j` at
+/// record `k` at `[(k * len + j) * 2]` (x) and `+ 1` (y).
+#[derive(Clone)]
+struct ChunkRecords {
+    len: usize,
+    positions: Vec<f64>,
+}
+
+impl ChunkRecords {
+    #[inline]
+    fn at(&self, k: usize, j: usize) -> (f64, f64) {
+        let at = (k * self.len + j) * 2;
+        (self.positions[at], self.positions[at + 1])
+    }
 }
 
 impl std::fmt::Debug for DriftRun {
@@ -238,40 +260,42 @@ impl DriftRun {
             .min(r.saturating_sub(2));
         let n = self.len();
         let mut snap = ParticleSnapshot {
-            x_m: Vec::with_capacity(n),
-            y_m: Vec::with_capacity(n),
-            stranded: Vec::with_capacity(n),
-            adrift: Vec::with_capacity(n),
+            x_m: vec![0.0; n],
+            y_m: vec![0.0; n],
+            stranded: vec![false; n],
+            adrift: vec![false; n],
         };
-        for (i, m) in self.meta.iter().enumerate() {
-            let base = i * r * 2;
-            let p0 = (
-                self.positions[base + 2 * k],
-                self.positions[base + 2 * k + 1],
-            );
-            let (x, y) = if r == 1 {
-                p0
-            } else {
-                let p1 = (
-                    self.positions[base + 2 * k + 2],
-                    self.positions[base + 2 * k + 3],
-                );
-                let a = self.record_s[k].max(m.adrift_s);
-                let b = self.record_s[k + 1].min(m.strand_s);
-                if b <= a || t_s <= a {
-                    p0
-                } else if t_s >= b {
-                    p1
-                } else {
-                    let w = (t_s - a) / (b - a);
-                    (p0.0 + w * (p1.0 - p0.0), p0.1 + w * (p1.1 - p0.1))
+        snap.x_m
+            .par_chunks_mut(CHUNK_PARTICLES)
+            .zip(snap.y_m.par_chunks_mut(CHUNK_PARTICLES))
+            .zip(snap.stranded.par_chunks_mut(CHUNK_PARTICLES))
+            .zip(snap.adrift.par_chunks_mut(CHUNK_PARTICLES))
+            .zip(self.chunks.par_iter())
+            .zip(self.meta.par_chunks(CHUNK_PARTICLES))
+            .for_each(|(((((xs, ys), stranded), adrift), chunk), meta)| {
+                for (j, m) in meta.iter().enumerate() {
+                    let p0 = chunk.at(k, j);
+                    let (x, y) = if r == 1 {
+                        p0
+                    } else {
+                        let p1 = chunk.at(k + 1, j);
+                        let a = self.record_s[k].max(m.adrift_s);
+                        let b = self.record_s[k + 1].min(m.strand_s);
+                        if b <= a || t_s <= a {
+                            p0
+                        } else if t_s >= b {
+                            p1
+                        } else {
+                            let w = (t_s - a) / (b - a);
+                            (p0.0 + w * (p1.0 - p0.0), p0.1 + w * (p1.1 - p0.1))
+                        }
+                    };
+                    xs[j] = x;
+                    ys[j] = y;
+                    stranded[j] = t_s >= m.strand_s;
+                    adrift[j] = t_s >= m.adrift_s;
                 }
-            };
-            snap.x_m.push(x);
-            snap.y_m.push(y);
-            snap.stranded.push(t_s >= m.strand_s);
-            snap.adrift.push(t_s >= m.adrift_s);
-        }
+            });
         snap
     }
 
@@ -863,7 +887,7 @@ pub fn simulate(
     // Count before allocating anything.
     let records_f =
         (end_s / options.record_every_s).ceil() + 1.0 + options.also_record_at.len() as f64;
-    let bytes_f = n as f64 * records_f * 16.0;
+    let bytes_f = n as f64 * records_f * RECORD_BYTES;
     if bytes_f > MAX_RECORD_BYTES as f64 {
         return Err(DriftError::TooLarge {
             particles: n,
@@ -900,24 +924,24 @@ pub fn simulate(
     let lattice =
         Lattice::with_step(record_s, step_s, &breaks).tabulate(&model.current, &model.wind);
 
-    let mut positions = vec![0.0; n * records * 2];
     let mut meta = vec![ParticleMeta::default(); n];
     let done = AtomicU64::new(0);
     let total = n as u64;
     let first_fault: std::sync::Mutex<Option<(usize, Fault)>> = std::sync::Mutex::new(None);
-    positions
-        .par_chunks_mut(CHUNK_PARTICLES * records * 2)
-        .zip(meta.par_chunks_mut(CHUNK_PARTICLES))
+    let chunks: Vec<ChunkRecords> = meta
+        .par_chunks_mut(CHUNK_PARTICLES)
         .enumerate()
-        .for_each(|(c, (pos_chunk, meta_chunk))| {
-            for (j, (out, m)) in pos_chunk
-                .chunks_mut(records * 2)
-                .zip(meta_chunk.iter_mut())
-                .enumerate()
-            {
+        .map(|(c, meta_chunk)| {
+            let len = meta_chunk.len();
+            let mut one = vec![0.0; records * 2];
+            let mut chunk = ChunkRecords {
+                len,
+                positions: vec![0.0; len * records * 2],
+            };
+            for (j, m) in meta_chunk.iter_mut().enumerate() {
                 let i = c * CHUNK_PARTICLES + j;
                 let (meta, fault) =
-                    model.run_particle(i, &lattice, out, land, RandomWalk::Included);
+                    model.run_particle(i, &lattice, &mut one, land, RandomWalk::Included);
                 *m = meta;
                 if let Some(f) = fault {
                     // The lowest particle index is kept: the same report at any thread count.
@@ -926,11 +950,17 @@ pub fn simulate(
                         *first = Some((i, f));
                     }
                 }
+                for (k, xy) in one.chunks_exact(2).enumerate() {
+                    let at = (k * len + j) * 2;
+                    chunk.positions[at..at + 2].copy_from_slice(xy);
+                }
             }
-            let count = meta_chunk.len() as u64;
+            let count = len as u64;
             let now = done.fetch_add(count, Ordering::Relaxed) + count;
             progress(now, total);
-        });
+            chunk
+        })
+        .collect();
 
     let first_fault = first_fault.into_inner().unwrap_or_else(|e| e.into_inner());
     if let Some((_, f)) = first_fault {
@@ -939,7 +969,7 @@ pub fn simulate(
     Ok(DriftRun {
         start,
         record_s: lattice.record_s,
-        positions,
+        chunks,
         meta,
         step_s: step_s.min(options.record_every_s),
     })

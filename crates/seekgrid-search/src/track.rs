@@ -272,26 +272,37 @@ fn field_pod_at(points: &[Coord<f64>], track: &[Coord<f64>], kernel: Kernel) -> 
     };
     let field = TrackField::new(kernel, track, &eval, &choice, reach);
     let block = field.block_m();
+    // The points grouped by block in one counting pass (stable: each block keeps the points
+    // in their order), instead of a sort.
+    let block_cols = (eval.width_m() / block).floor() as usize + 1;
+    let block_rows = (eval.height_m() / block).floor() as usize + 1;
     let key = |p: Coord<f64>| {
-        (
-            ((p.y - eval.south_m) / block).floor() as u64,
-            ((p.x - eval.west_m) / block).floor() as u64,
-        )
+        let row = (((p.y - eval.south_m) / block).floor() as usize).min(block_rows - 1);
+        let col = (((p.x - eval.west_m) / block).floor() as usize).min(block_cols - 1);
+        row * block_cols + col
     };
-    let mut order: Vec<(u64, u64, usize)> = inside
-        .iter()
-        .map(|&i| {
-            let (row, col) = key(points[i]);
-            (row, col, i)
-        })
+    let keys: Vec<usize> = inside.par_iter().map(|&i| key(points[i])).collect();
+    let mut starts = vec![0_usize; block_rows * block_cols + 1];
+    for &k in &keys {
+        starts[k + 1] += 1;
+    }
+    for k in 1..starts.len() {
+        starts[k] += starts[k - 1];
+    }
+    let mut next = starts.clone();
+    let mut order = vec![0_usize; inside.len()];
+    for (&i, &k) in inside.iter().zip(&keys) {
+        order[next[k]] = i;
+        next[k] += 1;
+    }
+    let groups: Vec<(usize, &[usize])> = (0..block_rows * block_cols)
+        .filter(|&k| starts[k + 1] > starts[k])
+        .map(|k| (k, &order[starts[k]..starts[k + 1]]))
         .collect();
-    order.sort_unstable();
-    let groups: Vec<&[(u64, u64, usize)]> =
-        order.chunk_by(|a, b| a.0 == b.0 && a.1 == b.1).collect();
     let pods: Vec<Vec<(usize, f64)>> = groups
         .par_iter()
-        .map_init(Vec::new, |near, group| {
-            let (row, col, _) = group[0];
+        .map_init(Vec::new, |near, &(k, group)| {
+            let (row, col) = (k / block_cols, k % block_cols);
             let rect = ProjectedBox {
                 west_m: eval.west_m + col as f64 * block,
                 south_m: eval.south_m + row as f64 * block,
@@ -301,7 +312,7 @@ fn field_pod_at(points: &[Coord<f64>], track: &[Coord<f64>], kernel: Kernel) -> 
             field.gather(&rect, near);
             group
                 .iter()
-                .map(|&(_, _, i)| (i, pod_of_exposure(field.exposure(near, points[i]))))
+                .map(|&i| (i, pod_of_exposure(field.exposure(near, points[i]))))
                 .collect()
         })
         .collect();
