@@ -250,14 +250,7 @@ impl DriftRun {
     /// particle stays where it stranded; one not yet adrift stays at its start position).
     #[must_use]
     pub fn positions_at(&self, t: Time) -> ParticleSnapshot {
-        let t_s = (t - self.start).as_seconds_f64().clamp(0.0, self.end_s());
-        let r = self.record_s.len();
-        // Record interval [k, k + 1] holding t_s.
-        let k = self
-            .record_s
-            .partition_point(|&x| x <= t_s)
-            .saturating_sub(1)
-            .min(r.saturating_sub(2));
+        let (k, t_s) = self.record_interval(t);
         let n = self.len();
         let mut snap = ParticleSnapshot {
             x_m: vec![0.0; n],
@@ -274,29 +267,72 @@ impl DriftRun {
             .zip(self.meta.par_chunks(CHUNK_PARTICLES))
             .for_each(|(((((xs, ys), stranded), adrift), chunk), meta)| {
                 for (j, m) in meta.iter().enumerate() {
-                    let p0 = chunk.at(k, j);
-                    let (x, y) = if r == 1 {
-                        p0
-                    } else {
-                        let p1 = chunk.at(k + 1, j);
-                        let a = self.record_s[k].max(m.adrift_s);
-                        let b = self.record_s[k + 1].min(m.strand_s);
-                        if b <= a || t_s <= a {
-                            p0
-                        } else if t_s >= b {
-                            p1
-                        } else {
-                            let w = (t_s - a) / (b - a);
-                            (p0.0 + w * (p1.0 - p0.0), p0.1 + w * (p1.1 - p0.1))
-                        }
-                    };
-                    xs[j] = x;
-                    ys[j] = y;
+                    (xs[j], ys[j]) = self.position(chunk, k, j, m, t_s);
                     stranded[j] = t_s >= m.strand_s;
                     adrift[j] = t_s >= m.adrift_s;
                 }
             });
         snap
+    }
+
+    /// Positions at time `t` as [`Self::positions_at`] gives them, written into `out` (one
+    /// per particle), for a caller that reads many times and keeps its buffer.
+    ///
+    /// # Panics
+    /// If `out` does not hold one place per particle.
+    pub fn write_points_at(&self, t: Time, out: &mut [Coord<f64>]) {
+        assert_eq!(out.len(), self.len(), "one place per particle");
+        let (k, t_s) = self.record_interval(t);
+        out.par_chunks_mut(CHUNK_PARTICLES)
+            .zip(self.chunks.par_iter())
+            .zip(self.meta.par_chunks(CHUNK_PARTICLES))
+            .for_each(|((out, chunk), meta)| {
+                for (j, m) in meta.iter().enumerate() {
+                    let (x, y) = self.position(chunk, k, j, m, t_s);
+                    out[j] = Coord { x, y };
+                }
+            });
+    }
+
+    /// The record interval `[k, k + 1]` holding `t` and `t` in seconds from the start,
+    /// clamped to the simulated span.
+    fn record_interval(&self, t: Time) -> (usize, f64) {
+        let t_s = (t - self.start).as_seconds_f64().clamp(0.0, self.end_s());
+        let r = self.record_s.len();
+        let k = self
+            .record_s
+            .partition_point(|&x| x <= t_s)
+            .saturating_sub(1)
+            .min(r.saturating_sub(2));
+        (k, t_s)
+    }
+
+    /// Particle `j` of `chunk` at `t_s` in record interval `k`: linear between the records,
+    /// moving only while adrift and not yet stranded.
+    #[inline]
+    fn position(
+        &self,
+        chunk: &ChunkRecords,
+        k: usize,
+        j: usize,
+        m: &ParticleMeta,
+        t_s: f64,
+    ) -> (f64, f64) {
+        let p0 = chunk.at(k, j);
+        if self.record_s.len() == 1 {
+            return p0;
+        }
+        let p1 = chunk.at(k + 1, j);
+        let a = self.record_s[k].max(m.adrift_s);
+        let b = self.record_s[k + 1].min(m.strand_s);
+        if b <= a || t_s <= a {
+            p0
+        } else if t_s >= b {
+            p1
+        } else {
+            let w = (t_s - a) / (b - a);
+            (p0.0 + w * (p1.0 - p0.0), p0.1 + w * (p1.1 - p0.1))
+        }
     }
 
     /// Weighted mean position and covariance at time `t` (working frame), for the mean track

@@ -700,6 +700,18 @@ impl Drifting<'_> {
         p
     }
 
+    /// Every run's particles at `t`, written into `out` (resized to the particle count and
+    /// reused across calls).
+    pub(crate) fn points_at(&self, t: Time, out: &mut Vec<Coord<f64>>) {
+        let n = self.runs.iter().map(|(_, run)| run.len()).sum();
+        out.resize(n, Coord { x: 0.0, y: 0.0 });
+        let mut start = 0;
+        for (_, run) in self.runs {
+            run.write_points_at(t, &mut out[start..start + run.len()]);
+            start += run.len();
+        }
+    }
+
     /// Moves the belief's particles to where they are at `t`.
     pub(crate) fn move_particles(&self, belief: &mut Belief, t: Time) -> Result<(), MapError> {
         let p = self.placement(t);
@@ -1008,18 +1020,13 @@ fn sliced_particle_pod(
     sw: &search::SweepWidth,
 ) -> Result<Vec<f64>, search::SearchError> {
     let mut miss: Option<Vec<f64>> = None;
+    let mut points = Vec::new();
     for part in parts {
-        let at = drifting.placement(part.mid);
-        let miss = miss.get_or_insert_with(|| vec![1.0; at.x_m.len()]);
+        drifting.points_at(part.mid, &mut points);
+        let miss = miss.get_or_insert_with(|| vec![1.0; points.len()]);
         if part.track.len() < 2 {
             continue;
         }
-        let points: Vec<Coord<f64>> = at
-            .x_m
-            .iter()
-            .zip(&at.y_m)
-            .map(|(&x, &y)| Coord { x, y })
-            .collect();
         match search::track_pod_at(&points, &part.track, law, sw) {
             Ok(pod) => {
                 for (m, d) in miss.iter_mut().zip(pod) {
