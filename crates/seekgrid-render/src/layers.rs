@@ -125,7 +125,7 @@ layers! {
         files: ["segments.csv", "segments.geojson"],
         sidecars: [],
         plan_only: false,
-        description: "POA, area and density per segment, as a table and as polygons, and after searches cumulative POD and POS (written when the incident uses segments)",
+        description: "POA, area and density per segment, as a table and as polygons, and after searches cumulative POD and POS (written when the incident uses segments); each POA is the belief integrated over the segment's polygons (a cell cut by a segment edge is split where its scenarios put the mass, not by area), and `poa_rest_of_world` and `poa_outside_segments` (in `segments.geojson` and `summary.json`) add up with the POAs to 1",
     }
     Searches {
         name: "searches",

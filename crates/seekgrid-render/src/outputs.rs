@@ -183,14 +183,21 @@ pub(crate) fn segments(c: &Computed, out: &mut Recorder) -> Result<(), RenderErr
         out.skip(Layer::Segments, "the incident uses no segments");
         return Ok(());
     };
-    let rows = segment_rows(m, segments);
+    let table = match m.segment_table() {
+        Some(Ok(t)) => t,
+        Some(Err(e)) => return Err(RenderError::Internal(format!("segment table: {e}"))),
+        None => return Err(RenderError::Internal("segments without a table".into())),
+    };
+    let rows = segment_rows(m, &table);
     let l = Layer::Segments;
     let details = || {
         Some(FileDetails::Segments {
             segments: segments.len(),
+            poa_rest_of_world: table.rest_of_world,
+            poa_outside_segments: table.outside_segments,
         })
     };
-    let geojson = segments_geojson(m, segments, &rows, out.run_id())?;
+    let geojson = segments_geojson(m, segments, &rows, &table, out.run_id())?;
     out.write(l, l.files()[0], &segments_csv(&rows)?, details())?;
     out.write(l, l.files()[1], &geojson, details())
 }
@@ -265,20 +272,19 @@ struct SegmentRow {
     searched: Option<(f64, f64)>,
 }
 
-/// Per segment: POA now, area, density, and after searches cumulative POD and POS.
-fn segment_rows(m: &IncidentMap, segments: &[seekgrid_prior::Segment]) -> Vec<SegmentRow> {
-    let now = seekgrid_prior::segment_table(m.poc(), &m.grid, segments);
+/// Per segment: POA now, area, density, and after searches cumulative POD and POS, each cell
+/// split between segments by the engine's sub-cell shares (`IncidentMap::segment_table`).
+fn segment_rows(m: &IncidentMap, table: &seekgrid_engine::SegmentTable) -> Vec<SegmentRow> {
     // Cumulative POD of a segment: its prior mass weighted by each cell's cumulative POD,
     // over its prior mass; its POS: that weighted mass itself (share of the original prior).
     let before = m.belief_before_searches.cells();
     let searched = m.pod_cumulative.as_ref().map(|pod| {
         let found = before * pod;
-        (
-            seekgrid_prior::segment_table(before, &m.grid, segments),
-            seekgrid_prior::segment_table(&found, &m.grid, segments),
-        )
+        (table.split.poa(before), table.split.poa(&found))
     });
-    now.iter()
+    table
+        .rows
+        .iter()
         .enumerate()
         .map(|(k, row)| SegmentRow {
             id: row.id.clone(),
@@ -286,7 +292,7 @@ fn segment_rows(m: &IncidentMap, segments: &[seekgrid_prior::Segment]) -> Vec<Se
             poa: row.poa,
             density_km2: row.density_per_km2,
             searched: match &searched {
-                Some((b, f)) if b[k].poa > 0.0 => Some((f[k].poa / b[k].poa, f[k].poa)),
+                Some((b, f)) if b[k] > 0.0 => Some((f[k] / b[k], f[k])),
                 Some(_) => Some((0.0, 0.0)),
                 None => None,
             },
@@ -332,6 +338,7 @@ fn segments_geojson(
     m: &IncidentMap,
     segments: &[seekgrid_prior::Segment],
     rows: &[SegmentRow],
+    table: &seekgrid_engine::SegmentTable,
     run_id: &str,
 ) -> Result<Vec<u8>, RenderError> {
     let mut features = Vec::new();
@@ -353,7 +360,10 @@ fn segments_geojson(
             });
         }
     }
-    collection_bytes(features, named("segments", run_id))
+    let mut members = named("segments", run_id);
+    members.insert("poa_rest_of_world".into(), table.rest_of_world.into());
+    members.insert("poa_outside_segments".into(), table.outside_segments.into());
+    collection_bytes(features, members)
 }
 
 /// A feature collection with its foreign members, as RFC 7946 bytes.

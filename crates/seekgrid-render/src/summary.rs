@@ -181,6 +181,11 @@ pub enum FileDetails {
     Segments {
         /// Segments listed.
         segments: usize,
+        /// The belief's rest of world: with the segments' POAs and `poa_outside_segments` it
+        /// adds up to 1.
+        poa_rest_of_world: f64,
+        /// The mass on the grid and in particles that lies in no segment.
+        poa_outside_segments: f64,
     },
     /// `searches.geojson`.
     Searches {
