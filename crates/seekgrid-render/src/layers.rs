@@ -104,7 +104,7 @@ layers! {
         files: ["probability.geojson"],
         sidecars: [],
         plan_only: false,
-        description: "grid cells as lon/lat polygons with `poc` (probability of containment, a fraction) and `density_km2`; at most 200,000 cells: beyond that only the densest, up to 99.9 % of the grid's mass, and then the file and summary.json state the share of the mass (`share_of_grid_mass_written`) and the cells written; the heatmap draws every cell",
+        description: "grid cells as lon/lat polygons with `poc` (probability of containment, a fraction) and `density_km2`, and `cell_id` (the cell's south-west corner and size in the working EPSG frame, such as `EPSG:32626:E400000:N3299750:250m`: the same in every run, unlike `row` and `col`); at most 200,000 cells: beyond that only the densest, up to 99.9 % of the grid's mass, and then the file and summary.json state the share of the mass (`share_of_grid_mass_written`) and the cells written; the heatmap draws every cell",
     }
     Containment {
         name: "containment",

@@ -7,7 +7,7 @@
 //! * [`OutputDir`]: an output folder written as one unit: staged beside its destination under a
 //!   lock, put in place whole by one atomic swap, never holding the run's inputs.
 //! * [`probability_geojson`]: cells as RFC 7946 polygons with `poc`, `density_km2`, `row`,
-//!   `col` and `pod_cumulative`, limited to the top share of the mass for big grids.
+//!   `col`, the run-independent [`cell_id`] and `pod_cumulative`, limited to the top share of the mass for big grids.
 //! * [`containment_geojson`]: the smallest regions holding 50 %, 90 %, 95 % of the mass,
 //!   traced from the raster as valid polygons with holes.
 //! * [`heatmap_png`] and [`write_png_set`]: a briefing picture with legend, scale bar, north
@@ -73,5 +73,5 @@ pub use heatmap::{
     png_set_names, write_png_set,
 };
 pub use output::{OutputDir, OutputOptions};
-pub use probability::{CellLayer, CellLimit, ProbabilityExport, probability_geojson};
+pub use probability::{CellLayer, CellLimit, ProbabilityExport, cell_id, probability_geojson};
 pub use vector::{geojson_bytes, line_to_geojson, point_to_geojson, polygon_to_geojson};
