@@ -3,6 +3,7 @@
 
 mod catalogue;
 mod credibility;
+mod date_line;
 mod end_to_end;
 mod external;
 mod forecast;
