@@ -1136,6 +1136,32 @@ pub(crate) fn with_text_chunk(
     Ok(out)
 }
 
+/// `png` with an `iTXt` chunk `keyword`, `text` (UTF-8, uncompressed) inserted after its
+/// `IHDR` chunk (PNG specification, third edition, 11.3.3.4), as [`with_text_chunk`] does.
+pub(crate) fn with_itxt_chunk(
+    png: &[u8],
+    keyword: &str,
+    text: &str,
+) -> Result<Vec<u8>, RenderError> {
+    use png::text_metadata::{EncodableTextChunk, ITXtChunk};
+    const SIGNATURE: [u8; 8] = [137, 80, 78, 71, 13, 10, 26, 10];
+    const AFTER_IHDR: usize = 8 + 4 + 4 + 13 + 4;
+    if png.len() < AFTER_IHDR || png[..8] != SIGNATURE || &png[8..16] != b"\0\0\0\x0dIHDR" {
+        return Err(RenderError::Png(
+            "the picture does not start with a PNG signature and IHDR chunk".into(),
+        ));
+    }
+    let mut chunk = Vec::new();
+    ITXtChunk::new(keyword, text)
+        .encode(&mut chunk)
+        .map_err(|e| RenderError::Png(e.to_string()))?;
+    let mut out = Vec::with_capacity(png.len() + chunk.len());
+    out.extend_from_slice(&png[..AFTER_IHDR]);
+    out.extend_from_slice(&chunk);
+    out.extend_from_slice(&png[AFTER_IHDR..]);
+    Ok(out)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -422,6 +422,12 @@ impl<'d> Recorder<'d> {
         self.dir.run_id()
     }
 
+    /// The run's provenance ([`OutputDir::provenance`]), if the caller gave one.
+    #[must_use]
+    pub fn provenance(&self) -> Option<&crate::Provenance> {
+        self.dir.provenance()
+    }
+
     /// Records that a chosen layer wrote nothing, and why.
     pub fn skip(&mut self, layer: Layer, reason: impl Into<String>) {
         self.not_written.insert(layer.name(), reason.into());

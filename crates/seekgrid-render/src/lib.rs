@@ -59,6 +59,7 @@ pub mod output;
 pub mod outputs;
 pub mod plan_outputs;
 mod probability;
+pub mod provenance;
 pub mod record;
 pub mod review;
 pub mod summary;
@@ -74,4 +75,5 @@ pub use heatmap::{
 };
 pub use output::{OutputDir, OutputOptions};
 pub use probability::{CellLayer, CellLimit, ProbabilityExport, cell_id, probability_geojson};
+pub use provenance::Provenance;
 pub use vector::{geojson_bytes, line_to_geojson, point_to_geojson, polygon_to_geojson};

@@ -405,7 +405,10 @@ pub(crate) fn gpx(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(),
         run.start.to_rfc3339(),
         out.run_id()
     );
-    let bytes = routes_gpx(&c.incident.title, &description, &routes)?;
+    let mut bytes = routes_gpx(&c.incident.title, &description, &routes)?;
+    if let Some(p) = out.provenance() {
+        bytes = crate::gpx::with_provenance(&bytes, p);
+    }
     out.write(l, l.files()[0], &bytes, None)
 }
 

@@ -13,5 +13,6 @@ mod layers;
 mod located;
 mod log;
 mod output_folder;
+mod provenance;
 mod review;
 mod warnings;
