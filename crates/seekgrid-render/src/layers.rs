@@ -155,6 +155,13 @@ layers! {
         plan_only: false,
         description: "the hourly mean drift track of each drifting scenario and its 50 % and 90 % ellipses (written when a scenario drifts)",
     }
+    Rasters {
+        name: "rasters",
+        files: ["poc.tif", "density.tif", "pod.tif"],
+        sidecars: [],
+        plan_only: false,
+        description: "Float32 GeoTIFF rasters of the grid in the working EPSG frame, for computing in a GIS: `poc.tif` (POC per cell), `density.tif` (probability per km²) and, after searches, `pod.tif` (cumulative POD); no-data -9999, the run id and provenance in the GDAL metadata, internal overviews (striped, not the Cloud Optimized layout)",
+    }
     Plan {
         name: "plan",
         files: ["plan.geojson"],
@@ -249,7 +256,7 @@ impl OutputSelection {
     }
 
     /// The layers `seekgrid plan` writes by default: the summary, the belief at the start
-    /// (probability, containment, heatmap, segments) and every plan layer.
+    /// (probability, containment, heatmap, segments, rasters) and every plan layer.
     #[must_use]
     pub fn plan_default() -> Self {
         use Layer as L;
@@ -259,6 +266,7 @@ impl OutputSelection {
             L::Containment,
             L::Heatmap,
             L::Segments,
+            L::Rasters,
         ];
         Self(
             Layer::ALL
@@ -488,6 +496,7 @@ fn write_layer(layer: Layer, c: &Computed, out: &mut Recorder) -> Result<(), Ren
         L::Segments => outputs::segments(c, out),
         L::Searches => outputs::searches(c, out),
         L::Pod => outputs::pod(c, out),
+        L::Rasters => outputs::rasters(c, out),
         L::Particles => outputs::particles(c, out),
         L::Drift => outputs::drift(c, out),
         L::Plan => with_plan(layer, c, out, plan_outputs::geojson),

@@ -15,6 +15,8 @@
 //! * [`review::write`]: an incident review as `review.json`, `review.md` and GeoJSON layers.
 //! * [`geojson_bytes`], [`polygon_to_geojson`], [`line_to_geojson`], [`point_to_geojson`]: the
 //!   shared GeoJSON writer and working-frame-to-lon/lat helpers for other layers.
+//! * [`geotiff::float_geotiff`]: a Float32 GeoTIFF of a cell array, with GeoKeys, no-data,
+//!   metadata and overviews.
 //! * [`layers`]: the registry of a run's output layers ([`layers::Layer`]: `--outputs` name,
 //!   files, description, one writer each), which writes a computed map or plan and lists every
 //!   file written in the summary ([`summary`]); the writers live in [`outputs`] (the map's
@@ -52,6 +54,7 @@ mod containment;
 pub mod credibility;
 pub mod error;
 pub mod georef;
+pub mod geotiff;
 pub mod gpx;
 mod heatmap;
 pub mod layers;

@@ -171,6 +171,45 @@ pub(crate) fn pod(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
     out.write_picture(Layer::Pod, &png)
 }
 
+/// The rasters layer's writer: `poc.tif`, `density.tif` and, after searches, `pod.tif`
+/// (Float32 GeoTIFF, [`crate::geotiff`]).
+pub(crate) fn rasters(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
+    let m = c.map;
+    let l = Layer::Rasters;
+    let cell_km2 = m.grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
+    let poc = m.poc();
+    let density = poc.mapv(|p| p / cell_km2);
+    let mut rasters: Vec<(&str, &str, ndarray::Array2<f64>)> = vec![
+        (
+            "poc.tif",
+            "probability of containment per cell (a fraction)",
+            poc.clone(),
+        ),
+        ("density.tif", "probability of containment per km²", density),
+    ];
+    if let Some(pod) = &m.pod_cumulative {
+        rasters.push((
+            "pod.tif",
+            "cumulative probability of detection (0..1)",
+            pod.clone(),
+        ));
+    }
+    for (name, quantity, values) in rasters {
+        let mut items = vec![
+            ("quantity", quantity.to_owned()),
+            ("time", m.at.to_rfc3339()),
+            ("run_id", out.run_id().to_owned()),
+            ("caution", CAUTION.to_owned()),
+        ];
+        if let Some(p) = out.provenance() {
+            items.push(("provenance", p.to_json_line()));
+        }
+        let bytes = crate::geotiff::float_geotiff(&m.prepared.frame, &m.grid, &values, &items)?;
+        out.write(l, name, &bytes, None)?;
+    }
+    Ok(())
+}
+
 /// Why the search layers can be empty.
 const NO_SEARCH: &str = "no search was applied by the map time";
 /// Why the drift layers can be empty.

@@ -14,5 +14,6 @@ mod located;
 mod log;
 mod output_folder;
 mod provenance;
+mod rasters;
 mod review;
 mod warnings;
