@@ -199,10 +199,10 @@ layers! {
     }
     Effort {
         name: "effort",
-        files: ["effort.png"],
+        files: ["effort.png", "effort.tif"],
         sidecars: ["effort.pgw", "effort.png.aux.xml", "effort.prj"],
         plan_only: true,
-        description: "the optimal coverage (effort over area) that gives the bound `pos_optimal_bound`, georeferenced",
+        description: "the optimal coverage (effort over area) that gives the bound `pos_optimal_bound`, georeferenced, as a picture and as a Float32 GeoTIFF like the `rasters` layer",
     }
 }
 

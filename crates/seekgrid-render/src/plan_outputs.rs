@@ -680,7 +680,22 @@ pub(crate) fn effort(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<
         scale: ColourScale::Density,
     };
     let png = render::heatmap_png(&m.prepared.frame, &m.grid, &run.bound.coverage, &style, &[])?;
-    out.write_picture(Layer::Effort, &png)
+    out.write_picture(Layer::Effort, &png)?;
+    let mut items = vec![
+        (
+            "quantity",
+            "optimal coverage (effort over area) of the bound".to_owned(),
+        ),
+        ("time", run.start.to_rfc3339()),
+        ("run_id", out.run_id().to_owned()),
+        ("caution", CAUTION.to_owned()),
+    ];
+    if let Some(p) = out.provenance() {
+        items.push(("provenance", p.to_json_line()));
+    }
+    let tif =
+        crate::geotiff::float_geotiff(&m.prepared.frame, &m.grid, &run.bound.coverage, &items)?;
+    out.write(Layer::Effort, Layer::Effort.files()[1], &tif, None)
 }
 
 #[cfg(test)]

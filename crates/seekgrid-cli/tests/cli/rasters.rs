@@ -109,3 +109,37 @@ fn rasters_are_float32_geotiffs_of_the_grid_that_gdal_reads_back() {
         );
     }
 }
+
+#[test]
+fn the_plan_writes_the_optimal_coverage_as_a_float32_geotiff() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("plan");
+    let incident = workspace().join("fixtures/golden/tiny/incident.toml");
+    let o = seekgrid(&[
+        "plan",
+        incident.to_str().unwrap(),
+        "--start",
+        "2026-03-10T11:00:00Z",
+        "--out",
+        out.to_str().unwrap(),
+        "--outputs",
+        "effort,summary",
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let summary = json(&out.join("summary.json"));
+    assert_eq!(summary["outputs"]["effort.tif"]["layer"], "effort");
+    if !have("gdalinfo") {
+        return;
+    }
+    let o = run(
+        "gdalinfo",
+        &["-json", "-stats", out.join("effort.tif").to_str().unwrap()],
+    );
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let v: Value = serde_json::from_slice(&o.stdout).unwrap();
+    let g = &summary["grid"];
+    assert_eq!(v["size"], serde_json::json!([g["cols"], g["rows"]]));
+    assert_eq!(v["bands"][0]["type"], "Float32");
+    // The bound spends effort somewhere: the coverage's maximum is positive.
+    assert!(v["bands"][0]["maximum"].as_f64().unwrap() > 0.0, "{v}");
+}
