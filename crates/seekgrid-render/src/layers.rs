@@ -204,6 +204,13 @@ layers! {
         plan_only: true,
         description: "the optimal coverage (effort over area) that gives the bound `pos_optimal_bound`, georeferenced, as a picture and as a Float32 GeoTIFF like the `rasters` layer",
     }
+    Kml {
+        name: "kml",
+        files: ["plan.kml"],
+        sidecars: [],
+        plan_only: true,
+        description: "the containment regions at the plan's start and the plan's areas, tracks, commence search points and segments, as OGC KML 2.2 for virtual globes (a folder each)",
+    }
 }
 
 impl Layer {
@@ -500,6 +507,7 @@ fn write_layer(layer: Layer, c: &Computed, out: &mut Recorder) -> Result<(), Ren
         L::Particles => outputs::particles(c, out),
         L::Drift => outputs::drift(c, out),
         L::Plan => with_plan(layer, c, out, plan_outputs::geojson),
+        L::Kml => with_plan(layer, c, out, plan_outputs::kml),
         L::Routes => with_plan(layer, c, out, plan_outputs::gpx),
         L::Briefing => with_plan(layer, c, out, plan_outputs::briefing),
         L::Tasking => with_plan(layer, c, out, tasking::write),

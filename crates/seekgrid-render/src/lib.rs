@@ -57,6 +57,7 @@ pub mod georef;
 pub mod geotiff;
 pub mod gpx;
 mod heatmap;
+pub mod kml;
 pub mod layers;
 pub mod output;
 pub mod outputs;

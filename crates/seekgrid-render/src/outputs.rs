@@ -22,7 +22,7 @@ pub const MAX_PROBABILITY_FEATURES: usize = 200_000;
 pub const TOP_SHARE: f64 = 0.999;
 
 /// The levels of `containment.geojson`.
-const CONTAINMENT_LEVELS: [f64; 3] = [0.5, 0.9, 0.95];
+pub(crate) const CONTAINMENT_LEVELS: [f64; 3] = [0.5, 0.9, 0.95];
 
 fn foreign(incident: &Incident, m: &IncidentMap, run_id: &str) -> JsonObject {
     let mut f = JsonObject::new();

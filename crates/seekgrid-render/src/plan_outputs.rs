@@ -288,6 +288,61 @@ fn feature(geometry: geojson::Geometry, props: JsonObject) -> Feature {
 /// The plan layer's writer: `plan.geojson`, each area (with its track and commence search
 /// point) and each team's segment, the headline numbers as collection members.
 pub(crate) fn geojson(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(), RenderError> {
+    let features = plan_features(c, run);
+    let totals = plan_totals(run);
+    let mut members = JsonObject::new();
+    members.insert("name".into(), "plan".into());
+    members.insert("run_id".into(), out.run_id().into());
+    members.insert("caution".into(), CAUTION.into());
+    members.insert("start".into(), run.start.to_rfc3339().into());
+    members.insert("pos_plan".into(), totals.pos_plan.into());
+    members.insert("pos_plan_covers".into(), totals.covers.into());
+    members.insert("pos_optimal_bound".into(), totals.pos_optimal_bound.into());
+    let l = Layer::Plan;
+    out.write(l, l.files()[0], &collection_bytes(features, members)?, None)
+}
+
+/// The KML layer's writer: `plan.kml` (KML 2.2), a folder of the containment regions at the
+/// plan's start and a folder of the plan's areas, tracks, commence search points and segments.
+pub(crate) fn kml(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(), RenderError> {
+    let m = c.map;
+    let regions = render::containment_geojson(
+        &m.prepared.frame,
+        &m.grid,
+        m.poc(),
+        &crate::outputs::CONTAINMENT_LEVELS,
+        "containment",
+        JsonObject::new(),
+    )?;
+    let regions: geojson::FeatureCollection = serde_json::from_slice(&regions)
+        .map_err(|e| RenderError::Internal(format!("containment for KML: {e}")))?;
+    let plan = plan_features(c, run);
+    let text = |f: &Feature, k: &str| {
+        f.property(k)
+            .map(|v| v.as_str().map_or_else(|| v.to_string(), str::to_owned))
+    };
+    let description = format!(
+        "seekgrid plan from {}, run {}. {CAUTION}",
+        run.start.to_rfc3339(),
+        out.run_id()
+    );
+    let doc = crate::kml::document(
+        &c.incident.title,
+        &description,
+        &[("containment", &regions.features[..]), ("plan", &plan[..])],
+        |f| match (text(f, "unit"), text(f, "part"), text(f, "level")) {
+            (Some(u), Some(p), _) => format!("{u} {p}"),
+            (Some(u), None, _) => u,
+            (None, _, Some(l)) => format!("containment {l}"),
+            _ => String::new(),
+        },
+    );
+    out.write(Layer::Kml, Layer::Kml.files()[0], doc.as_bytes(), None)
+}
+
+/// The plan's features: each area with its track and commence search point, each team's
+/// segment.
+fn plan_features(c: &Computed, run: &PlanRun) -> Vec<Feature> {
     let frame = &c.map.prepared.frame;
     let mut features = Vec::new();
     for a in area_assignments(run) {
@@ -334,17 +389,7 @@ pub(crate) fn geojson(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result
             features.push(feature(render::polygon_to_geojson(frame, poly), props));
         }
     }
-    let totals = plan_totals(run);
-    let mut members = JsonObject::new();
-    members.insert("name".into(), "plan".into());
-    members.insert("run_id".into(), out.run_id().into());
-    members.insert("caution".into(), CAUTION.into());
-    members.insert("start".into(), run.start.to_rfc3339().into());
-    members.insert("pos_plan".into(), totals.pos_plan.into());
-    members.insert("pos_plan_covers".into(), totals.covers.into());
-    members.insert("pos_optimal_bound".into(), totals.pos_optimal_bound.into());
-    let l = Layer::Plan;
-    out.write(l, l.files()[0], &collection_bytes(features, members)?, None)
+    features
 }
 
 /// The routes layer's writer: `plan.gpx`, one route per area (its waypoints, from the commence
