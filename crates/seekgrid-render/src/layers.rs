@@ -120,6 +120,13 @@ layers! {
         plan_only: false,
         description: "the briefing picture of probability per km², georeferenced so GIS viewers place it",
     }
+    HeatmapData {
+        name: "heatmap-data",
+        files: ["heatmap-data.png"],
+        sidecars: ["heatmap-data.pgw", "heatmap-data.png.aux.xml", "heatmap-data.prj"],
+        plan_only: false,
+        description: "the map alone as data: one pixel per cell over exactly the grid's extent, coloured as the heatmap and transparent where the probability is 0, georeferenced (world file, `.aux.xml`, `.prj`) to lie over a basemap",
+    }
     Segments {
         name: "segments",
         files: ["segments.csv", "segments.geojson"],
@@ -272,6 +279,7 @@ impl OutputSelection {
             L::Probability,
             L::Containment,
             L::Heatmap,
+            L::HeatmapData,
             L::Segments,
             L::Rasters,
         ];
@@ -500,6 +508,7 @@ fn write_layer(layer: Layer, c: &Computed, out: &mut Recorder) -> Result<(), Ren
         L::Probability => outputs::probability(c, out),
         L::Containment => outputs::containment(c, out),
         L::Heatmap => outputs::heatmap(c, out),
+        L::HeatmapData => outputs::heatmap_data(c, out),
         L::Segments => outputs::segments(c, out),
         L::Searches => outputs::searches(c, out),
         L::Pod => outputs::pod(c, out),

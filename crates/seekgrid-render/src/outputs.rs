@@ -171,6 +171,14 @@ pub(crate) fn pod(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
     out.write_picture(Layer::Pod, &png)
 }
 
+/// The heatmap-data layer's writer: `heatmap-data.png` (the map alone, one pixel per cell,
+/// transparent where the probability is 0) and its sidecars.
+pub(crate) fn heatmap_data(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
+    let m = c.map;
+    let png = render::data_png(&m.prepared.frame, &m.grid, m.poc(), ColourScale::Density)?;
+    out.write_picture(Layer::HeatmapData, &png)
+}
+
 /// The rasters layer's writer: `poc.tif`, `density.tif` and, after searches, `pod.tif`
 /// (Float32 GeoTIFF, [`crate::geotiff`]).
 pub(crate) fn rasters(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {

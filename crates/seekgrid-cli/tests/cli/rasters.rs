@@ -143,3 +143,60 @@ fn the_plan_writes_the_optimal_coverage_as_a_float32_geotiff() {
     // The bound spends effort somewhere: the coverage's maximum is positive.
     assert!(v["bands"][0]["maximum"].as_f64().unwrap() > 0.0, "{v}");
 }
+
+#[test]
+fn the_data_png_covers_exactly_the_grid_and_is_transparent_where_the_probability_is_zero() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("map");
+    let incident = workspace().join("scenarios/land/incident.toml");
+    let o = seekgrid(&[
+        "map",
+        incident.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--outputs",
+        "heatmap-data,summary",
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let summary = json(&out.join("summary.json"));
+    let g = &summary["grid"];
+    for sidecar in [
+        "heatmap-data.pgw",
+        "heatmap-data.png.aux.xml",
+        "heatmap-data.prj",
+    ] {
+        assert_eq!(
+            summary["outputs"][sidecar]["sidecar_of"],
+            "heatmap-data.png"
+        );
+    }
+    if !have("gdalinfo") || !have("gdallocationinfo") {
+        return;
+    }
+    let png = out.join("heatmap-data.png");
+    let o = run("gdalinfo", &["-json", png.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let v: Value = serde_json::from_slice(&o.stdout).unwrap();
+    // The picture's corners are the grid's corners: one pixel per cell.
+    let corners = &v["cornerCoordinates"];
+    assert_eq!(
+        corners["upperLeft"],
+        serde_json::json!([g["west_m"], g["north_m"]])
+    );
+    assert_eq!(
+        corners["lowerRight"],
+        serde_json::json!([g["east_m"], g["south_m"]])
+    );
+    assert_eq!(v["size"], serde_json::json!([g["cols"], g["rows"]]));
+    assert_eq!(
+        v["stac"]["proj:epsg"],
+        g["crs"].as_str().unwrap()[5..].parse::<u64>().unwrap()
+    );
+    assert_eq!(v["bands"][3]["colorInterpretation"], "Alpha");
+    // The north-west corner pixel of the land demo lies outside every scenario: alpha 0.
+    let o = run(
+        "gdallocationinfo",
+        &["-valonly", "-b", "4", png.to_str().unwrap(), "0", "0"],
+    );
+    assert_eq!(stdout(&o).trim(), "0");
+}
