@@ -417,8 +417,10 @@ pub fn heatmap_png(
 /// caution inside the georeferenced area, so it lies over a basemap in a GIS).
 ///
 /// # Errors
-/// [`RenderError::GridMismatch`]-style errors of the layer check (wrong shape, negative or
-/// non-finite values); [`RenderError::Png`] when encoding fails.
+/// [`RenderError::ShapeMismatch`] when `values` is not the grid's shape,
+/// [`RenderError::BadCellValue`] for negative or non-finite values (or above 1 for Fraction),
+/// [`RenderError::UnsupportedCrs`] when the frame is not a UTM zone, [`RenderError::Png`] when
+/// encoding fails.
 pub fn data_png(
     frame: &Frame,
     grid: &GridSpec,
