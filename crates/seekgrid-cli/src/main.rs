@@ -10,6 +10,7 @@ use seekgrid_engine::timeline::{MapError, MapOptions};
 use seekgrid_incident::model::Item;
 use seekgrid_incident::{Incident, IncidentErrors};
 use seekgrid_render::layers::{Computed, Layer, OutputSelection};
+use seekgrid_render::provenance::{InputDigest, Provenance, Seed};
 use seekgrid_render::summary::CAUTION;
 use seekgrid_render::{OutputDir, OutputOptions, RenderError};
 use std::io::IsTerminal;
@@ -367,7 +368,8 @@ fn map_command(a: MapArgs, run_id: &str) -> Result<(), Failure> {
     let at = at.map(|t| parse_time(&t, "--at")).transpose()?;
     let incident = seekgrid_incident::load(&file)?;
     sized(&incident)?;
-    let dir = open_output(&out, force, run_id, &incident.input_files())?;
+    let mut dir = open_output(&out, force, run_id, &incident.input_files())?;
+    dir.set_provenance(provenance(&incident, run_id)?);
     let summary = map_incident(&incident, &dir, at, &selection, strict)?;
     commit(dir)?;
     if verbose {
@@ -397,7 +399,8 @@ fn plan_command(a: PlanArgs, run_id: &str) -> Result<(), Failure> {
     let start = parse_time(&start, "--start")?;
     let incident = seekgrid_incident::load(&file)?;
     sized(&incident)?;
-    let dir = open_output(&out, force, run_id, &incident.input_files())?;
+    let mut dir = open_output(&out, force, run_id, &incident.input_files())?;
+    dir.set_provenance(provenance(&incident, run_id)?);
     let summary = plan_incident(&incident, &dir, start, &selection, strict)?;
     commit(dir)?;
     if verbose {
@@ -462,7 +465,8 @@ fn review_command(a: ReviewArgs, run_id: &str) -> Result<(), Failure> {
     sized(&incident)?;
     let mut inputs = incident.input_files();
     inputs.extend(record.iter().cloned());
-    let dir = open_output(&out, force, run_id, &inputs)?;
+    let mut dir = open_output(&out, force, run_id, &inputs)?;
+    dir.set_provenance(provenance(&incident, run_id)?);
     let (review, doc) = review_incident(&incident, &dir)?;
     // The rows are made before the folder is put in place, so a review that cannot be
     // recorded says so before anything is written.
@@ -702,6 +706,57 @@ fn review_incident(
     let doc =
         seekgrid_render::review::write(&r, dir).map_err(|e| Failure::failed(e.to_string()))?;
     Ok((r, doc))
+}
+
+/// The run's provenance: seekgrid's version, the command line, the run's start (the time in
+/// `run_id`), the SHA-256 of the incident file and of every file it names (paths relative to
+/// the incident's folder when inside it), and each drifting scenario's seed.
+fn provenance(incident: &Incident, run_id: &str) -> Result<Provenance, Failure> {
+    use sha2::{Digest, Sha256};
+    let base = incident.path.parent().unwrap_or(Path::new(""));
+    let mut inputs = Vec::new();
+    for path in incident.input_files() {
+        let bytes = std::fs::read(&path).map_err(|e| {
+            Failure::failed(format!(
+                "cannot read {} to record its SHA-256: {e}",
+                path.display()
+            ))
+        })?;
+        let digest = Sha256::digest(&bytes);
+        inputs.push(InputDigest {
+            path: path
+                .strip_prefix(base)
+                .unwrap_or(&path)
+                .display()
+                .to_string(),
+            sha256: digest.iter().map(|b| format!("{b:02x}")).collect(),
+        });
+    }
+    let seeds = incident
+        .scenarios
+        .iter()
+        .filter_map(|s| match &s.kind {
+            seekgrid_incident::model::ScenarioKind::Drift(d) => Some(Seed {
+                scenario: s.id.clone(),
+                seed: d.seed,
+            }),
+            _ => None,
+        })
+        .collect();
+    let time_utc = run_id
+        .get(..16)
+        .and_then(|t| chrono::NaiveDateTime::parse_from_str(t, "%Y%m%dT%H%M%SZ").ok())
+        .map_or_else(
+            || chrono::Utc::now().format("%Y-%m-%dT%H:%M:%SZ").to_string(),
+            |t| t.format("%Y-%m-%dT%H:%M:%SZ").to_string(),
+        );
+    Ok(Provenance {
+        seekgrid_version: env!("CARGO_PKG_VERSION").to_owned(),
+        command: std::env::args().collect::<Vec<_>>().join(" "),
+        time_utc,
+        inputs,
+        seeds,
+    })
 }
 
 /// This run's id: the UTC time to the second and the process id, e.g. `20260614T213000Z-4242`.

@@ -6,6 +6,7 @@
 //!   applied in time order as a Bayesian update, returned as an [`IncidentMap`].
 //! * [`warnings`]: what is legal but suspect, found while computing (kept in
 //!   [`IncidentMap::warnings`]; [`warnings::before_computing`] for `check`).
+//! * [`IncidentMap::segment_table`]: each segment's POA, integrated over its polygons.
 //! * [`planning::plan_at`] plans the next period against the belief at its start.
 //! * [`review::review`] replays an ended incident against its outcome: the timeline of POS and
 //!   effort, the searches over the found position, the analysts' scores, and the optimal
@@ -27,6 +28,7 @@ pub mod phases;
 pub mod planning;
 pub mod prepare;
 pub mod review;
+pub mod segments;
 pub mod sizing;
 pub mod slices;
 pub mod timeline;
@@ -34,4 +36,5 @@ pub mod warnings;
 
 pub use planning::{PlanRun, PlanRunError, plan_at};
 pub use review::{Outcome, Review, ReviewError, review};
+pub use segments::SegmentTable;
 pub use timeline::{IncidentMap, MapError, MapOptions, Progress, SearchReport, map};

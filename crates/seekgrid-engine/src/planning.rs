@@ -81,7 +81,10 @@ pub fn plan_at(
         .collect();
     let (segments, areas) = match (&m.prepared.segments, teams.is_empty()) {
         (Some(segs), false) => {
-            let rows = seekgrid_prior::segment_table(m.poc(), &m.grid, segs);
+            let rows = match m.segment_table() {
+                Some(t) => t?.rows,
+                None => seekgrid_prior::segment_table(m.poc(), &m.grid, segs),
+            };
             let table: Vec<(String, f64, f64)> = rows
                 .iter()
                 .map(|r| (r.id.clone(), r.poa, r.area_m2))

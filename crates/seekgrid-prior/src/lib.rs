@@ -10,7 +10,8 @@
 //! * [`combine`]: the linear (default) or logarithmic opinion pool of all analysts, as a
 //!   [`Prior`] with its [`Diagnostics`]: each analyst's Jensen-Shannon divergence from the
 //!   pool, leave-one-out shifts, and the effective number of independent opinions.
-//! * [`auto_extent`]: a box for the grid before it exists; [`segment_table`]: POA per segment.
+//! * [`auto_extent`]: a box for the grid before it exists; [`SegmentSplit`] and
+//!   [`segment_table`]: POA per segment, integrated over each segment polygon.
 //! * [`credibility`]: scoring analysts against the outcome of an incident (log score, Bayes'
 //!   rule on analysts, Rayleigh test of bearings) and weights suggested by a track record.
 //!
@@ -89,4 +90,4 @@ pub use model::{
     Segment, auto_extent,
 };
 pub use pool::{AnalystDiagnostics, Diagnostics, Prior, combine};
-pub use table::{SegmentRow, segment_table};
+pub use table::{SegmentRow, SegmentSplit, segment_table};

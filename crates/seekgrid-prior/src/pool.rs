@@ -92,19 +92,7 @@ pub fn combine(
     grid: &GridSpec,
     pool: Pool,
 ) -> Result<Prior, PriorError> {
-    let owner = check_inputs(analysts, scenarios)?;
-    let total_a = neumaier_sum(analysts.iter().map(|a| a.weight));
-    let w_a: Vec<f64> = analysts.iter().map(|a| a.weight / total_a).collect();
-    let mut total_s = vec![Vec::new(); analysts.len()];
-    for (s, &a) in scenarios.iter().zip(&owner) {
-        total_s[a].push(s.weight);
-    }
-    let total_s: Vec<f64> = total_s.into_iter().map(neumaier_sum).collect();
-    let w_as: Vec<f64> = scenarios
-        .iter()
-        .zip(&owner)
-        .map(|(s, &a)| s.weight / total_s[a])
-        .collect();
+    let (owner, w_a, w_as) = weights(analysts, scenarios)?;
 
     let masses: Vec<SparseMass> = scenarios
         .par_iter()
@@ -193,6 +181,37 @@ pub fn combine(
 }
 
 /// Checks ids and weights; returns the analyst index of each scenario.
+/// The owner of each scenario (analyst index), the normalised analyst weights w_a and the
+/// scenario weights w_as normalised within each analyst.
+type Weights = (Vec<usize>, Vec<f64>, Vec<f64>);
+
+/// See [`Weights`].
+fn weights(analysts: &[Analyst], scenarios: &[Scenario]) -> Result<Weights, PriorError> {
+    let owner = check_inputs(analysts, scenarios)?;
+    let total_a = neumaier_sum(analysts.iter().map(|a| a.weight));
+    let w_a: Vec<f64> = analysts.iter().map(|a| a.weight / total_a).collect();
+    let mut total_s = vec![Vec::new(); analysts.len()];
+    for (s, &a) in scenarios.iter().zip(&owner) {
+        total_s[a].push(s.weight);
+    }
+    let total_s: Vec<f64> = total_s.into_iter().map(neumaier_sum).collect();
+    let w_as: Vec<f64> = scenarios
+        .iter()
+        .zip(&owner)
+        .map(|(s, &a)| s.weight / total_s[a])
+        .collect();
+    Ok((owner, w_a, w_as))
+}
+
+/// Each scenario's weight in the linear pool, w_a · w_as, in scenario order.
+pub(crate) fn scenario_weights(
+    analysts: &[Analyst],
+    scenarios: &[Scenario],
+) -> Result<Vec<f64>, PriorError> {
+    let (owner, w_a, w_as) = weights(analysts, scenarios)?;
+    Ok(owner.iter().zip(&w_as).map(|(&a, w)| w_a[a] * w).collect())
+}
+
 fn check_inputs(analysts: &[Analyst], scenarios: &[Scenario]) -> Result<Vec<usize>, PriorError> {
     if analysts.is_empty() {
         return Err(PriorError::NoAnalysts);

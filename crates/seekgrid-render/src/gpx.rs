@@ -70,6 +70,34 @@ pub fn routes_gpx(
     Ok(out)
 }
 
+/// The namespace of the provenance element in the metadata's `extensions` (the GPX 1.1 schema
+/// lets `extensions` hold elements of any other namespace).
+pub const PROVENANCE_NAMESPACE: &str = "urn:seekgrid:provenance:1";
+
+/// `gpx` (a document from [`routes_gpx`]) with `<extensions><provenance xmlns="…">JSON
+/// </provenance></extensions>` as the last child of its `<metadata>` (where the GPX 1.1
+/// schema puts `extensions`); unchanged when it has no `</metadata>`.
+#[must_use]
+pub fn with_provenance(gpx: &[u8], provenance: &crate::Provenance) -> Vec<u8> {
+    const END: &[u8] = b"</metadata>";
+    let Some(at) = gpx.windows(END.len()).position(|w| w == END) else {
+        return gpx.to_vec();
+    };
+    let json = provenance
+        .to_json_line()
+        .replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;");
+    let block = format!(
+        "<extensions><provenance xmlns=\"{PROVENANCE_NAMESPACE}\">{json}</provenance></extensions>"
+    );
+    let mut out = Vec::with_capacity(gpx.len() + block.len());
+    out.extend_from_slice(&gpx[..at]);
+    out.extend_from_slice(block.as_bytes());
+    out.extend_from_slice(&gpx[at..]);
+    out
+}
+
 fn round6(v: f64) -> f64 {
     (v * 1e6).round() / 1e6
 }

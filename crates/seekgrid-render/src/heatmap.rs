@@ -411,6 +411,66 @@ pub fn heatmap_png(
     })
 }
 
+/// The map alone as data: one pixel per cell, exactly the grid's extent, coloured as in
+/// [`heatmap_png`] with the same `scale`, and transparent (alpha 0) where the value is 0 or not
+/// finite; with world file, `.aux.xml` and `.prj` placing it on the grid (no title, legend or
+/// caution inside the georeferenced area, so it lies over a basemap in a GIS).
+///
+/// # Errors
+/// [`RenderError::ShapeMismatch`] when `values` is not the grid's shape,
+/// [`RenderError::BadCellValue`] for negative or non-finite values (or above 1 for Fraction),
+/// [`RenderError::UnsupportedCrs`] when the frame is not a UTM zone, [`RenderError::Png`] when
+/// encoding fails.
+pub fn data_png(
+    frame: &Frame,
+    grid: &GridSpec,
+    values: &Array2<f64>,
+    scale: ColourScale,
+) -> Result<GeoreferencedPng, RenderError> {
+    let hi = match scale {
+        ColourScale::Density => f64::INFINITY,
+        ColourScale::Fraction => 1.0,
+    };
+    check_layer("heatmap values", grid, values, hi)?;
+    let prj = utm_wkt1_esri(frame.epsg())?;
+    let colouring = Colouring::new(
+        scale,
+        values,
+        grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2,
+    );
+    let mut rgba = Vec::with_capacity(values.len() * 4);
+    for &v in values {
+        if v > 0.0 && v.is_finite() {
+            rgba.extend_from_slice(&colouring.colour(v));
+        } else {
+            rgba.extend_from_slice(&[0, 0, 0, 0]);
+        }
+    }
+    let mut png = Vec::new();
+    image::codecs::png::PngEncoder::new(&mut png)
+        .write_image(
+            &rgba,
+            grid.cols() as u32,
+            grid.rows() as u32,
+            image::ExtendedColorType::Rgba8,
+        )
+        .map_err(|e| RenderError::Png(e.to_string()))?;
+    let placement = PixelGeometry {
+        west_m: grid.west_m(),
+        north_m: grid.north_m(),
+        pixel_m: grid.cell_m(),
+    };
+    Ok(GeoreferencedPng {
+        png,
+        world_file: placement.world_file(),
+        aux_xml: aux_xml(frame.epsg()),
+        prj,
+        placement,
+        pixels_per_cell: 1,
+        map_origin_px: (0, 0),
+    })
+}
+
 /// The map area of a picture, in pixels: upper-left corner and size.
 #[derive(Debug, Clone, Copy)]
 struct MapArea {
@@ -1127,6 +1187,32 @@ pub(crate) fn with_text_chunk(
     }
     let mut chunk = Vec::new();
     TEXtChunk::new(keyword, text)
+        .encode(&mut chunk)
+        .map_err(|e| RenderError::Png(e.to_string()))?;
+    let mut out = Vec::with_capacity(png.len() + chunk.len());
+    out.extend_from_slice(&png[..AFTER_IHDR]);
+    out.extend_from_slice(&chunk);
+    out.extend_from_slice(&png[AFTER_IHDR..]);
+    Ok(out)
+}
+
+/// `png` with an `iTXt` chunk `keyword`, `text` (UTF-8, uncompressed) inserted after its
+/// `IHDR` chunk (PNG specification, third edition, 11.3.3.4), as [`with_text_chunk`] does.
+pub(crate) fn with_itxt_chunk(
+    png: &[u8],
+    keyword: &str,
+    text: &str,
+) -> Result<Vec<u8>, RenderError> {
+    use png::text_metadata::{EncodableTextChunk, ITXtChunk};
+    const SIGNATURE: [u8; 8] = [137, 80, 78, 71, 13, 10, 26, 10];
+    const AFTER_IHDR: usize = 8 + 4 + 4 + 13 + 4;
+    if png.len() < AFTER_IHDR || png[..8] != SIGNATURE || &png[8..16] != b"\0\0\0\x0dIHDR" {
+        return Err(RenderError::Png(
+            "the picture does not start with a PNG signature and IHDR chunk".into(),
+        ));
+    }
+    let mut chunk = Vec::new();
+    ITXtChunk::new(keyword, text)
         .encode(&mut chunk)
         .map_err(|e| RenderError::Png(e.to_string()))?;
     let mut out = Vec::with_capacity(png.len() + chunk.len());

@@ -104,7 +104,7 @@ layers! {
         files: ["probability.geojson"],
         sidecars: [],
         plan_only: false,
-        description: "grid cells as lon/lat polygons with `poc` (probability of containment, a fraction) and `density_km2`; at most 200,000 cells: beyond that only the densest, up to 99.9 % of the grid's mass, and then the file and summary.json state the share of the mass (`share_of_grid_mass_written`) and the cells written; the heatmap draws every cell",
+        description: "grid cells as lon/lat polygons with `poc` (probability of containment, a fraction) and `density_km2`, and `cell_id` (the cell's south-west corner and size in the working EPSG frame, such as `EPSG:32626:E400000:N3299750:250m`: the same in every run, unlike `row` and `col`); at most 200,000 cells: beyond that only the densest, up to 99.9 % of the grid's mass, and then the file and summary.json state the share of the mass (`share_of_grid_mass_written`) and the cells written; the heatmap draws every cell",
     }
     Containment {
         name: "containment",
@@ -120,12 +120,19 @@ layers! {
         plan_only: false,
         description: "the briefing picture of probability per km², georeferenced so GIS viewers place it",
     }
+    HeatmapData {
+        name: "heatmap-data",
+        files: ["heatmap-data.png"],
+        sidecars: ["heatmap-data.pgw", "heatmap-data.png.aux.xml", "heatmap-data.prj"],
+        plan_only: false,
+        description: "the map alone as data: one pixel per cell over exactly the grid's extent, coloured as the heatmap and transparent where the probability is 0, georeferenced (world file, `.aux.xml`, `.prj`) to lie over a basemap",
+    }
     Segments {
         name: "segments",
         files: ["segments.csv", "segments.geojson"],
         sidecars: [],
         plan_only: false,
-        description: "POA, area and density per segment, as a table and as polygons, and after searches cumulative POD and POS (written when the incident uses segments)",
+        description: "POA, area and density per segment, as a table and as polygons, and after searches cumulative POD and POS (written when the incident uses segments); each POA is the belief integrated over the segment's polygons (a cell cut by a segment edge is split where its scenarios put the mass, not by area), and `poa_rest_of_world` and `poa_outside_segments` (in `segments.geojson` and `summary.json`) add up with the POAs to 1",
     }
     Searches {
         name: "searches",
@@ -154,6 +161,13 @@ layers! {
         sidecars: [],
         plan_only: false,
         description: "the hourly mean drift track of each drifting scenario and its 50 % and 90 % ellipses (written when a scenario drifts)",
+    }
+    Rasters {
+        name: "rasters",
+        files: ["poc.tif", "density.tif", "pod.tif"],
+        sidecars: [],
+        plan_only: false,
+        description: "Float32 GeoTIFF rasters of the grid in the working EPSG frame, for computing in a GIS: `poc.tif` (POC per cell), `density.tif` (probability per km²) and, after searches, `pod.tif` (cumulative POD); no-data -9999, the run id and provenance in the GDAL metadata, internal overviews (striped, not the Cloud Optimized layout)",
     }
     Plan {
         name: "plan",
@@ -192,10 +206,17 @@ layers! {
     }
     Effort {
         name: "effort",
-        files: ["effort.png"],
+        files: ["effort.png", "effort.tif"],
         sidecars: ["effort.pgw", "effort.png.aux.xml", "effort.prj"],
         plan_only: true,
-        description: "the optimal coverage (effort over area) that gives the bound `pos_optimal_bound`, georeferenced",
+        description: "the optimal coverage (effort over area) that gives the bound `pos_optimal_bound`, georeferenced, as a picture and as a Float32 GeoTIFF like the `rasters` layer",
+    }
+    Kml {
+        name: "kml",
+        files: ["plan.kml"],
+        sidecars: [],
+        plan_only: true,
+        description: "the containment regions at the plan's start and the plan's areas, tracks, commence search points and segments, as OGC KML 2.2 for virtual globes (a folder each)",
     }
 }
 
@@ -249,7 +270,7 @@ impl OutputSelection {
     }
 
     /// The layers `seekgrid plan` writes by default: the summary, the belief at the start
-    /// (probability, containment, heatmap, segments) and every plan layer.
+    /// (probability, containment, heatmap, segments, rasters) and every plan layer.
     #[must_use]
     pub fn plan_default() -> Self {
         use Layer as L;
@@ -258,7 +279,9 @@ impl OutputSelection {
             L::Probability,
             L::Containment,
             L::Heatmap,
+            L::HeatmapData,
             L::Segments,
+            L::Rasters,
         ];
         Self(
             Layer::ALL
@@ -422,6 +445,12 @@ impl<'d> Recorder<'d> {
         self.dir.run_id()
     }
 
+    /// The run's provenance ([`OutputDir::provenance`]), if the caller gave one.
+    #[must_use]
+    pub fn provenance(&self) -> Option<&crate::Provenance> {
+        self.dir.provenance()
+    }
+
     /// Records that a chosen layer wrote nothing, and why.
     pub fn skip(&mut self, layer: Layer, reason: impl Into<String>) {
         self.not_written.insert(layer.name(), reason.into());
@@ -479,12 +508,15 @@ fn write_layer(layer: Layer, c: &Computed, out: &mut Recorder) -> Result<(), Ren
         L::Probability => outputs::probability(c, out),
         L::Containment => outputs::containment(c, out),
         L::Heatmap => outputs::heatmap(c, out),
+        L::HeatmapData => outputs::heatmap_data(c, out),
         L::Segments => outputs::segments(c, out),
         L::Searches => outputs::searches(c, out),
         L::Pod => outputs::pod(c, out),
+        L::Rasters => outputs::rasters(c, out),
         L::Particles => outputs::particles(c, out),
         L::Drift => outputs::drift(c, out),
         L::Plan => with_plan(layer, c, out, plan_outputs::geojson),
+        L::Kml => with_plan(layer, c, out, plan_outputs::kml),
         L::Routes => with_plan(layer, c, out, plan_outputs::gpx),
         L::Briefing => with_plan(layer, c, out, plan_outputs::briefing),
         L::Tasking => with_plan(layer, c, out, tasking::write),

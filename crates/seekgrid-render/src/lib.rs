@@ -7,7 +7,7 @@
 //! * [`OutputDir`]: an output folder written as one unit: staged beside its destination under a
 //!   lock, put in place whole by one atomic swap, never holding the run's inputs.
 //! * [`probability_geojson`]: cells as RFC 7946 polygons with `poc`, `density_km2`, `row`,
-//!   `col` and `pod_cumulative`, limited to the top share of the mass for big grids.
+//!   `col`, the run-independent [`cell_id`] and `pod_cumulative`, limited to the top share of the mass for big grids.
 //! * [`containment_geojson`]: the smallest regions holding 50 %, 90 %, 95 % of the mass,
 //!   traced from the raster as valid polygons with holes.
 //! * [`heatmap_png`] and [`write_png_set`]: a briefing picture with legend, scale bar, north
@@ -15,6 +15,8 @@
 //! * [`review::write`]: an incident review as `review.json`, `review.md` and GeoJSON layers.
 //! * [`geojson_bytes`], [`polygon_to_geojson`], [`line_to_geojson`], [`point_to_geojson`]: the
 //!   shared GeoJSON writer and working-frame-to-lon/lat helpers for other layers.
+//! * [`geotiff::float_geotiff`]: a Float32 GeoTIFF of a cell array, with GeoKeys, no-data,
+//!   metadata and overviews.
 //! * [`layers`]: the registry of a run's output layers ([`layers::Layer`]: `--outputs` name,
 //!   files, description, one writer each), which writes a computed map or plan and lists every
 //!   file written in the summary ([`summary`]); the writers live in [`outputs`] (the map's
@@ -52,13 +54,16 @@ mod containment;
 pub mod credibility;
 pub mod error;
 pub mod georef;
+pub mod geotiff;
 pub mod gpx;
 mod heatmap;
+pub mod kml;
 pub mod layers;
 pub mod output;
 pub mod outputs;
 pub mod plan_outputs;
 mod probability;
+pub mod provenance;
 pub mod record;
 pub mod review;
 pub mod summary;
@@ -69,9 +74,10 @@ pub use containment::containment_geojson;
 pub use error::RenderError;
 pub use georef::{PixelGeometry, aux_xml, utm_wkt1_esri};
 pub use heatmap::{
-    ColourScale, GeoreferencedPng, MapStyle, Overlay, Rgb, heatmap_png, pixels_per_cell,
+    ColourScale, GeoreferencedPng, MapStyle, Overlay, Rgb, data_png, heatmap_png, pixels_per_cell,
     png_set_names, write_png_set,
 };
 pub use output::{OutputDir, OutputOptions};
-pub use probability::{CellLayer, CellLimit, ProbabilityExport, probability_geojson};
+pub use probability::{CellLayer, CellLimit, ProbabilityExport, cell_id, probability_geojson};
+pub use provenance::Provenance;
 pub use vector::{geojson_bytes, line_to_geojson, point_to_geojson, polygon_to_geojson};

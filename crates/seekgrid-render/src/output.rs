@@ -53,6 +53,8 @@ pub struct OutputDir {
     /// Where they will be after the commit.
     destination: PathBuf,
     run_id: String,
+    /// The run's provenance, written into the files that can hold it.
+    provenance: Option<crate::Provenance>,
     /// The unit's own state; `None` for a subfolder.
     unit: Option<Unit>,
 }
@@ -154,6 +156,7 @@ impl OutputDir {
             path: staging,
             destination,
             run_id: run_id.to_owned(),
+            provenance: None,
             unit: Some(Unit {
                 force: options.force,
                 aside: parent.join(format!(".{name}.old-{run_id}")),
@@ -209,8 +212,22 @@ impl OutputDir {
             path,
             destination: self.destination.join(name),
             run_id: self.run_id.clone(),
+            provenance: self.provenance.clone(),
             unit: None,
         })
+    }
+
+    /// Makes every file written from now on in this folder (and in subfolders made after
+    /// this call) that can hold it carry `p`: a `.geojson` file as its first member
+    /// `provenance`, a `.png` picture as an `iTXt` chunk `provenance` (compact JSON, UTF-8).
+    pub fn set_provenance(&mut self, p: crate::Provenance) {
+        self.provenance = Some(p);
+    }
+
+    /// The provenance given by [`OutputDir::set_provenance`], if any.
+    #[must_use]
+    pub fn provenance(&self) -> Option<&crate::Provenance> {
+        self.provenance.as_ref()
     }
 
     /// Writes `bytes` to the file `name` in the folder atomically (temporary file in the same
@@ -222,6 +239,18 @@ impl OutputDir {
     /// [`RenderError::Io`] (with the path) when writing or renaming fails.
     pub fn write(&self, name: &str, bytes: &[u8]) -> Result<PathBuf, RenderError> {
         check_name(name)?;
+        let stamped;
+        let bytes = match &self.provenance {
+            Some(p) if name.ends_with(".geojson") => {
+                stamped = crate::provenance::into_json_object(bytes, p);
+                &stamped[..]
+            }
+            Some(p) if name.ends_with(".png") => {
+                stamped = crate::heatmap::with_itxt_chunk(bytes, "provenance", &p.to_json_line())?;
+                &stamped[..]
+            }
+            _ => bytes,
+        };
         let target = self.path.join(name);
         let prefix = format!(".{name}.");
         let mut builder = tempfile::Builder::new();

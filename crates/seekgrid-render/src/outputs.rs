@@ -22,7 +22,7 @@ pub const MAX_PROBABILITY_FEATURES: usize = 200_000;
 pub const TOP_SHARE: f64 = 0.999;
 
 /// The levels of `containment.geojson`.
-const CONTAINMENT_LEVELS: [f64; 3] = [0.5, 0.9, 0.95];
+pub(crate) const CONTAINMENT_LEVELS: [f64; 3] = [0.5, 0.9, 0.95];
 
 fn foreign(incident: &Incident, m: &IncidentMap, run_id: &str) -> JsonObject {
     let mut f = JsonObject::new();
@@ -171,6 +171,53 @@ pub(crate) fn pod(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
     out.write_picture(Layer::Pod, &png)
 }
 
+/// The heatmap-data layer's writer: `heatmap-data.png` (the map alone, one pixel per cell,
+/// transparent where the probability is 0) and its sidecars.
+pub(crate) fn heatmap_data(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
+    let m = c.map;
+    let png = render::data_png(&m.prepared.frame, &m.grid, m.poc(), ColourScale::Density)?;
+    out.write_picture(Layer::HeatmapData, &png)
+}
+
+/// The rasters layer's writer: `poc.tif`, `density.tif` and, after searches, `pod.tif`
+/// (Float32 GeoTIFF, [`crate::geotiff`]).
+pub(crate) fn rasters(c: &Computed, out: &mut Recorder) -> Result<(), RenderError> {
+    let m = c.map;
+    let l = Layer::Rasters;
+    let cell_km2 = m.grid.cell_area_m2() / seekgrid_core::units::M2_PER_KM2;
+    let poc = m.poc();
+    let density = poc.mapv(|p| p / cell_km2);
+    let mut rasters: Vec<(&str, &str, ndarray::Array2<f64>)> = vec![
+        (
+            "poc.tif",
+            "probability of containment per cell (a fraction)",
+            poc.clone(),
+        ),
+        ("density.tif", "probability of containment per km²", density),
+    ];
+    if let Some(pod) = &m.pod_cumulative {
+        rasters.push((
+            "pod.tif",
+            "cumulative probability of detection (0..1)",
+            pod.clone(),
+        ));
+    }
+    for (name, quantity, values) in rasters {
+        let mut items = vec![
+            ("quantity", quantity.to_owned()),
+            ("time", m.at.to_rfc3339()),
+            ("run_id", out.run_id().to_owned()),
+            ("caution", CAUTION.to_owned()),
+        ];
+        if let Some(p) = out.provenance() {
+            items.push(("provenance", p.to_json_line()));
+        }
+        let bytes = crate::geotiff::float_geotiff(&m.prepared.frame, &m.grid, &values, &items)?;
+        out.write(l, name, &bytes, None)?;
+    }
+    Ok(())
+}
+
 /// Why the search layers can be empty.
 const NO_SEARCH: &str = "no search was applied by the map time";
 /// Why the drift layers can be empty.
@@ -183,14 +230,21 @@ pub(crate) fn segments(c: &Computed, out: &mut Recorder) -> Result<(), RenderErr
         out.skip(Layer::Segments, "the incident uses no segments");
         return Ok(());
     };
-    let rows = segment_rows(m, segments);
+    let table = match m.segment_table() {
+        Some(Ok(t)) => t,
+        Some(Err(e)) => return Err(RenderError::Internal(format!("segment table: {e}"))),
+        None => return Err(RenderError::Internal("segments without a table".into())),
+    };
+    let rows = segment_rows(m, &table);
     let l = Layer::Segments;
     let details = || {
         Some(FileDetails::Segments {
             segments: segments.len(),
+            poa_rest_of_world: table.rest_of_world,
+            poa_outside_segments: table.outside_segments,
         })
     };
-    let geojson = segments_geojson(m, segments, &rows, out.run_id())?;
+    let geojson = segments_geojson(m, segments, &rows, &table, out.run_id())?;
     out.write(l, l.files()[0], &segments_csv(&rows)?, details())?;
     out.write(l, l.files()[1], &geojson, details())
 }
@@ -265,20 +319,19 @@ struct SegmentRow {
     searched: Option<(f64, f64)>,
 }
 
-/// Per segment: POA now, area, density, and after searches cumulative POD and POS.
-fn segment_rows(m: &IncidentMap, segments: &[seekgrid_prior::Segment]) -> Vec<SegmentRow> {
-    let now = seekgrid_prior::segment_table(m.poc(), &m.grid, segments);
+/// Per segment: POA now, area, density, and after searches cumulative POD and POS, each cell
+/// split between segments by the engine's sub-cell shares (`IncidentMap::segment_table`).
+fn segment_rows(m: &IncidentMap, table: &seekgrid_engine::SegmentTable) -> Vec<SegmentRow> {
     // Cumulative POD of a segment: its prior mass weighted by each cell's cumulative POD,
     // over its prior mass; its POS: that weighted mass itself (share of the original prior).
     let before = m.belief_before_searches.cells();
     let searched = m.pod_cumulative.as_ref().map(|pod| {
         let found = before * pod;
-        (
-            seekgrid_prior::segment_table(before, &m.grid, segments),
-            seekgrid_prior::segment_table(&found, &m.grid, segments),
-        )
+        (table.split.poa(before), table.split.poa(&found))
     });
-    now.iter()
+    table
+        .rows
+        .iter()
         .enumerate()
         .map(|(k, row)| SegmentRow {
             id: row.id.clone(),
@@ -286,7 +339,7 @@ fn segment_rows(m: &IncidentMap, segments: &[seekgrid_prior::Segment]) -> Vec<Se
             poa: row.poa,
             density_km2: row.density_per_km2,
             searched: match &searched {
-                Some((b, f)) if b[k].poa > 0.0 => Some((f[k].poa / b[k].poa, f[k].poa)),
+                Some((b, f)) if b[k] > 0.0 => Some((f[k] / b[k], f[k])),
                 Some(_) => Some((0.0, 0.0)),
                 None => None,
             },
@@ -332,6 +385,7 @@ fn segments_geojson(
     m: &IncidentMap,
     segments: &[seekgrid_prior::Segment],
     rows: &[SegmentRow],
+    table: &seekgrid_engine::SegmentTable,
     run_id: &str,
 ) -> Result<Vec<u8>, RenderError> {
     let mut features = Vec::new();
@@ -353,7 +407,10 @@ fn segments_geojson(
             });
         }
     }
-    collection_bytes(features, named("segments", run_id))
+    let mut members = named("segments", run_id);
+    members.insert("poa_rest_of_world".into(), table.rest_of_world.into());
+    members.insert("poa_outside_segments".into(), table.outside_segments.into());
+    collection_bytes(features, members)
 }
 
 /// A feature collection with its foreign members, as RFC 7946 bytes.

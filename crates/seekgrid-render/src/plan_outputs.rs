@@ -288,6 +288,61 @@ fn feature(geometry: geojson::Geometry, props: JsonObject) -> Feature {
 /// The plan layer's writer: `plan.geojson`, each area (with its track and commence search
 /// point) and each team's segment, the headline numbers as collection members.
 pub(crate) fn geojson(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(), RenderError> {
+    let features = plan_features(c, run);
+    let totals = plan_totals(run);
+    let mut members = JsonObject::new();
+    members.insert("name".into(), "plan".into());
+    members.insert("run_id".into(), out.run_id().into());
+    members.insert("caution".into(), CAUTION.into());
+    members.insert("start".into(), run.start.to_rfc3339().into());
+    members.insert("pos_plan".into(), totals.pos_plan.into());
+    members.insert("pos_plan_covers".into(), totals.covers.into());
+    members.insert("pos_optimal_bound".into(), totals.pos_optimal_bound.into());
+    let l = Layer::Plan;
+    out.write(l, l.files()[0], &collection_bytes(features, members)?, None)
+}
+
+/// The KML layer's writer: `plan.kml` (KML 2.2), a folder of the containment regions at the
+/// plan's start and a folder of the plan's areas, tracks, commence search points and segments.
+pub(crate) fn kml(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(), RenderError> {
+    let m = c.map;
+    let regions = render::containment_geojson(
+        &m.prepared.frame,
+        &m.grid,
+        m.poc(),
+        &crate::outputs::CONTAINMENT_LEVELS,
+        "containment",
+        JsonObject::new(),
+    )?;
+    let regions: geojson::FeatureCollection = serde_json::from_slice(&regions)
+        .map_err(|e| RenderError::Internal(format!("containment for KML: {e}")))?;
+    let plan = plan_features(c, run);
+    let text = |f: &Feature, k: &str| {
+        f.property(k)
+            .map(|v| v.as_str().map_or_else(|| v.to_string(), str::to_owned))
+    };
+    let description = format!(
+        "seekgrid plan from {}, run {}. {CAUTION}",
+        run.start.to_rfc3339(),
+        out.run_id()
+    );
+    let doc = crate::kml::document(
+        &c.incident.title,
+        &description,
+        &[("containment", &regions.features[..]), ("plan", &plan[..])],
+        |f| match (text(f, "unit"), text(f, "part"), text(f, "level")) {
+            (Some(u), Some(p), _) => format!("{u} {p}"),
+            (Some(u), None, _) => u,
+            (None, _, Some(l)) => format!("containment {l}"),
+            _ => String::new(),
+        },
+    );
+    out.write(Layer::Kml, Layer::Kml.files()[0], doc.as_bytes(), None)
+}
+
+/// The plan's features: each area with its track and commence search point, each team's
+/// segment.
+fn plan_features(c: &Computed, run: &PlanRun) -> Vec<Feature> {
     let frame = &c.map.prepared.frame;
     let mut features = Vec::new();
     for a in area_assignments(run) {
@@ -334,17 +389,7 @@ pub(crate) fn geojson(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result
             features.push(feature(render::polygon_to_geojson(frame, poly), props));
         }
     }
-    let totals = plan_totals(run);
-    let mut members = JsonObject::new();
-    members.insert("name".into(), "plan".into());
-    members.insert("run_id".into(), out.run_id().into());
-    members.insert("caution".into(), CAUTION.into());
-    members.insert("start".into(), run.start.to_rfc3339().into());
-    members.insert("pos_plan".into(), totals.pos_plan.into());
-    members.insert("pos_plan_covers".into(), totals.covers.into());
-    members.insert("pos_optimal_bound".into(), totals.pos_optimal_bound.into());
-    let l = Layer::Plan;
-    out.write(l, l.files()[0], &collection_bytes(features, members)?, None)
+    features
 }
 
 /// The routes layer's writer: `plan.gpx`, one route per area (its waypoints, from the commence
@@ -405,7 +450,10 @@ pub(crate) fn gpx(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(),
         run.start.to_rfc3339(),
         out.run_id()
     );
-    let bytes = routes_gpx(&c.incident.title, &description, &routes)?;
+    let mut bytes = routes_gpx(&c.incident.title, &description, &routes)?;
+    if let Some(p) = out.provenance() {
+        bytes = crate::gpx::with_provenance(&bytes, p);
+    }
     out.write(l, l.files()[0], &bytes, None)
 }
 
@@ -677,7 +725,22 @@ pub(crate) fn effort(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<
         scale: ColourScale::Density,
     };
     let png = render::heatmap_png(&m.prepared.frame, &m.grid, &run.bound.coverage, &style, &[])?;
-    out.write_picture(Layer::Effort, &png)
+    out.write_picture(Layer::Effort, &png)?;
+    let mut items = vec![
+        (
+            "quantity",
+            "optimal coverage (effort over area) of the bound".to_owned(),
+        ),
+        ("time", run.start.to_rfc3339()),
+        ("run_id", out.run_id().to_owned()),
+        ("caution", CAUTION.to_owned()),
+    ];
+    if let Some(p) = out.provenance() {
+        items.push(("provenance", p.to_json_line()));
+    }
+    let tif =
+        crate::geotiff::float_geotiff(&m.prepared.frame, &m.grid, &run.bound.coverage, &items)?;
+    out.write(Layer::Effort, Layer::Effort.files()[1], &tif, None)
 }
 
 #[cfg(test)]

@@ -252,6 +252,34 @@ impl VertexRow {
     }
 }
 
+/// A cell's id, the same in every run and layer that uses the same working frame and cell
+/// size: `EPSG:<code>:E<easting>:N<northing>:<size>m`, with the easting and northing of the
+/// cell's south-west corner and its size in metres (to the millimetre, trailing zeros dropped),
+/// e.g. `EPSG:32626:E400000:N3299750:250m`. Unlike `row`/`col`, which count from the grid's
+/// north-west corner and so change with the extent of each run, the id names the cell's place
+/// in the working CRS.
+#[must_use]
+pub fn cell_id(frame: &Frame, grid: &GridSpec, row: usize, col: usize) -> String {
+    let b = grid.cell_box(row, col);
+    format!(
+        "EPSG:{}:E{}:N{}:{}m",
+        frame.epsg(),
+        metres(b.west_m),
+        metres(b.south_m),
+        metres(grid.cell_m())
+    )
+}
+
+/// Metres rounded to the millimetre, without trailing zeros (`-0` written as `0`).
+fn metres(v: f64) -> String {
+    let mm = (v * 1000.0).round();
+    if mm == 0.0 {
+        return "0".into();
+    }
+    let text = format!("{:.3}", mm / 1000.0);
+    text.trim_end_matches('0').trim_end_matches('.').to_string()
+}
+
 /// Writes a finite f64 as a JSON number (shortest round-trip form).
 pub(crate) fn push_num(out: &mut Vec<u8>, v: f64) {
     // Callers have checked finiteness; serde_json writes the shortest round-trip digits.
@@ -261,7 +289,8 @@ pub(crate) fn push_num(out: &mut Vec<u8>, v: f64) {
 /// The grid cells as RFC 7946 polygons in lon/lat (exterior counter-clockwise, closed, corners
 /// projected from the working frame and rounded to 6 decimals, 7 for cells under 10 m),
 /// with properties `poc` (probability of containment of the cell, a fraction), `density_km2`
-/// (poc per square kilometre of grid area), `row`, `col` and, when given, `pod_cumulative`.
+/// (poc per square kilometre of grid area), `row`, `col` (of this run's grid), `cell_id` (the
+/// same in every run: [`cell_id`]) and, when given, `pod_cumulative`.
 /// Cells with `poc == 0` are omitted; features come in row-major order (north row first).
 ///
 /// When more than `max_features` cells have mass, only the highest-density cells are written:
@@ -504,6 +533,9 @@ fn write_row(
         push_u64(out, r as u64);
         out.extend_from_slice(b",\"col\":");
         push_u64(out, c as u64);
+        out.extend_from_slice(b",\"cell_id\":\"");
+        out.extend_from_slice(cell_id(layer.frame, layer.grid, r, c).as_bytes());
+        out.push(b'"');
         if let Some(pod) = layer.pod_cumulative {
             out.extend_from_slice(b",\"pod_cumulative\":");
             push_num(out, pod[[r, c]]);
@@ -658,6 +690,24 @@ mod tests {
     }
 
     #[test]
+    fn cell_id_names_the_south_west_corner_and_is_the_same_in_grids_of_other_extents() {
+        let (frame, grid) = setup(4, 5);
+        // Cell (2, 3) of a grid with its north-west corner at (480 000, 4 900 000) and 250 m
+        // cells: its south-west corner is (480 750, 4 899 250) (computed).
+        assert_eq!(
+            cell_id(&frame, &grid, 2, 3),
+            "EPSG:32620:E480750:N4899250:250m"
+        );
+        // The same ground cell in a grid that starts two rows north and one column west.
+        let other = GridSpec::new(479_750.0, 4_900_500.0, 250.0, 9, 9, DEFAULT_MAX_CELLS).unwrap();
+        assert_eq!(cell_id(&frame, &other, 4, 4), cell_id(&frame, &grid, 2, 3));
+        assert_ne!(cell_id(&frame, &other, 4, 3), cell_id(&frame, &grid, 2, 3));
+        // Millimetres kept, trailing zeros dropped, no "-0".
+        let odd = GridSpec::new(-0.0004, 12.5, 12.5, 1, 1, DEFAULT_MAX_CELLS).unwrap();
+        assert_eq!(cell_id(&frame, &odd, 0, 0), "EPSG:32620:E0:N0:12.5m");
+    }
+
+    #[test]
     fn cell_corners_match_the_frame_projection() {
         let (frame, grid) = setup(2, 2);
         let mut poc = Array2::zeros((2, 2));
@@ -709,6 +759,7 @@ mod tests {
             f.set_property("density_km2", p / 0.0625);
             f.set_property("row", r);
             f.set_property("col", c);
+            f.set_property("cell_id", cell_id(&frame, &grid, r, c));
             f.set_property("pod_cumulative", pod[[r, c]]);
             features.push(f);
         }

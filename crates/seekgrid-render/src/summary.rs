@@ -181,6 +181,11 @@ pub enum FileDetails {
     Segments {
         /// Segments listed.
         segments: usize,
+        /// The belief's rest of world: with the segments' POAs and `poa_outside_segments` it
+        /// adds up to 1.
+        poa_rest_of_world: f64,
+        /// The mass on the grid and in particles that lies in no segment.
+        poa_outside_segments: f64,
     },
     /// `searches.geojson`.
     Searches {
@@ -213,6 +218,10 @@ pub struct Summary {
     /// The run that wrote this summary and the layers beside it (filled in by the writer).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub run_id: Option<String>,
+    /// Where the run came from: seekgrid's version, the command, the time, the inputs'
+    /// SHA-256 and the seeds (filled in by the writer when the caller gave it).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub provenance: Option<crate::Provenance>,
     /// Title.
     pub title: String,
     /// Notes from the incident.
@@ -305,6 +314,7 @@ impl From<seekgrid_engine::phases::PhaseTime> for PhaseSummary {
 pub fn summarise(c: &Computed, out: &Recorder) -> Summary {
     let mut s = summarise_map(c.incident, c.map);
     s.run_id = Some(out.run_id().to_owned());
+    s.provenance = out.provenance().cloned();
     s.outputs = out.files().clone();
     s.outputs_not_written = out.not_written().clone();
     s.phases = c.map.phases.list().into_iter().map(Into::into).collect();
@@ -413,6 +423,7 @@ fn summarise_map(incident: &Incident, m: &IncidentMap) -> Summary {
     Summary {
         caution: CAUTION,
         run_id: None,
+        provenance: None,
         title: incident.title.clone(),
         notes: incident.notes.clone(),
         reference_time: incident.reference_time.to_rfc3339(),

@@ -111,7 +111,14 @@ pub(crate) fn split_polygon_at_antimeridian(rings: &[Vec<[f64; 2]>]) -> Vec<Vec<
         for p in piece {
             let mut rs: Vec<Vec<[f64; 2]>> = std::iter::once(p.exterior())
                 .chain(p.interiors())
-                .map(|ls| ls.0.iter().map(|c| [c.x + shift, c.y]).collect())
+                // The overlay snaps to its own integer grid, so a vertex on the cut can come
+                // back a hair beyond ±180, which wrapping would send to the other side (a ring
+                // from 179.99 to -180, 360° wide): clamp it onto the cut.
+                .map(|ls| {
+                    ls.0.iter()
+                        .map(|c| [(c.x + shift).clamp(-180.0, 180.0), c.y])
+                        .collect()
+                })
                 .collect();
             orient_rings(&mut rs);
             parts.push(rs);

@@ -3,14 +3,18 @@
 
 mod catalogue;
 mod credibility;
+mod date_line;
 mod end_to_end;
 mod external;
 mod forecast;
 mod frame_vs_proj;
 mod golden;
+mod kml;
 mod layers;
 mod located;
 mod log;
 mod output_folder;
+mod provenance;
+mod rasters;
 mod review;
 mod warnings;

@@ -4,7 +4,7 @@
 use super::common::{grid, multi, rect_polygon};
 use geo::{Area, Contains, LineString, MultiPolygon, Point, Polygon};
 use seekgrid_prior::{
-    Analyst, Pool, PriorError, Scenario, ScenarioShape, Segment, ShapeError, combine,
+    Analyst, Pool, PriorError, Scenario, ScenarioShape, Segment, SegmentSplit, ShapeError, combine,
     scenario_mass, segment_table,
 };
 
@@ -240,5 +240,163 @@ fn area_mass_is_conserved_wherever_the_square_sits_on_the_lattice() {
         )]);
         let m = scenario_mass(&ScenarioShape::Area { polygons: polys }, &g).unwrap();
         assert!((m.cells.sum() - 1.0).abs() < 1e-12);
+    }
+}
+
+/// Four 2 km squares making one 4 km square turned by 30° about (2 000, 2 000): segments whose
+/// edges follow no cell edge.
+fn tilted_quadrants() -> Vec<Segment> {
+    let (cx, cy) = (2_000.0_f64, 2_000.0_f64);
+    let (s, c) = 30f64.to_radians().sin_cos();
+    let turn = |u: f64, v: f64| (cx + u * c - v * s, cy + u * s + v * c);
+    let square = |u0: f64, v0: f64| {
+        let ring: Vec<(f64, f64)> = [
+            (u0, v0),
+            (u0 + 2e3, v0),
+            (u0 + 2e3, v0 + 2e3),
+            (u0, v0 + 2e3),
+            (u0, v0),
+        ]
+        .iter()
+        .map(|&(u, v)| turn(u, v))
+        .collect();
+        multi(vec![Polygon::new(LineString::from(ring), vec![])])
+    };
+    [
+        ("S1", -2e3, -2e3),
+        ("S2", 0.0, -2e3),
+        ("S3", 0.0, 0.0),
+        ("S4", -2e3, 0.0),
+    ]
+    .iter()
+    .map(|&(id, u, v)| Segment {
+        id: id.into(),
+        polygons: square(u, v),
+    })
+    .collect()
+}
+
+#[test]
+fn segment_poa_of_tilted_segments_is_the_analysts_weighted_average() {
+    // Three analysts score four tilted segments; with segments scenarios only, each segment's
+    // POA in the linear pool is Σ_a w_a POA_a (the weighted-average consensus; computed).
+    let segs = tilted_quadrants();
+    let analysts = vec![
+        Analyst {
+            id: "a".into(),
+            weight: 3.0,
+        },
+        Analyst {
+            id: "b".into(),
+            weight: 2.0,
+        },
+        Analyst {
+            id: "c".into(),
+            weight: 1.0,
+        },
+    ];
+    let poas = [
+        [0.40, 0.30, 0.20, 0.10],
+        [0.10, 0.20, 0.30, 0.30],
+        [0.25, 0.25, 0.25, 0.25],
+    ];
+    let scenarios: Vec<Scenario> = analysts
+        .iter()
+        .zip(&poas)
+        .map(|(a, p)| Scenario {
+            id: format!("{} segments", a.id),
+            analyst: a.id.clone(),
+            weight: 1.0,
+            shape: ScenarioShape::Segments {
+                segments: segs.clone(),
+                poa: p.to_vec(),
+            },
+        })
+        .collect();
+    // 700 m cells over -1 000..5 000 m: every segment edge cuts cells.
+    let g = grid(-1_000.0, 5_000.0, 700.0, 9, 9);
+    let prior = combine(&analysts, &scenarios, &g, Pool::Linear).unwrap();
+    assert!(prior.outside_grid.abs() < 1e-12);
+    let split =
+        SegmentSplit::from_scenarios(&analysts, &scenarios, Pool::Linear, &g, &segs).unwrap();
+    let table = split.table(&prior.cells, &[]);
+    let mut sum = 0.0;
+    for (k, row) in table.iter().enumerate() {
+        let want = (3.0 * poas[0][k] + 2.0 * poas[1][k] + poas[2][k]) / 6.0;
+        assert!(
+            (row.poa - want).abs() < 1e-9,
+            "{}: {} vs {want}",
+            row.id,
+            row.poa
+        );
+        sum += row.poa;
+    }
+    // POAs + rest of world + the mass outside the segments (none here) add up to 1.
+    let outside_segments = prior.cells.sum() - sum;
+    assert!(outside_segments.abs() < 1e-9, "{outside_segments}");
+    assert!((sum + prior.rest_of_world + prior.outside_grid + outside_segments - 1.0).abs() < 1e-9);
+    // The area-fraction split of the pooled cells misses by more than 1e-3 on these cells,
+    // which is what the sub-cell integration is for.
+    let naive = segment_table(&prior.cells, &g, &segs);
+    let worst = naive
+        .iter()
+        .zip(&table)
+        .map(|(n, t)| (n.poa - t.poa).abs())
+        .fold(0.0, f64::max);
+    assert!(worst > 1e-3, "{worst}");
+}
+
+#[test]
+fn segment_split_of_a_point_and_an_area_keeps_every_cell_share_at_most_one() {
+    // A smooth scenario and an area crossing segment edges: shares stay in 0..=1, the POAs and
+    // the mass outside the segments add up to the grid's mass, and the area's exact part in
+    // S3 (its overlap area over its area, computed with geo) comes through.
+    let segs = tilted_quadrants();
+    let lake = lake_with_island();
+    let analysts = vec![Analyst {
+        id: "a".into(),
+        weight: 1.0,
+    }];
+    let scenarios = vec![
+        Scenario {
+            id: "lake".into(),
+            analyst: "a".into(),
+            weight: 1.0,
+            shape: ScenarioShape::Area {
+                polygons: lake.clone(),
+            },
+        },
+        Scenario {
+            id: "point".into(),
+            analyst: "a".into(),
+            weight: 1.0,
+            shape: ScenarioShape::Point {
+                center: geo::Coord {
+                    x: 2_300.0,
+                    y: 1_900.0,
+                },
+                sigma_major_m: 600.0,
+                sigma_minor_m: 400.0,
+                major_grid_bearing_deg: 20.0,
+            },
+        },
+    ];
+    let g = grid(-1_000.0, 5_000.0, 700.0, 9, 9);
+    let prior = combine(&analysts, &scenarios, &g, Pool::Linear).unwrap();
+    let split =
+        SegmentSplit::from_scenarios(&analysts, &scenarios, Pool::Linear, &g, &segs).unwrap();
+    let poa = split.poa(&prior.cells);
+    let in_segments: f64 = poa.iter().sum();
+    assert!(in_segments <= prior.cells.sum() + 1e-12);
+    // Only the lake: each segment's POA is the lake's share in it, exactly.
+    let only_lake = &scenarios[..1];
+    let lake_prior = combine(&analysts, only_lake, &g, Pool::Linear).unwrap();
+    let lake_split =
+        SegmentSplit::from_scenarios(&analysts, only_lake, Pool::Linear, &g, &segs).unwrap();
+    for (seg, got) in segs.iter().zip(lake_split.poa(&lake_prior.cells)) {
+        use geo::BooleanOps;
+        let want = lake.intersection(&seg.polygons).unsigned_area() / lake.unsigned_area();
+        // geo's overlay works on a snapped integer grid, good to about 1e-9 relative.
+        assert!((got - want).abs() < 1e-8, "{}: {got} vs {want}", seg.id);
     }
 }
