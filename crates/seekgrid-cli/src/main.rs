@@ -9,7 +9,8 @@ use clap::{Parser, Subcommand, ValueEnum};
 use seekgrid_engine::timeline::{MapError, MapOptions};
 use seekgrid_incident::model::Item;
 use seekgrid_incident::{Incident, IncidentErrors};
-use seekgrid_render::layers::{Computed, Layer, OutputSelection};
+use seekgrid_render::gpx;
+use seekgrid_render::layers::{Computed, Layer, OutputSelection, OutputSettings};
 use seekgrid_render::summary::CAUTION;
 use seekgrid_render::{OutputDir, OutputOptions, RenderError};
 use std::io::IsTerminal;
@@ -134,9 +135,21 @@ struct PlanArgs {
     #[arg(long)]
     out: PathBuf,
     /// Comma-separated output layers to write (default: summary, probability, containment,
-    /// heatmap, segments and every plan layer: plan, routes, briefing, plan-map, effort)
+    /// heatmap, segments and every plan layer but waypoints: plan, routes, briefing,
+    /// plan-map, tasking, effort)
     #[arg(long, value_enum, value_delimiter = ',')]
     outputs: Vec<PlanLayer>,
+    /// Longest GPS point and route name in plan.gpx and plan-waypoints.gpx, characters (4 or
+    /// more): names are the unit's code and the point's number (`RESBO1 07`), unique within
+    /// this length; the full name is in each point's description. Many handheld sets keep 10
+    /// to 14 characters, older ones 6 (from memory)
+    #[arg(long, value_name = "N", default_value_t = gpx::DEFAULT_NAME_LENGTH)]
+    gps_name_length: usize,
+    /// Most points in one GPS route (2 or more); a longer route is split into numbered parts.
+    /// Default 50: many handheld sets take routes of at most 50 points (from memory; newer
+    /// ones 250)
+    #[arg(long, value_name = "N", default_value_t = gpx::DEFAULT_ROUTE_POINTS)]
+    gps_route_points: usize,
     /// Also print the summary as JSON on standard output
     #[arg(long)]
     json: bool,
@@ -388,17 +401,29 @@ fn plan_command(a: PlanArgs, run_id: &str) -> Result<(), Failure> {
         start,
         out,
         outputs,
+        gps_name_length,
+        gps_route_points,
         json,
         strict,
         force,
         verbose,
     } = a;
     let selection = chosen(outputs.iter().map(|l| l.0), OutputSelection::plan_default);
+    let gps = gpx::GpsOptions {
+        name_length: gps_name_length,
+        route_points: gps_route_points,
+    };
+    gps.validate()
+        .map_err(|e| Failure::bad_input(e.to_string()))?;
+    let settings = OutputSettings {
+        gps,
+        made_at: run_time(run_id),
+    };
     let start = parse_time(&start, "--start")?;
     let incident = seekgrid_incident::load(&file)?;
     sized(&incident)?;
     let dir = open_output(&out, force, run_id, &incident.input_files())?;
-    let summary = plan_incident(&incident, &dir, start, &selection, strict)?;
+    let summary = plan_incident(&incident, &dir, start, &selection, settings, strict)?;
     commit(dir)?;
     if verbose {
         print_phases(&summary.phases);
@@ -666,13 +691,15 @@ fn plan_incident(
     dir: &OutputDir,
     start: chrono::DateTime<chrono::Utc>,
     selection: &OutputSelection,
+    settings: OutputSettings,
     strict: bool,
 ) -> Result<seekgrid_render::summary::Summary, Failure> {
     let result =
         with_progress(|progress| seekgrid_engine::planning::plan_at(incident, start, progress));
     let run = result.map_err(|e| located(incident, e.item(), &e.to_string()))?;
     report_warnings(incident, &run.map.warnings, strict)?;
-    seekgrid_render::layers::write(&Computed::plan(incident, &run), dir, selection)
+    let computed = Computed::plan(incident, &run).with_settings(settings);
+    seekgrid_render::layers::write(&computed, dir, selection)
         .map_err(|e| Failure::failed(e.to_string()))
 }
 
@@ -702,6 +729,14 @@ fn review_incident(
     let doc =
         seekgrid_render::review::write(&r, dir).map_err(|e| Failure::failed(e.to_string()))?;
     Ok((r, doc))
+}
+
+/// The time in a run id made by [`run_id`]; `None` for any other text.
+fn run_time(run_id: &str) -> Option<chrono::DateTime<chrono::Utc>> {
+    let stamp = run_id.get(..16)?;
+    chrono::NaiveDateTime::parse_from_str(stamp, "%Y%m%dT%H%M%SZ")
+        .ok()
+        .map(|t| t.and_utc())
 }
 
 /// This run's id: the UTC time to the second and the process id, e.g. `20260614T213000Z-4242`.

@@ -8,6 +8,7 @@ mod external;
 mod forecast;
 mod frame_vs_proj;
 mod golden;
+mod gps;
 mod layers;
 mod located;
 mod log;
