@@ -7,7 +7,7 @@ mod log;
 use clap::builder::PossibleValue;
 use clap::{Parser, Subcommand, ValueEnum};
 use seekgrid_engine::timeline::{MapError, MapOptions};
-use seekgrid_incident::model::Item;
+use seekgrid_incident::model::{Item, PositionFormat};
 use seekgrid_incident::{Incident, IncidentErrors};
 use seekgrid_render::gpx;
 use seekgrid_render::layers::{Computed, Layer, OutputSelection, OutputSettings};
@@ -150,6 +150,12 @@ struct PlanArgs {
     /// ones 250)
     #[arg(long, value_name = "N", default_value_t = gpx::DEFAULT_ROUTE_POINTS)]
     gps_route_points: usize,
+    /// How positions are written in plan.md and the GPS files' descriptions: ddm (degrees
+    /// and decimal minutes, the default), dd, dms, mgrs, usng, utm (UPS at the poles) or grid
+    /// (the working CRS's easting and northing). Over the incident's `positions`; a unit's own
+    /// `positions` in the incident file wins over both
+    #[arg(long, value_name = "FORMAT", value_parser = parse_positions)]
+    positions: Option<PositionFormat>,
     /// Also print the summary as JSON on standard output
     #[arg(long)]
     json: bool,
@@ -403,6 +409,7 @@ fn plan_command(a: PlanArgs, run_id: &str) -> Result<(), Failure> {
         outputs,
         gps_name_length,
         gps_route_points,
+        positions,
         json,
         strict,
         force,
@@ -418,6 +425,7 @@ fn plan_command(a: PlanArgs, run_id: &str) -> Result<(), Failure> {
     let settings = OutputSettings {
         gps,
         made_at: run_time(run_id),
+        positions,
     };
     let start = parse_time(&start, "--start")?;
     let incident = seekgrid_incident::load(&file)?;
@@ -729,6 +737,14 @@ fn review_incident(
     let doc =
         seekgrid_render::review::write(&r, dir).map_err(|e| Failure::failed(e.to_string()))?;
     Ok((r, doc))
+}
+
+/// A position format named on the command line.
+fn parse_positions(name: &str) -> Result<PositionFormat, String> {
+    PositionFormat::parse(name).ok_or_else(|| {
+        let names: Vec<&str> = PositionFormat::ALL.iter().map(|f| f.name()).collect();
+        format!("unknown position format; use one of {}", names.join(", "))
+    })
 }
 
 /// The time in a run id made by [`run_id`]; `None` for any other text.

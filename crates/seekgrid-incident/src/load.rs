@@ -301,6 +301,18 @@ impl Validator<'_> {
         }
     }
 
+    fn positions(&mut self, at: &FieldPath, f: Option<&str>) -> Option<PositionFormat> {
+        let name = f?;
+        PositionFormat::parse(name).or_else(|| {
+            let list = choices(PositionFormat::ALL.map(PositionFormat::name));
+            self.err(
+                at,
+                format!("unknown position format \"{name}\"; use {list}"),
+            );
+            None
+        })
+    }
+
     fn detection(&mut self, at: &FieldPath, d: Option<&str>) -> search::DetectionLaw {
         match d {
             None => search::DetectionLaw::InverseCube,
@@ -321,6 +333,10 @@ impl Validator<'_> {
         let scenarios = self.scenarios(raw, &analysts);
         let searches = self.searches(raw);
         let units = self.units(raw);
+        let positions = self.positions(
+            &p("incident").key("positions"),
+            raw.incident.positions.as_deref(),
+        );
         let outcome = raw
             .outcome
             .as_ref()
@@ -349,6 +365,7 @@ impl Validator<'_> {
             title: header.title,
             reference_time: header.reference_time?,
             crs: header.crs,
+            positions,
             notes: raw.incident.notes.clone(),
             coastline: header.coastline,
             coastline_file: header.coastline_file,
@@ -1287,6 +1304,7 @@ impl Validator<'_> {
             track_spacing_min_m: u.track_spacing_min_m,
             detection,
             searchers: u.searchers,
+            positions: self.positions(&at.key("positions"), u.positions.as_deref()),
             at,
         };
         match def.spec().validate() {

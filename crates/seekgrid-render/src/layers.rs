@@ -182,7 +182,7 @@ layers! {
         files: ["plan.md"],
         sidecars: [],
         plan_only: true,
-        description: "the briefing: the plan's joint POS and its bound (the same numbers as summary.json), then per unit the area's corners and legs in degrees and minutes, spacing, coverage, POD, POS and time needed",
+        description: "the briefing: the plan's joint POS and its bound (the same numbers as summary.json), then per unit the area's corners and legs in its chosen position format (degrees and decimal minutes by default), spacing, coverage, POD, POS and time needed",
     }
     PlanMap {
         name: "plan-map",
@@ -335,6 +335,8 @@ pub struct OutputSettings {
     pub gps: GpsOptions,
     /// When the files are made (the GPX `metadata/time`); `None` leaves it out.
     pub made_at: Option<chrono::DateTime<chrono::Utc>>,
+    /// How positions are written (`--positions`): over the incident's choice, under a unit's.
+    pub positions: Option<seekgrid_incident::model::PositionFormat>,
 }
 
 impl<'a> Computed<'a> {

@@ -58,6 +58,7 @@ pub mod layers;
 pub mod output;
 pub mod outputs;
 pub mod plan_outputs;
+pub mod position;
 mod probability;
 pub mod record;
 pub mod review;

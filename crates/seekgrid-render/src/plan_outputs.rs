@@ -8,6 +8,7 @@
 use crate::gpx::{self, GpxHeader, NamedPoint, PointNamer, RouteSpec, routes_gpx};
 use crate::layers::{Computed, Layer, Recorder};
 use crate::outputs::{self, collection_bytes};
+use crate::position::{self, format_position};
 use crate::summary::CAUTION;
 use crate::{self as render, ColourScale, MapStyle, Overlay, RenderError};
 use geo::{Area, Coord, Polygon};
@@ -15,6 +16,7 @@ use geojson::{Feature, JsonObject};
 use seekgrid_core::Frame;
 use seekgrid_core::units::{M2_PER_KM2, METRES_PER_KM, m_to_nm};
 use seekgrid_engine::PlanRun;
+use seekgrid_incident::model::PositionFormat;
 use seekgrid_plan::{SegmentAssignment, UnitAssignment};
 use serde::Serialize;
 use std::fmt::Write as _;
@@ -51,9 +53,18 @@ pub fn ddm(value_deg: f64, axis: Axis) -> String {
     }
 }
 
-fn lat_lon(frame: &Frame, c: Coord<f64>) -> String {
-    let (lon, lat) = frame.to_lon_lat(c);
-    format!("{} {}", ddm(lat, Axis::Latitude), ddm(lon, Axis::Longitude))
+/// How `unit`'s positions are written: the unit's own choice in the incident file, else the
+/// run's (`--positions`), else the incident's, else degrees and decimal minutes.
+#[must_use]
+pub fn unit_positions(c: &Computed, unit: &str) -> PositionFormat {
+    c.incident
+        .units
+        .iter()
+        .find(|u| u.id == unit)
+        .and_then(|u| u.positions)
+        .or(c.settings.positions)
+        .or(c.incident.positions)
+        .unwrap_or(PositionFormat::Ddm)
 }
 
 fn true_bearing(frame: &Frame, grid_bearing_deg: f64, at: Coord<f64>) -> f64 {
@@ -458,15 +469,19 @@ fn gps_namer(c: &Computed, units: &[GpsUnit], width: usize) -> Result<PointNamer
 }
 
 fn gps_point(
-    frame: &Frame,
+    c: &Computed,
     namer: &PointNamer,
     unit: &str,
     (label, full, p): &(String, String, Coord<f64>),
 ) -> Result<NamedPoint, RenderError> {
+    let frame = &c.map.prepared.frame;
     let (lon, lat) = frame.to_lon_lat(*p);
     Ok(NamedPoint {
         name: namer.name(unit, label)?,
-        description: format!("{full}: {}", lat_lon(frame, *p)),
+        description: format!(
+            "{full}: {}",
+            format_position(frame, *p, unit_positions(c, unit))
+        ),
         lon,
         lat,
     })
@@ -484,7 +499,6 @@ fn gps_header<'a>(c: &'a Computed, description: &'a str) -> GpxHeader<'a> {
 /// search point) and per team's segment polygon (its boundary), when there is one; a route of
 /// more points than the GPS options allow is split into numbered parts.
 pub(crate) fn gpx(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(), RenderError> {
-    let frame = &c.map.prepared.frame;
     let l = Layer::Routes;
     let (units, width) = gps_units(run);
     if units.is_empty() {
@@ -504,7 +518,7 @@ pub(crate) fn gpx(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(),
         for (i, part) in parts.iter().enumerate() {
             let points = part
                 .iter()
-                .map(|p| gps_point(frame, &namer, &u.unit, p))
+                .map(|p| gps_point(c, &namer, &u.unit, p))
                 .collect::<Result<Vec<_>, _>>()?;
             let of = if n > 1 {
                 format!(
@@ -539,7 +553,6 @@ pub(crate) fn waypoints_gpx(
     run: &PlanRun,
     out: &mut Recorder,
 ) -> Result<(), RenderError> {
-    let frame = &c.map.prepared.frame;
     let l = Layer::Waypoints;
     let (units, width) = gps_units(run);
     if units.is_empty() {
@@ -550,7 +563,7 @@ pub(crate) fn waypoints_gpx(
     let mut points = Vec::new();
     for u in &units {
         for p in &u.waypoints {
-            points.push(gps_point(frame, &namer, &u.unit, p)?);
+            points.push(gps_point(c, &namer, &u.unit, p)?);
         }
     }
     let description = format!(
@@ -564,13 +577,12 @@ pub(crate) fn waypoints_gpx(
 
 /// The briefing layer's writer: `plan.md`.
 pub(crate) fn briefing(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(), RenderError> {
-    let frame = &c.map.prepared.frame;
     let mut md = String::new();
     briefing_header(&mut md, c, run, out.run_id());
     briefing_warnings(&mut md, c);
     briefing_headline(&mut md, run);
     if let Some(p) = &run.areas {
-        briefing_areas(&mut md, frame, p);
+        briefing_areas(&mut md, c, p);
     }
     if let Some(sp) = &run.segments {
         briefing_teams(&mut md, sp);
@@ -650,7 +662,7 @@ fn briefing_headline(md: &mut String, run: &PlanRun) {
 }
 
 /// The search areas: their own joint POS and bound, a section per unit, the planner's notes.
-fn briefing_areas(md: &mut String, frame: &Frame, p: &seekgrid_plan::Plan) {
+fn briefing_areas(md: &mut String, c: &Computed, p: &seekgrid_plan::Plan) {
     let units: Vec<&str> = p.assignments.iter().map(|a| a.unit.as_str()).collect();
     let _ = writeln!(md, "## Search areas\n");
     let _ = writeln!(
@@ -663,13 +675,16 @@ fn briefing_areas(md: &mut String, frame: &Frame, p: &seekgrid_plan::Plan) {
         100.0 * p.turn_allowance
     );
     for a in &p.assignments {
-        briefing_unit(md, frame, a);
+        briefing_unit(md, c, a);
     }
     briefing_notes(md, &p.notes);
 }
 
 /// One unit's table and its legs.
-fn briefing_unit(md: &mut String, frame: &Frame, a: &UnitAssignment) {
+fn briefing_unit(md: &mut String, c: &Computed, a: &UnitAssignment) {
+    let frame = &c.map.prepared.frame;
+    let format = unit_positions(c, &a.unit);
+    let lat_lon = |frame: &Frame, p: Coord<f64>| format_position(frame, p, format);
     let area = a.pattern.area_polygon();
     let ring = &area.exterior().0;
     let corners: Vec<String> = ring
@@ -680,6 +695,7 @@ fn briefing_unit(md: &mut String, frame: &Frame, a: &UnitAssignment) {
     let _ = writeln!(md, "### {}\n", a.unit);
     let _ = writeln!(md, "| item | value |\n|---|---|");
     let rows = [
+        ("positions", position::label(format).to_owned()),
         ("pattern", a.pattern.kind().to_owned()),
         (
             "commence search point",

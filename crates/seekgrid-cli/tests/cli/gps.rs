@@ -199,3 +199,113 @@ fn gpsbabel_device_formats_keep_every_route_point_name_unique() {
     assert_eq!(count, ours.len(), "{text}");
     assert_eq!(at.len(), count, "every Magellan name once: {at:?}");
 }
+
+/// Copies the invented marine demo into `dir` with `edit` applied to its incident file.
+fn marine_copy(dir: &Path, edit: impl Fn(String) -> String) -> PathBuf {
+    let src = workspace().join("scenarios/marine");
+    let dst = dir.join("marine");
+    for sub in ["", "areas", "tracks"] {
+        std::fs::create_dir_all(dst.join(sub)).unwrap();
+        for e in std::fs::read_dir(src.join(sub)).unwrap() {
+            let e = e.unwrap();
+            if e.file_type().unwrap().is_file() {
+                std::fs::copy(e.path(), dst.join(sub).join(e.file_name())).unwrap();
+            }
+        }
+    }
+    let f = dst.join("incident.toml");
+    let text = std::fs::read_to_string(&f).unwrap();
+    std::fs::write(&f, edit(text)).unwrap();
+    f
+}
+
+/// The text of `plan.md` from the `### unit` heading to the next heading of that level.
+fn unit_section<'a>(md: &'a str, unit: &str) -> &'a str {
+    let start = md
+        .find(&format!("### {unit}\n"))
+        .expect("the unit's section");
+    let rest = &md[start + 4..];
+    &md[start..start + 4 + rest.find("\n### ").unwrap_or(rest.len())]
+}
+
+#[test]
+fn positions_follow_the_run_and_a_units_own_choice_in_the_briefing_and_gpx() {
+    let dir = tempfile::tempdir().unwrap();
+    let f = marine_copy(dir.path(), |t| {
+        t.replace(
+            "id = \"rescue-boat-2\"\n",
+            "id = \"rescue-boat-2\"\npositions = \"utm\"\n",
+        )
+    });
+    let out = dir.path().join("plan");
+    let o = seekgrid(&[
+        "plan",
+        f.to_str().unwrap(),
+        "--start",
+        "2026-06-14T22:30:00Z",
+        "--out",
+        out.to_str().unwrap(),
+        "--positions",
+        "mgrs",
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let md = std::fs::read_to_string(out.join("plan.md")).unwrap();
+    // MGRS in the invented demo's area off 40.9 W, 31.5 N: zone 24, band R (see the reference
+    // points of fixtures/reference/make_position_fixtures.py).
+    let boat1 = unit_section(&md, "rescue-boat-1");
+    assert!(boat1.contains("| positions | MGRS, 1 m |"), "{boat1}");
+    assert!(boat1.contains("| commence search point | 24R "), "{boat1}");
+    let boat2 = unit_section(&md, "rescue-boat-2");
+    assert!(boat2.contains("| positions | UTM"), "{boat2}");
+    assert!(
+        boat2.contains("| commence search point | UTM 24N "),
+        "{boat2}"
+    );
+    let gpx = std::fs::read_to_string(out.join("plan.gpx")).unwrap();
+    assert!(
+        gpx.contains("rescue-boat-1 commence search point: 24R "),
+        "{gpx}"
+    );
+    assert!(
+        gpx.contains("rescue-boat-2 commence search point: UTM 24N "),
+        "{gpx}"
+    );
+}
+
+#[test]
+fn an_unknown_position_format_is_refused_with_exit_2_on_the_command_line_and_in_the_file() {
+    let dir = tempfile::tempdir().unwrap();
+    let incident = workspace().join("scenarios/marine/incident.toml");
+    let o = seekgrid(&[
+        "plan",
+        incident.to_str().unwrap(),
+        "--start",
+        "2026-06-14T22:30:00Z",
+        "--out",
+        dir.path().join("a").to_str().unwrap(),
+        "--positions",
+        "osgb",
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("--positions") && err.contains("mgrs"), "{err}");
+    let f = marine_copy(dir.path(), |t| {
+        t.replace(
+            "id = \"helicopter-1\"\n",
+            "id = \"helicopter-1\"\npositions = \"bng\"\n",
+        )
+    });
+    let o = seekgrid(&["check", f.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    let line = std::fs::read_to_string(&f)
+        .unwrap()
+        .lines()
+        .position(|l| l == "positions = \"bng\"")
+        .unwrap()
+        + 1;
+    assert!(
+        err.contains(&format!("incident.toml:{line}:")) && err.contains("unknown position format"),
+        "{err}"
+    );
+}
