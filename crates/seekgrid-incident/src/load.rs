@@ -147,6 +147,8 @@ struct Header {
     title: String,
     reference_time: Option<Time>,
     crs: Option<UtmZone>,
+    /// An EPSG code given as `crs` that is not a UTM zone.
+    unsupported_crs: Option<u32>,
     coastline: Option<geo::MultiPolygon<f64>>,
     coastline_file: Option<PathBuf>,
 }
@@ -341,6 +343,11 @@ impl Validator<'_> {
             .outcome
             .as_ref()
             .and_then(|o| self.outcome(o, header.reference_time));
+        if let Some(code) = header.unsupported_crs {
+            let message =
+                crate::crs::unsupported_crs_message(code, crate::model::first_position(&scenarios));
+            self.err(&p("incident").key("crs"), message);
+        }
         self.log_pool_with_drift(pool, &scenarios);
         if raw.incident.allow_distant_crs != Some(true) {
             self.distant_crs(header.crs, &scenarios);
@@ -436,8 +443,14 @@ impl Validator<'_> {
             );
         }
         let reference_time = self.time(&p("incident").key("reference_time"), &h.reference_time);
+        let mut unsupported_crs = None;
         let crs = h.crs.as_ref().and_then(|c| match UtmZone::parse(c) {
             Ok(z) => Some(z),
+            // Refused once the scenarios are read, naming the zone that fits them.
+            Err(seekgrid_core::CoreError::UnsupportedCrs { code }) => {
+                unsupported_crs = Some(code);
+                None
+            }
             Err(e) => {
                 self.err(&p("incident").key("crs"), e.to_string());
                 None
@@ -457,6 +470,7 @@ impl Validator<'_> {
             title,
             reference_time,
             crs,
+            unsupported_crs,
             coastline,
             coastline_file,
         }

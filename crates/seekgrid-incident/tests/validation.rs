@@ -677,7 +677,13 @@ const HEADER_GRID_PRIOR_RULES: &[Row] = &[
     (
         Key("incident.crs"),
         Replace("crs = \"EPSG:32626\"", "crs = \"EPSG:4326\""),
-        &["not a WGS84 UTM zone"],
+        &["geographic", "use crs = \"EPSG:32626\""],
+    ),
+    (
+        // British National Grid: a projected CRS seekgrid does not work in yet.
+        Key("incident.crs"),
+        Replace("crs = \"EPSG:32626\"", "crs = \"EPSG:27700\""),
+        &["not a WGS84 UTM zone", "use crs = \"EPSG:32626\""],
     ),
     (
         Key("incident.crs"),
