@@ -232,6 +232,44 @@ impl ProjectedCrs {
     }
 }
 
+/// EPSG code of the British National Grid (OSGB 1936), whose grid references carry letters.
+pub const BRITISH_NATIONAL_GRID_EPSG: u32 = 27700;
+
+/// The Ordnance Survey grid reference of a British National Grid easting and northing
+/// (metres), `digits` figures each (1..=5; 4 gives `NT 2543 7329`, 10 m), truncated as the
+/// Ordnance Survey does. Letters: 500 km squares S, T, N, O, H, J from the false origin, then
+/// 100 km squares A-Z without I, five to a row from the north-west corner (Ordnance Survey,
+/// "A guide to coordinate systems in Great Britain"; common practice).
+///
+/// `None` when `digits` is not in 1..=5 or the point is outside the lettered squares
+/// (0..700 km east, 0..1300 km north).
+#[must_use]
+pub fn bng_grid_reference(easting_m: f64, northing_m: f64, digits: u8) -> Option<String> {
+    if !(1..=5).contains(&digits)
+        || !(0.0..700_000.0).contains(&easting_m)
+        || !(0.0..1_300_000.0).contains(&northing_m)
+    {
+        return None;
+    }
+    let e100k = (easting_m / 100_000.0).floor() as i64;
+    let n100k = (northing_m / 100_000.0).floor() as i64;
+    // Letter indices 0..25 over A-Z without I (I skipped by adding one from H on).
+    let mut l1 = (19 - n100k) - (19 - n100k).rem_euclid(5) + (e100k + 10) / 5;
+    let mut l2 = ((19 - n100k) * 5).rem_euclid(25) + e100k.rem_euclid(5);
+    if l1 > 7 {
+        l1 += 1;
+    }
+    if l2 > 7 {
+        l2 += 1;
+    }
+    let letter = |i: i64| char::from(b'A' + u8::try_from(i).unwrap_or(25));
+    let unit = 10f64.powi(5 - i32::from(digits));
+    let e = (easting_m.rem_euclid(100_000.0) / unit).floor() as u32;
+    let n = (northing_m.rem_euclid(100_000.0) / unit).floor() as u32;
+    let w = usize::from(digits);
+    Some(format!("{}{} {e:0w$} {n:0w$}", letter(l1), letter(l2)))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -439,6 +477,63 @@ mod tests {
         // UTM zone 30 N at 40 degrees of longitude from its central meridian.
         let utm = ProjectedCrs::from_epsg(32630, 0).unwrap();
         assert!(utm.check_fits(37.0, 10.0).is_err());
+    }
+
+    #[test]
+    fn british_national_grid_references_match_the_frozen_pyproj_values() {
+        // fixtures/reference/make_bng_fixtures.py: eastings and northings by pyproj (PROJ
+        // 9.5.1, the same Helmert shift), letters from the Ordnance Survey's table.
+        let text = include_str!("../../../fixtures/reference/bng_reference.txt");
+        let bng = ProjectedCrs::from_epsg(BRITISH_NATIONAL_GRID_EPSG, 0).unwrap();
+        let mut rows = 0;
+        for line in text.lines().filter(|l| !l.starts_with('#')) {
+            let f: Vec<&str> = line.split('|').collect();
+            let num = |i: usize| f[i].parse::<f64>().unwrap();
+            let p = bng.to_xy(num(0), num(1)).unwrap();
+            assert!((p.x - num(2)).hypot(p.y - num(3)) < 0.01, "{line}: {p:?}");
+            assert_eq!(
+                bng_grid_reference(num(2), num(3), 5).unwrap(),
+                f[4],
+                "{line}"
+            );
+            assert_eq!(
+                bng_grid_reference(num(2), num(3), 3).unwrap(),
+                f[5],
+                "{line}"
+            );
+            rows += 1;
+        }
+        assert_eq!(rows, 13);
+    }
+
+    #[test]
+    fn british_national_grid_letters_are_those_of_the_ordnance_survey_squares() {
+        // Squares' south-west corners: SV is the false origin, NT 300/600 km, HP 400/1200 km,
+        // TQ 500/100 km (Ordnance Survey guide; common practice). The issue's
+        // example NT 2543 7329.
+        assert_eq!(bng_grid_reference(0.0, 0.0, 2).unwrap(), "SV 00 00");
+        assert_eq!(
+            bng_grid_reference(325_430.0, 673_290.0, 4).unwrap(),
+            "NT 2543 7329"
+        );
+        assert_eq!(
+            bng_grid_reference(499_999.9, 1_299_999.9, 5).unwrap(),
+            "HP 99999 99999"
+        );
+        assert_eq!(
+            bng_grid_reference(400_000.0, 1_200_000.0, 1).unwrap(),
+            "HP 0 0"
+        );
+        assert_eq!(
+            bng_grid_reference(500_000.0, 100_000.0, 3).unwrap(),
+            "TQ 000 000"
+        );
+        assert_eq!(bng_grid_reference(-1.0, 10.0, 3), None);
+        assert_eq!(bng_grid_reference(700_000.0, 10.0, 3), None);
+        assert_eq!(bng_grid_reference(10.0, 1_300_000.0, 3), None);
+        assert_eq!(bng_grid_reference(10.0, 10.0, 0), None);
+        assert_eq!(bng_grid_reference(10.0, 10.0, 6), None);
+        assert_eq!(bng_grid_reference(f64::NAN, 10.0, 3), None);
     }
 
     #[test]
