@@ -124,6 +124,12 @@ impl ProjectedCrs {
         self.wkt
     }
 
+    /// Longitude of origin (`lon_0`) of the projection, degrees east.
+    #[must_use]
+    pub fn central_meridian_deg(&self) -> f64 {
+        self.proj.longitude_of_origin().to_degrees()
+    }
+
     /// Metres per unit of the CRS's own axes (1 for metres, 0.3048006096 for US survey feet).
     #[must_use]
     pub fn metres_per_unit(&self) -> f64 {
@@ -195,6 +201,24 @@ impl ProjectedCrs {
                 lon: lon_deg,
                 lat: lat_deg,
             })
+        }
+    }
+
+    /// Meridian convergence at a position, degrees: the angle from true north clockwise to
+    /// grid north, from the grid direction of a short (about 1 m) step north (south at the
+    /// north pole). NaN where the CRS cannot project the position.
+    #[must_use]
+    pub fn convergence_deg(&self, lon_deg: f64, lat_deg: f64) -> f64 {
+        let step = if lat_deg > 89.99 { -1e-5 } else { 1e-5 };
+        match (
+            self.to_xy(lon_deg, lat_deg),
+            self.to_xy(lon_deg, lat_deg + step),
+        ) {
+            (Ok(a), Ok(b)) => {
+                let (dx, dy) = ((b.x - a.x) * step.signum(), (b.y - a.y) * step.signum());
+                -dx.atan2(dy).to_degrees()
+            }
+            _ => f64::NAN,
         }
     }
 

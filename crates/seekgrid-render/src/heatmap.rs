@@ -619,13 +619,18 @@ fn draw_panel(
     }
     draw_colour_bar(cv, colouring, p.x, p.bar_y, p.bar_h);
     draw_key(cv, layout, legend);
-    let zone = frame.zone();
-    let hemi = match zone.hemisphere() {
-        Hemisphere::North => 'N',
-        Hemisphere::South => 'S',
-    };
+    let name = frame.zone().map_or_else(
+        || "projected CRS".to_owned(),
+        |zone| {
+            let hemi = match zone.hemisphere() {
+                Hemisphere::North => 'N',
+                Hemisphere::South => 'S',
+            };
+            format!("WGS 84 / UTM {}{hemi}", zone.zone())
+        },
+    );
     let crs_lines = [
-        format!("WGS 84 / UTM {}{hemi}", zone.zone()),
+        name,
         format!("EPSG:{}", frame.epsg()),
         format!("cell {} m", fmt_len(grid.cell_m())),
     ];
