@@ -2,7 +2,7 @@
 
 use crate::canvas::{BODY, Canvas, Rgba8, rgb, text_width, wrap};
 use crate::error::RenderError;
-use crate::georef::{PixelGeometry, aux_xml, utm_wkt1_esri};
+use crate::georef::{PixelGeometry, aux_xml, frame_prj};
 use crate::output::OutputDir;
 use crate::probability::check_layer;
 use crate::vector::{unwrapped_lon_lat, wrap_lon};
@@ -368,7 +368,7 @@ pub fn heatmap_png(
         ColourScale::Fraction => 1.0,
     };
     check_layer("heatmap values", grid, values, hi)?;
-    let prj = utm_wkt1_esri(frame.epsg())?;
+    let prj = frame_prj(frame)?;
     let colouring = Colouring::new(
         style.scale,
         values,

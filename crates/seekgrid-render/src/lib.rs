@@ -68,7 +68,7 @@ pub mod vector;
 
 pub use containment::containment_geojson;
 pub use error::RenderError;
-pub use georef::{PixelGeometry, aux_xml, utm_wkt1_esri};
+pub use georef::{PixelGeometry, aux_xml, frame_prj, utm_wkt1_esri};
 pub use heatmap::{
     ColourScale, GeoreferencedPng, MapStyle, Overlay, Rgb, heatmap_png, pixels_per_cell,
     png_set_names, write_png_set,

@@ -10,6 +10,7 @@
 use crate::plan_outputs::{Axis, ddm};
 use geo::Coord;
 use seekgrid_core::Frame;
+use seekgrid_core::projected::{BRITISH_NATIONAL_GRID_EPSG, bng_grid_reference};
 use seekgrid_incident::model::PositionFormat;
 
 /// The label a briefing puts before positions in `format`.
@@ -22,7 +23,9 @@ pub fn label(format: PositionFormat) -> &'static str {
         PositionFormat::Mgrs => "MGRS, 1 m",
         PositionFormat::Usng => "USNG, 1 m (WGS84)",
         PositionFormat::Utm => "UTM (UPS at the poles), metres",
-        PositionFormat::Grid => "working CRS easting and northing, metres",
+        PositionFormat::Grid => {
+            "working CRS easting and northing, metres (Ordnance Survey letters in EPSG:27700)"
+        }
     }
 }
 
@@ -162,7 +165,11 @@ pub fn format_position(frame: &Frame, c: Coord<f64>, format: PositionFormat) -> 
         PositionFormat::Mgrs => mgrs(lon, lat).unwrap_or_else(unavailable),
         PositionFormat::Usng => mgrs(lon, lat).map_or_else(unavailable, |m| format!("USNG {m}")),
         PositionFormat::Utm => utm(lon, lat).unwrap_or_else(unavailable),
-        PositionFormat::Grid => format!("EPSG:{} {:.0} E {:.0} N", frame.epsg(), c.x, c.y),
+        // The Ordnance Survey letters where the frame is the British National Grid.
+        PositionFormat::Grid => (frame.epsg() == BRITISH_NATIONAL_GRID_EPSG)
+            .then(|| bng_grid_reference(c.x, c.y, 5))
+            .flatten()
+            .unwrap_or_else(|| format!("EPSG:{} {:.0} E {:.0} N", frame.epsg(), c.x, c.y)),
     }
 }
 
@@ -262,6 +269,23 @@ mod tests {
         assert_eq!(dms(-40.95, Axis::Longitude), "040°57'00.0\"W");
         assert_eq!(dms(10.999_999_9, Axis::Longitude), "011°00'00.0\"E");
         assert_eq!(dms(-0.000_01, Axis::Latitude), "00°00'00.0\"S");
+    }
+
+    #[test]
+    fn grid_in_the_british_national_grid_writes_the_ordnance_survey_reference() {
+        // fixtures/reference/bng_reference.txt (pyproj eastings, OS letters): Edinburgh Castle.
+        let frame = Frame::from_epsg(27700, Some([-3.1999, 55.9486])).unwrap();
+        let c = frame.to_xy(-3.1999, 55.9486);
+        assert_eq!(
+            format_position(&frame, c, PositionFormat::Grid),
+            "NT 25163 73490"
+        );
+        // Outside the lettered squares: easting and northing.
+        let far = Coord { x: -5.0, y: 10.0 };
+        assert_eq!(
+            format_position(&frame, far, PositionFormat::Grid),
+            "EPSG:27700 -5 E 10 N"
+        );
     }
 
     #[test]
