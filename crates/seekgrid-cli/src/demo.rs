@@ -8,9 +8,10 @@
 
 use crate::{
     Failure, commit, credibility_report, map_incident, open_output, plan_incident, review_incident,
+    run_time,
 };
 use seekgrid_render::OutputDir;
-use seekgrid_render::layers::OutputSelection;
+use seekgrid_render::layers::{Layer, OutputSelection, OutputSettings};
 use std::path::Path;
 
 /// The demo incidents are meant to be clean: a warning on them is a defect, so the demo runs as
@@ -171,7 +172,12 @@ pub(crate) fn run(out: &Path, force: bool, run_id: &str) -> Result<(), Failure> 
             &incident,
             &plan_dir,
             start,
-            &OutputSelection::plan_default(),
+            // The demo also writes the waypoints-only GPX, to show it.
+            &OutputSelection::plan_default().with(Layer::Waypoints),
+            OutputSettings {
+                made_at: run_time(dir.run_id()),
+                ..OutputSettings::default()
+            },
             DEMO_STRICT,
         )?;
         eprintln!(

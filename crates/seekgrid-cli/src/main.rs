@@ -7,9 +7,10 @@ mod log;
 use clap::builder::PossibleValue;
 use clap::{Parser, Subcommand, ValueEnum};
 use seekgrid_engine::timeline::{MapError, MapOptions};
-use seekgrid_incident::model::Item;
+use seekgrid_incident::model::{Item, PositionFormat};
 use seekgrid_incident::{Incident, IncidentErrors};
-use seekgrid_render::layers::{Computed, Layer, OutputSelection};
+use seekgrid_render::gpx;
+use seekgrid_render::layers::{Computed, Layer, OutputSelection, OutputSettings};
 use seekgrid_render::provenance::{InputDigest, Provenance, Seed};
 use seekgrid_render::summary::CAUTION;
 use seekgrid_render::{OutputDir, OutputOptions, RenderError};
@@ -135,9 +136,27 @@ struct PlanArgs {
     #[arg(long)]
     out: PathBuf,
     /// Comma-separated output layers to write (default: summary, probability, containment,
-    /// heatmap, segments and every plan layer: plan, routes, briefing, plan-map, effort)
+    /// heatmap, segments and every plan layer but waypoints: plan, routes, briefing,
+    /// plan-map, tasking, effort)
     #[arg(long, value_enum, value_delimiter = ',')]
     outputs: Vec<PlanLayer>,
+    /// Longest GPS point and route name in plan.gpx and plan-waypoints.gpx, characters (4 or
+    /// more): names are the unit's code and the point's number (`RESBO1 07`), unique within
+    /// this length; the full name is in each point's description. Many handheld sets keep 10
+    /// to 14 characters, older ones 6 (from memory)
+    #[arg(long, value_name = "N", default_value_t = gpx::DEFAULT_NAME_LENGTH)]
+    gps_name_length: usize,
+    /// Most points in one GPS route (2 or more); a longer route is split into numbered parts.
+    /// Default 50: many handheld sets take routes of at most 50 points (from memory; newer
+    /// ones 250)
+    #[arg(long, value_name = "N", default_value_t = gpx::DEFAULT_ROUTE_POINTS)]
+    gps_route_points: usize,
+    /// How positions are written in plan.md and the GPS files' descriptions: ddm (degrees
+    /// and decimal minutes, the default), dd, dms, mgrs, usng, utm (UPS at the poles) or grid
+    /// (the working CRS's easting and northing). Over the incident's `positions`; a unit's own
+    /// `positions` in the incident file wins over both
+    #[arg(long, value_name = "FORMAT", value_parser = parse_positions)]
+    positions: Option<PositionFormat>,
     /// Also print the summary as JSON on standard output
     #[arg(long)]
     json: bool,
@@ -390,18 +409,32 @@ fn plan_command(a: PlanArgs, run_id: &str) -> Result<(), Failure> {
         start,
         out,
         outputs,
+        gps_name_length,
+        gps_route_points,
+        positions,
         json,
         strict,
         force,
         verbose,
     } = a;
     let selection = chosen(outputs.iter().map(|l| l.0), OutputSelection::plan_default);
+    let gps = gpx::GpsOptions {
+        name_length: gps_name_length,
+        route_points: gps_route_points,
+    };
+    gps.validate()
+        .map_err(|e| Failure::bad_input(e.to_string()))?;
+    let settings = OutputSettings {
+        gps,
+        made_at: run_time(run_id),
+        positions,
+    };
     let start = parse_time(&start, "--start")?;
     let incident = seekgrid_incident::load(&file)?;
     sized(&incident)?;
     let mut dir = open_output(&out, force, run_id, &incident.input_files())?;
     dir.set_provenance(provenance(&incident, run_id)?);
-    let summary = plan_incident(&incident, &dir, start, &selection, strict)?;
+    let summary = plan_incident(&incident, &dir, start, &selection, settings, strict)?;
     commit(dir)?;
     if verbose {
         print_phases(&summary.phases);
@@ -670,13 +703,15 @@ fn plan_incident(
     dir: &OutputDir,
     start: chrono::DateTime<chrono::Utc>,
     selection: &OutputSelection,
+    settings: OutputSettings,
     strict: bool,
 ) -> Result<seekgrid_render::summary::Summary, Failure> {
     let result =
         with_progress(|progress| seekgrid_engine::planning::plan_at(incident, start, progress));
     let run = result.map_err(|e| located(incident, e.item(), &e.to_string()))?;
     report_warnings(incident, &run.map.warnings, strict)?;
-    seekgrid_render::layers::write(&Computed::plan(incident, &run), dir, selection)
+    let computed = Computed::plan(incident, &run).with_settings(settings);
+    seekgrid_render::layers::write(&computed, dir, selection)
         .map_err(|e| Failure::failed(e.to_string()))
 }
 
@@ -743,13 +778,10 @@ fn provenance(incident: &Incident, run_id: &str) -> Result<Provenance, Failure> 
             _ => None,
         })
         .collect();
-    let time_utc = run_id
-        .get(..16)
-        .and_then(|t| chrono::NaiveDateTime::parse_from_str(t, "%Y%m%dT%H%M%SZ").ok())
-        .map_or_else(
-            || chrono::Utc::now().format("%Y-%m-%dT%H:%M:%SZ").to_string(),
-            |t| t.format("%Y-%m-%dT%H:%M:%SZ").to_string(),
-        );
+    let time_utc = run_time(run_id)
+        .unwrap_or_else(chrono::Utc::now)
+        .format("%Y-%m-%dT%H:%M:%SZ")
+        .to_string();
     Ok(Provenance {
         seekgrid_version: env!("CARGO_PKG_VERSION").to_owned(),
         command: std::env::args().collect::<Vec<_>>().join(" "),
@@ -757,6 +789,22 @@ fn provenance(incident: &Incident, run_id: &str) -> Result<Provenance, Failure> 
         inputs,
         seeds,
     })
+}
+
+/// A position format named on the command line.
+fn parse_positions(name: &str) -> Result<PositionFormat, String> {
+    PositionFormat::parse(name).ok_or_else(|| {
+        let names: Vec<&str> = PositionFormat::ALL.iter().map(|f| f.name()).collect();
+        format!("unknown position format; use one of {}", names.join(", "))
+    })
+}
+
+/// The time in a run id made by [`run_id`]; `None` for any other text.
+fn run_time(run_id: &str) -> Option<chrono::DateTime<chrono::Utc>> {
+    let stamp = run_id.get(..16)?;
+    chrono::NaiveDateTime::parse_from_str(stamp, "%Y%m%dT%H%M%SZ")
+        .ok()
+        .map(|t| t.and_utc())
 }
 
 /// This run's id: the UTC time to the second and the process id, e.g. `20260614T213000Z-4242`.

@@ -32,6 +32,42 @@ pub enum CoreError {
         /// The text given.
         text: String,
     },
+    /// An EPSG code that the bundled CRS definitions do not hold.
+    #[error(
+        "EPSG:{code} is not a CRS seekgrid knows; check the code (epsg.io) or leave crs out to have one chosen"
+    )]
+    UnknownEpsg {
+        /// The code given.
+        code: u32,
+    },
+    /// An EPSG code of a geographic (degrees) or geocentric CRS, not a projected one.
+    #[error(
+        "EPSG:{code} is not a projected CRS (it is in degrees or geocentric); use crs = \"EPSG:{fitting}\", which fits the incident, or another projected CRS in metres"
+    )]
+    NotProjected {
+        /// The code given.
+        code: u32,
+        /// A projected CRS that fits the incident's first position.
+        fitting: u32,
+    },
+    /// A projected CRS that cannot project a position or stretches distances there too much.
+    #[error(
+        "EPSG:{code} does not fit the incident at [{lon}, {lat}] (scale error {scale_error_pct:.2} %, more than {limit_pct} %); use crs = \"EPSG:{fitting}\" or leave crs out to have it chosen"
+    )]
+    CrsFarFromIncident {
+        /// The code given.
+        code: u32,
+        /// Longitude of the position, degrees.
+        lon: f64,
+        /// Latitude of the position, degrees.
+        lat: f64,
+        /// |k - 1| in percent, NaN where the CRS cannot project the position.
+        scale_error_pct: f64,
+        /// The limit applied, percent.
+        limit_pct: f64,
+        /// A projected CRS that fits the position.
+        fitting: u32,
+    },
     /// Cell size not positive and finite.
     #[error("cell size {cell_m} m is not usable; give a positive cell_m such as 250")]
     BadCellSize {

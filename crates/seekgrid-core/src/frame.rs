@@ -10,6 +10,7 @@
 //! Tests compare this module with PROJ's `cs2cs` (see `tests/` at the workspace root).
 
 use crate::error::CoreError;
+use crate::projected::{ProjectedCrs, fitting_epsg};
 use geo::Coord;
 
 /// WGS84 semi-major axis, metres (NIMA TR8350.2).
@@ -147,7 +148,8 @@ fn check_position(lon_deg: f64, lat_deg: f64) -> Result<(), CoreError> {
     }
 }
 
-/// The projected working frame of an incident: one UTM zone on WGS84.
+/// The projected working frame of an incident: one UTM zone on WGS84 (the Krüger series
+/// below), or any other projected CRS ([`ProjectedCrs`], through proj4rs).
 ///
 /// `to_xy` takes longitude then latitude in degrees (GeoJSON order) and returns easting and
 /// northing in metres; `to_lon_lat` inverts it.
@@ -161,6 +163,18 @@ fn check_position(lon_deg: f64, lat_deg: f64) -> Result<(), CoreError> {
 /// ```
 #[derive(Debug, Clone)]
 pub struct Frame {
+    kind: FrameKind,
+}
+
+#[derive(Debug, Clone)]
+enum FrameKind {
+    Utm(Utm),
+    Projected(Box<ProjectedCrs>),
+}
+
+/// The transverse Mercator series of one UTM zone.
+#[derive(Debug, Clone)]
+struct Utm {
     zone: UtmZone,
     lon0_deg: f64,
     false_northing_m: f64,
@@ -176,6 +190,162 @@ impl Frame {
     /// The frame of one UTM zone.
     #[must_use]
     pub fn new(zone: UtmZone) -> Self {
+        Self {
+            kind: FrameKind::Utm(Utm::new(zone)),
+        }
+    }
+
+    /// The frame of any projected CRS (the UTM series is not used, even for a UTM code: see
+    /// [`Frame::from_epsg`]).
+    #[must_use]
+    pub fn projected(crs: ProjectedCrs) -> Self {
+        Self {
+            kind: FrameKind::Projected(Box::new(crs)),
+        }
+    }
+
+    /// The frame of an EPSG code: a WGS84 UTM zone through the Krüger series, any other
+    /// projected CRS through [`ProjectedCrs`], checked to fit `first_position` when given
+    /// ([`ProjectedCrs::check_fits`]).
+    ///
+    /// # Errors
+    /// [`CoreError::UnknownEpsg`], [`CoreError::NotProjected`] (naming the CRS that fits
+    /// `first_position`, or 0 without it), [`CoreError::CrsFarFromIncident`].
+    pub fn from_epsg(code: u32, first_position: Option<[f64; 2]>) -> Result<Self, CoreError> {
+        if let Ok(zone) = UtmZone::from_epsg(code) {
+            return Ok(Self::new(zone));
+        }
+        let fitting = first_position
+            .and_then(|[lon, lat]| fitting_epsg(lon, lat).ok())
+            .unwrap_or(0);
+        let crs = ProjectedCrs::from_epsg(code, fitting)?;
+        if let Some([lon, lat]) = first_position {
+            crs.check_fits(lon, lat)?;
+        }
+        Ok(Self::projected(crs))
+    }
+
+    /// The frame seekgrid chooses for a position: its UTM zone within 80° S..84° N, UPS
+    /// beyond ([`fitting_epsg`]).
+    ///
+    /// # Errors
+    /// [`CoreError::BadPosition`] for an invalid position.
+    pub fn fitting(lon_deg: f64, lat_deg: f64) -> Result<Self, CoreError> {
+        Self::from_epsg(fitting_epsg(lon_deg, lat_deg)?, Some([lon_deg, lat_deg]))
+    }
+
+    /// The frame for the zone holding a position (see [`UtmZone::for_position`]).
+    ///
+    /// # Errors
+    /// [`CoreError::BadPosition`] for an invalid position.
+    pub fn for_position(lon_deg: f64, lat_deg: f64) -> Result<Self, CoreError> {
+        Ok(Self::new(UtmZone::for_position(lon_deg, lat_deg)?))
+    }
+
+    /// The UTM zone; `None` for another projected CRS.
+    #[must_use]
+    pub fn zone(&self) -> Option<UtmZone> {
+        match &self.kind {
+            FrameKind::Utm(u) => Some(u.zone),
+            FrameKind::Projected(_) => None,
+        }
+    }
+
+    /// The projected CRS when the frame is not a UTM zone.
+    #[must_use]
+    pub fn projected_crs(&self) -> Option<&ProjectedCrs> {
+        match &self.kind {
+            FrameKind::Utm(_) => None,
+            FrameKind::Projected(p) => Some(p),
+        }
+    }
+
+    /// EPSG code of the frame.
+    #[must_use]
+    pub fn epsg(&self) -> u32 {
+        match &self.kind {
+            FrameKind::Utm(u) => u.zone.epsg(),
+            FrameKind::Projected(p) => p.epsg(),
+        }
+    }
+
+    /// Central meridian (longitude of origin) of the projection, degrees east.
+    #[must_use]
+    pub fn central_meridian_deg(&self) -> f64 {
+        match &self.kind {
+            FrameKind::Utm(u) => u.lon0_deg,
+            FrameKind::Projected(p) => p.central_meridian_deg(),
+        }
+    }
+
+    /// Longitude, latitude (degrees) to easting, northing (metres). No range check: callers
+    /// validate input positions with [`Frame::checked_to_xy`]. NaN where a non-UTM CRS cannot
+    /// project the position.
+    #[must_use]
+    pub fn to_xy(&self, lon_deg: f64, lat_deg: f64) -> Coord<f64> {
+        match &self.kind {
+            FrameKind::Utm(u) => u.to_xy(lon_deg, lat_deg),
+            FrameKind::Projected(p) => p.to_xy(lon_deg, lat_deg).unwrap_or(Coord {
+                x: f64::NAN,
+                y: f64::NAN,
+            }),
+        }
+    }
+
+    /// Like [`Frame::to_xy`], refusing positions that are not valid WGS84 degrees (beyond
+    /// 80° S..84° N in a UTM frame) or that the CRS cannot project.
+    ///
+    /// # Errors
+    /// [`CoreError::BadPosition`] when lon/lat are not finite or out of range.
+    pub fn checked_to_xy(&self, lon_deg: f64, lat_deg: f64) -> Result<Coord<f64>, CoreError> {
+        match &self.kind {
+            FrameKind::Utm(u) => {
+                check_position(lon_deg, lat_deg)?;
+                Ok(u.to_xy(lon_deg, lat_deg))
+            }
+            FrameKind::Projected(p) => {
+                if (-180.0..=180.0).contains(&lon_deg) {
+                    p.to_xy(lon_deg, lat_deg)
+                } else {
+                    Err(CoreError::BadPosition {
+                        lon: lon_deg,
+                        lat: lat_deg,
+                    })
+                }
+            }
+        }
+    }
+
+    /// Meridian convergence at a position, degrees: the angle from true north clockwise to grid
+    /// north. A true bearing b becomes the grid bearing `b - convergence`.
+    #[must_use]
+    pub fn convergence_deg(&self, lon_deg: f64, lat_deg: f64) -> f64 {
+        match &self.kind {
+            FrameKind::Utm(u) => u.convergence_deg(lon_deg, lat_deg),
+            FrameKind::Projected(p) => p.convergence_deg(lon_deg, lat_deg),
+        }
+    }
+
+    /// Converts a true bearing (degrees clockwise from true north) at a position to a grid
+    /// bearing (degrees clockwise from grid north) in this frame.
+    #[must_use]
+    pub fn true_to_grid_bearing_deg(&self, bearing_deg: f64, lon_deg: f64, lat_deg: f64) -> f64 {
+        crate::units::normalise_deg(bearing_deg - self.convergence_deg(lon_deg, lat_deg))
+    }
+
+    /// Easting, northing (metres) to longitude, latitude (degrees). NaN where a non-UTM CRS
+    /// cannot invert the point.
+    #[must_use]
+    pub fn to_lon_lat(&self, p: Coord<f64>) -> (f64, f64) {
+        match &self.kind {
+            FrameKind::Utm(u) => u.to_lon_lat(p),
+            FrameKind::Projected(c) => c.to_lon_lat(p).unwrap_or((f64::NAN, f64::NAN)),
+        }
+    }
+}
+
+impl Utm {
+    fn new(zone: UtmZone) -> Self {
         let f = WGS84_F;
         let n = f / (2.0 - f);
         let (n2, n3) = (n * n, n * n * n);
@@ -223,50 +393,18 @@ impl Frame {
         }
     }
 
-    /// The frame for the zone holding a position (see [`UtmZone::for_position`]).
-    ///
-    /// # Errors
-    /// [`CoreError::BadPosition`] for an invalid position.
-    pub fn for_position(lon_deg: f64, lat_deg: f64) -> Result<Self, CoreError> {
-        Ok(Self::new(UtmZone::for_position(lon_deg, lat_deg)?))
-    }
-
-    /// The UTM zone.
-    #[must_use]
-    pub fn zone(&self) -> UtmZone {
-        self.zone
-    }
-
-    /// EPSG code of the frame.
-    #[must_use]
-    pub fn epsg(&self) -> u32 {
-        self.zone.epsg()
-    }
-
     fn conformal_tau(&self, tau: f64) -> f64 {
         // Karney (2011) eq. (7)-(9).
         let sigma = (self.e * (self.e * tau / tau.hypot(1.0)).atanh()).sinh();
         tau * sigma.hypot(1.0) - sigma * tau.hypot(1.0)
     }
 
-    /// Longitude, latitude (degrees) to easting, northing (metres). No range check: callers
-    /// validate input positions with [`Frame::checked_to_xy`].
-    #[must_use]
-    pub fn to_xy(&self, lon_deg: f64, lat_deg: f64) -> Coord<f64> {
+    fn to_xy(&self, lon_deg: f64, lat_deg: f64) -> Coord<f64> {
         let (xi, eta, _, _) = self.forward_series(lon_deg, lat_deg);
         Coord {
             x: UTM_FALSE_EASTING + self.k0_a * eta,
             y: self.false_northing_m + self.k0_a * xi,
         }
-    }
-
-    /// Like [`Frame::to_xy`], refusing positions that are not valid WGS84 degrees.
-    ///
-    /// # Errors
-    /// [`CoreError::BadPosition`] when lon/lat are not finite or out of range.
-    pub fn checked_to_xy(&self, lon_deg: f64, lat_deg: f64) -> Result<Coord<f64>, CoreError> {
-        check_position(lon_deg, lat_deg)?;
-        Ok(self.to_xy(lon_deg, lat_deg))
     }
 
     /// Returns (xi, eta, p', q') of Karney (2011) eq. (11) and (16).
@@ -291,10 +429,7 @@ impl Frame {
         (xi, eta, p, q)
     }
 
-    /// Meridian convergence at a position, degrees: the angle from true north clockwise to grid
-    /// north. A true bearing b becomes the grid bearing `b - convergence`.
-    #[must_use]
-    pub fn convergence_deg(&self, lon_deg: f64, lat_deg: f64) -> f64 {
+    fn convergence_deg(&self, lon_deg: f64, lat_deg: f64) -> f64 {
         let lam = wrap_deg(lon_deg - self.lon0_deg).to_radians();
         let taup = self.conformal_tau(lat_deg.to_radians().tan());
         let (_, _, p, q) = self.forward_series(lon_deg, lat_deg);
@@ -304,16 +439,7 @@ impl Frame {
         (gamma_prime + gamma_second).to_degrees()
     }
 
-    /// Converts a true bearing (degrees clockwise from true north) at a position to a grid
-    /// bearing (degrees clockwise from grid north) in this frame.
-    #[must_use]
-    pub fn true_to_grid_bearing_deg(&self, bearing_deg: f64, lon_deg: f64, lat_deg: f64) -> f64 {
-        crate::units::normalise_deg(bearing_deg - self.convergence_deg(lon_deg, lat_deg))
-    }
-
-    /// Easting, northing (metres) to longitude, latitude (degrees).
-    #[must_use]
-    pub fn to_lon_lat(&self, p: Coord<f64>) -> (f64, f64) {
+    fn to_lon_lat(&self, p: Coord<f64>) -> (f64, f64) {
         let xi = (p.y - self.false_northing_m) / self.k0_a;
         let eta = (p.x - UTM_FALSE_EASTING) / self.k0_a;
         let (mut xip, mut etap) = (xi, eta);
@@ -423,5 +549,64 @@ mod tests {
         let g = f.convergence_deg(-61.0, 44.0);
         assert!((g - 2.0 * 44f64.to_radians().sin()).abs() < 0.01, "{g}");
         assert!(f.convergence_deg(-65.0, 44.0) < 0.0);
+    }
+
+    #[test]
+    fn a_utm_zone_through_proj4rs_agrees_with_the_kruger_series() {
+        // Two implementations of the same CRS (proj4rs's tmerc, checked against cs2cs in
+        // `projected`, and the series here): positions within 1 cm, convergence within 1e-4
+        // degrees (the numerical step of ProjectedCrs::convergence_deg).
+        let series = Frame::new(UtmZone::from_epsg(32620).unwrap());
+        let other = Frame::projected(ProjectedCrs::from_epsg(32620, 0).unwrap());
+        assert_eq!(other.zone(), None);
+        assert_eq!(other.epsg(), 32620);
+        assert_abs_diff_eq!(other.central_meridian_deg(), -63.0, epsilon = 1e-12);
+        for &(lon, lat) in &[(-63.0, 44.0), (-61.0, 10.0), (-65.5, 70.0), (-60.2, -30.0)] {
+            let (a, b) = (series.to_xy(lon, lat), other.to_xy(lon, lat));
+            assert!((a.x - b.x).hypot(a.y - b.y) < 0.01, "{a:?} {b:?}");
+            let (lon2, lat2) = other.to_lon_lat(b);
+            assert_abs_diff_eq!(lon2, lon, epsilon = 1e-9);
+            assert_abs_diff_eq!(lat2, lat, epsilon = 1e-9);
+            let (ga, gb) = (
+                series.convergence_deg(lon, lat),
+                other.convergence_deg(lon, lat),
+            );
+            assert_abs_diff_eq!(ga, gb, epsilon = 1e-4);
+        }
+    }
+
+    #[test]
+    fn a_frame_is_chosen_by_epsg_code_or_position_including_the_polar_caps() {
+        let utm = Frame::from_epsg(32630, Some([-3.19, 55.95])).unwrap();
+        assert_eq!(utm.zone().map(|z| z.epsg()), Some(32630));
+        let bng = Frame::from_epsg(27700, Some([-3.19, 55.95])).unwrap();
+        assert!(bng.zone().is_none() && bng.projected_crs().is_some());
+        // PROJ 9.1.1 cs2cs, as in `projected`: 325784.7480 673635.7681.
+        let p = bng.checked_to_xy(-3.19, 55.95).unwrap();
+        assert!(
+            (p.x - 325_784.748).hypot(p.y - 673_635.768_1) < 0.01,
+            "{p:?}"
+        );
+        assert!(matches!(
+            Frame::from_epsg(4326, Some([-3.19, 55.95])),
+            Err(CoreError::NotProjected { fitting: 32630, .. })
+        ));
+        assert!(matches!(
+            Frame::from_epsg(27700, Some([174.78, -41.29])),
+            Err(CoreError::CrsFarFromIncident { fitting: 32760, .. })
+        ));
+        // Beyond the UTM range (UTM standard): UPS north and south.
+        assert_eq!(Frame::fitting(10.0, 86.0).unwrap().epsg(), 32661);
+        assert_eq!(Frame::fitting(10.0, -85.0).unwrap().epsg(), 32761);
+        assert_eq!(Frame::fitting(10.0, 60.0).unwrap().epsg(), 32632);
+        let ups = Frame::fitting(10.0, 89.5).unwrap();
+        let (lon, lat) = ups.to_lon_lat(ups.checked_to_xy(10.0, 89.5).unwrap());
+        assert_abs_diff_eq!(lon, 10.0, epsilon = 1e-9);
+        assert_abs_diff_eq!(lat, 89.5, epsilon = 1e-9);
+        // UPS north (lon_0 = 0): x = rho sin(lon), y = -rho cos(lon) (Snyder 1987, USGS PP
+        // 1395, eq. 21-30, 21-31), so true north has grid bearing -lon and the convergence
+        // (true north clockwise to grid north) is +lon, positive east as in UTM (computed).
+        assert_abs_diff_eq!(ups.convergence_deg(10.0, 89.5), 10.0, epsilon = 1e-3);
+        assert_abs_diff_eq!(ups.convergence_deg(-120.0, 85.0), -120.0, epsilon = 1e-3);
     }
 }

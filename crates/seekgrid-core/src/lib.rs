@@ -1,6 +1,8 @@
 //! Core types of seekgrid: the working frame, grid geometry, units and the belief.
 //!
 //! * [`frame::Frame`]: WGS84 longitude/latitude to and from UTM metres (Krüger series).
+//! * [`projected::ProjectedCrs`]: any projected CRS by EPSG code (proj4rs), its WKT, point
+//!   scale factor and fit to a position; the polar stereographic choice beyond the UTM range.
 //! * [`grid::GridSpec`]: square cells of `cell_m` in that frame, row 0 at the north edge.
 //! * [`belief::Belief`]: the probability distribution of the object's position, as cell
 //!   masses, weighted particles and rest of world, always adding up to 1.
@@ -30,6 +32,7 @@ pub mod frame;
 pub mod grid;
 pub mod mass;
 pub mod particle_density;
+pub mod projected;
 pub mod rank;
 pub mod units;
 
@@ -38,4 +41,5 @@ pub use error::CoreError;
 pub use frame::{Frame, Hemisphere, UtmZone};
 pub use grid::{DEFAULT_MAX_CELLS, GridSpec, ProjectedBox};
 pub use mass::neumaier_sum;
+pub use projected::ProjectedCrs;
 pub use rank::{TruthRank, truth_rank};

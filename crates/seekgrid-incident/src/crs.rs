@@ -14,6 +14,36 @@ pub const ZONE_HALF_WIDTH_DEG: f64 = 3.0;
 /// [`ZONE_HALF_WIDTH_DEG`] and this, a warning (an incident spanning two zones may use either).
 pub const NEIGHBOUR_ZONE_DEG: f64 = 9.0;
 
+/// Common geographic CRSs (longitude and latitude in degrees, no projection): WGS 84 (2D and
+/// 3D), ETRS89, NAD83, NAD83(CSRS), NAD27, GDA94, GDA2020, NZGD2000, ED50, OSGB36, Tokyo,
+/// CGCS2000, SIRGAS 2000, Hartebeesthoek94 and SWEREF99. Each is `+proj=longlat` by PROJ's
+/// `projinfo` (checked in the CLI tests, `frame_vs_proj.rs`). A `crs` naming one is refused as
+/// geographic, with the UTM zone that fits the incident.
+pub const GEOGRAPHIC_EPSG: [u32; 16] = [
+    4326, 4979, 4258, 4269, 4617, 4267, 4283, 7844, 4167, 4230, 4277, 4301, 4490, 4674, 4148, 4619,
+];
+
+/// The message refusing `crs = "EPSG:code"` for a code that is not a WGS84 UTM zone, naming the
+/// zone that fits `first_position` when there is one.
+#[must_use]
+pub fn unsupported_crs_message(code: u32, first_position: Option<[f64; 2]>) -> String {
+    let what = if GEOGRAPHIC_EPSG.contains(&code) {
+        "a geographic CRS (degrees of longitude and latitude): seekgrid lays its grid in metres of a projected CRS"
+    } else {
+        "not a WGS84 UTM zone, the only projected CRS seekgrid works in"
+    };
+    let fit = first_position.and_then(|[lon, lat]| UtmZone::for_position(lon, lat).ok());
+    match fit {
+        Some(z) => format!(
+            "EPSG:{code} is {what}; use crs = \"EPSG:{}\", the UTM zone of the first position, or leave crs out to have it chosen",
+            z.epsg()
+        ),
+        None => format!(
+            "EPSG:{code} is {what}; use EPSG:32601..32660 (north) or EPSG:32701..32760 (south), or leave crs out to have the zone of the first position chosen"
+        ),
+    }
+}
+
 /// Degrees of longitude between `lon_deg` and the zone's central meridian, in 0..=180.
 #[must_use]
 pub fn degrees_from_central_meridian(zone: UtmZone, lon_deg: f64) -> f64 {
@@ -91,6 +121,23 @@ impl ZoneDistance {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn an_unsupported_crs_is_refused_naming_the_zone_that_fits() {
+        // Zone 24 for 40.9 W (UTM standard: zone = floor((lon + 180) / 6) + 1).
+        let m = unsupported_crs_message(4326, Some([-40.9, 31.5]));
+        assert!(
+            m.contains("geographic") && m.contains("\"EPSG:32624\""),
+            "{m}"
+        );
+        let m = unsupported_crs_message(27700, Some([-1.5, 52.0]));
+        assert!(
+            m.contains("not a WGS84 UTM zone") && m.contains("\"EPSG:32630\""),
+            "{m}"
+        );
+        let m = unsupported_crs_message(27700, None);
+        assert!(m.contains("EPSG:32601..32660"), "{m}");
+    }
 
     #[test]
     fn degrees_from_the_central_meridian_wrap_at_the_date_line() {

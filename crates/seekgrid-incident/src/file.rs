@@ -321,6 +321,8 @@ pub struct RawHeader {
     pub notes: Option<String>,
     /// `true`: keep a `crs` whose zone is farther than the neighbouring one from the incident.
     pub allow_distant_crs: Option<bool>,
+    /// How positions are written in the briefing and GPS descriptions (`ddm`, `mgrs`, ...).
+    pub positions: Option<String>,
 }
 
 /// `[grid]`.
@@ -795,6 +797,8 @@ pub struct RawUnit {
     pub detection: Option<String>,
     /// Ground team: number of searchers.
     pub searchers: Option<u32>,
+    /// How this unit's positions are written (`ddm`, `mgrs`, ...).
+    pub positions: Option<String>,
 }
 
 /// `[outcome]`, by its `status`.

@@ -147,6 +147,8 @@ struct Header {
     title: String,
     reference_time: Option<Time>,
     crs: Option<UtmZone>,
+    /// An EPSG code given as `crs` that is not a UTM zone.
+    unsupported_crs: Option<u32>,
     coastline: Option<geo::MultiPolygon<f64>>,
     coastline_file: Option<PathBuf>,
 }
@@ -301,6 +303,18 @@ impl Validator<'_> {
         }
     }
 
+    fn positions(&mut self, at: &FieldPath, f: Option<&str>) -> Option<PositionFormat> {
+        let name = f?;
+        PositionFormat::parse(name).or_else(|| {
+            let list = choices(PositionFormat::ALL.map(PositionFormat::name));
+            self.err(
+                at,
+                format!("unknown position format \"{name}\"; use {list}"),
+            );
+            None
+        })
+    }
+
     fn detection(&mut self, at: &FieldPath, d: Option<&str>) -> search::DetectionLaw {
         match d {
             None => search::DetectionLaw::InverseCube,
@@ -321,10 +335,19 @@ impl Validator<'_> {
         let scenarios = self.scenarios(raw, &analysts);
         let searches = self.searches(raw);
         let units = self.units(raw);
+        let positions = self.positions(
+            &p("incident").key("positions"),
+            raw.incident.positions.as_deref(),
+        );
         let outcome = raw
             .outcome
             .as_ref()
             .and_then(|o| self.outcome(o, header.reference_time));
+        if let Some(code) = header.unsupported_crs {
+            let message =
+                crate::crs::unsupported_crs_message(code, crate::model::first_position(&scenarios));
+            self.err(&p("incident").key("crs"), message);
+        }
         self.log_pool_with_drift(pool, &scenarios);
         if raw.incident.allow_distant_crs != Some(true) {
             self.distant_crs(header.crs, &scenarios);
@@ -349,6 +372,7 @@ impl Validator<'_> {
             title: header.title,
             reference_time: header.reference_time?,
             crs: header.crs,
+            positions,
             notes: raw.incident.notes.clone(),
             coastline: header.coastline,
             coastline_file: header.coastline_file,
@@ -419,8 +443,14 @@ impl Validator<'_> {
             );
         }
         let reference_time = self.time(&p("incident").key("reference_time"), &h.reference_time);
+        let mut unsupported_crs = None;
         let crs = h.crs.as_ref().and_then(|c| match UtmZone::parse(c) {
             Ok(z) => Some(z),
+            // Refused once the scenarios are read, naming the zone that fits them.
+            Err(seekgrid_core::CoreError::UnsupportedCrs { code }) => {
+                unsupported_crs = Some(code);
+                None
+            }
             Err(e) => {
                 self.err(&p("incident").key("crs"), e.to_string());
                 None
@@ -440,6 +470,7 @@ impl Validator<'_> {
             title,
             reference_time,
             crs,
+            unsupported_crs,
             coastline,
             coastline_file,
         }
@@ -1287,6 +1318,7 @@ impl Validator<'_> {
             track_spacing_min_m: u.track_spacing_min_m,
             detection,
             searchers: u.searchers,
+            positions: self.positions(&at.key("positions"), u.positions.as_deref()),
             at,
         };
         match def.spec().validate() {

@@ -22,6 +22,63 @@ use std::path::PathBuf;
 /// A UTC time.
 pub type Time = DateTime<Utc>;
 
+/// How positions are written in the briefing and the GPS files' descriptions.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum PositionFormat {
+    /// Degrees and decimal minutes (`31°35.587'N 040°42.138'W`): the default, as boats and
+    /// aircraft read positions.
+    Ddm,
+    /// Decimal degrees (`31.59311°N 040.70230°W`).
+    Dd,
+    /// Degrees, minutes and seconds (`31°35'35.2"N 040°42'08.3"W`).
+    Dms,
+    /// Military Grid Reference System to 1 m (`24R UV 19552 86580`), UPS letters at the poles.
+    Mgrs,
+    /// US National Grid: the MGRS reference on WGS84 (NAD83 differs by under 2 m), written the
+    /// same way and labelled USNG.
+    Usng,
+    /// UTM zone, easting and northing in metres of the position's own zone (UPS beyond 84 N
+    /// and 80 S).
+    Utm,
+    /// Easting and northing in the working CRS (the plan's own grid), metres.
+    Grid,
+}
+
+impl PositionFormat {
+    /// Every format, in the order the help lists them.
+    pub const ALL: [Self; 7] = [
+        Self::Ddm,
+        Self::Dd,
+        Self::Dms,
+        Self::Mgrs,
+        Self::Usng,
+        Self::Utm,
+        Self::Grid,
+    ];
+
+    /// Its name in the incident file and on the command line.
+    #[must_use]
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::Ddm => "ddm",
+            Self::Dd => "dd",
+            Self::Dms => "dms",
+            Self::Mgrs => "mgrs",
+            Self::Usng => "usng",
+            Self::Utm => "utm",
+            Self::Grid => "grid",
+        }
+    }
+
+    /// The format named `name` (case-insensitive), or `None`.
+    #[must_use]
+    pub fn parse(name: &str) -> Option<Self> {
+        Self::ALL
+            .into_iter()
+            .find(|f| f.name().eq_ignore_ascii_case(name.trim()))
+    }
+}
+
 /// A validated incident.
 #[derive(Debug, Clone)]
 pub struct Incident {
@@ -35,6 +92,8 @@ pub struct Incident {
     pub reference_time: Time,
     /// Working CRS given in the file, if any.
     pub crs: Option<UtmZone>,
+    /// How positions are written (`[incident] positions`), if the file says.
+    pub positions: Option<PositionFormat>,
     /// Free text.
     pub notes: Option<String>,
     /// Land polygons (lon/lat), if a coastline was given.
@@ -415,6 +474,9 @@ pub struct UnitDef {
     pub detection: search::DetectionLaw,
     /// Ground team: searchers.
     pub searchers: Option<u32>,
+    /// How this unit's positions are written, if the file says (over the run's and the
+    /// incident's choice).
+    pub positions: Option<PositionFormat>,
     /// Where it is written (`unit[i]`).
     pub at: FieldPath,
 }

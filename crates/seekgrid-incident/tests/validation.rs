@@ -651,6 +651,14 @@ fn toml_errors_point_at_the_key_or_value_at_fault() {
 
 const HEADER_GRID_PRIOR_RULES: &[Row] = &[
     (
+        Key("incident.positions"),
+        Replace(
+            "notes = \"invented for the validation tests\"",
+            "notes = \"invented for the validation tests\"\npositions = \"osgb\"",
+        ),
+        &["unknown position format \"osgb\"", "\"ddm\"", "\"grid\""],
+    ),
+    (
         Key("incident.title"),
         Replace(TITLE, "title = \"  \""),
         &["empty"],
@@ -669,7 +677,13 @@ const HEADER_GRID_PRIOR_RULES: &[Row] = &[
     (
         Key("incident.crs"),
         Replace("crs = \"EPSG:32626\"", "crs = \"EPSG:4326\""),
-        &["not a WGS84 UTM zone"],
+        &["geographic", "use crs = \"EPSG:32626\""],
+    ),
+    (
+        // British National Grid: a projected CRS seekgrid does not work in yet.
+        Key("incident.crs"),
+        Replace("crs = \"EPSG:32626\"", "crs = \"EPSG:27700\""),
+        &["not a WGS84 UTM zone", "use crs = \"EPSG:32626\""],
     ),
     (
         Key("incident.crs"),
@@ -1715,6 +1729,14 @@ fn patterns_need_every_dimension_of_their_kind_within_range() {
 
 const UNIT_RULES: &[Row] = &[
     (
+        Key("unit[1].positions"),
+        Replace(
+            "searchers = 8\n",
+            "searchers = 8\npositions = \"grid-letters\"\n",
+        ),
+        &["unknown position format \"grid-letters\"", "\"mgrs\""],
+    ),
+    (
         Key("unit[1].id"),
         Replace("id = \"team-1\"", "id = \"boat-4\""),
         &["used twice"],
@@ -2692,6 +2714,12 @@ fn each_documented_default_applies_when_the_field_is_left_out() {
             "InverseCube",
         ),
         (
+            "positions: none (the run's or degrees and decimal minutes)",
+            Unchanged,
+            |i| format!("{:?} {:?}", i.positions, i.units[1].positions),
+            "None None",
+        ),
+        (
             "track_spacing_min_m: none",
             Replace("track_spacing_min_m = 300\n", ""),
             |i| format!("{:?}", i.units[0].track_spacing_min_m),
@@ -2766,4 +2794,24 @@ fn a_row_fails_when_its_field_words_place_or_refusal_do_not_match() {
         ),
         Ok(())
     );
+}
+
+#[test]
+fn position_formats_are_read_per_incident_and_per_unit() {
+    // Names as docs/incident-format.md lists them (case-insensitive).
+    use seekgrid_incident::model::PositionFormat;
+    let inc = accepted(Replace(
+        "searchers = 8\n",
+        "searchers = 8\npositions = \"MGRS\"\n",
+    ));
+    assert_eq!(inc.units[1].positions, Some(PositionFormat::Mgrs));
+    assert_eq!(inc.units[0].positions, None);
+    let inc = accepted(Replace(
+        "notes = \"invented for the validation tests\"",
+        "notes = \"invented for the validation tests\"\npositions = \"dms\"",
+    ));
+    assert_eq!(inc.positions, Some(PositionFormat::Dms));
+    for f in PositionFormat::ALL {
+        assert_eq!(PositionFormat::parse(f.name()), Some(f));
+    }
 }

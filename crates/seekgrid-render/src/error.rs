@@ -167,6 +167,14 @@ pub enum RenderError {
         /// What is allowed.
         hint: &'static str,
     },
+    /// An output setting that cannot work (a GPS name length too short, for instance).
+    #[error("{name}: {message}")]
+    BadSetting {
+        /// The setting, as the command line names it.
+        name: &'static str,
+        /// What is wrong and the fix.
+        message: String,
+    },
     /// An EPSG code that is not a WGS84 UTM zone.
     #[error(
         "EPSG:{code} is not a WGS84 UTM zone; use EPSG:32601..32660 (north) or EPSG:32701..32760 (south)"

@@ -59,6 +59,19 @@ pub fn utm_wkt1_esri(epsg: u32) -> Result<String, RenderError> {
     ))
 }
 
+/// The `.prj` text of a working frame: the ESRI WKT1 of [`utm_wkt1_esri`] for a UTM zone, the
+/// OGC WKT1 (with its EPSG authority) bundled by `crs-definitions` for any other projected CRS,
+/// which GDAL reads from a `.prj` as well.
+///
+/// # Errors
+/// [`RenderError::UnsupportedCrs`] as [`utm_wkt1_esri`].
+pub fn frame_prj(frame: &seekgrid_core::Frame) -> Result<String, RenderError> {
+    match frame.projected_crs() {
+        Some(crs) => Ok(crs.wkt().to_owned()),
+        None => utm_wkt1_esri(frame.epsg()),
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -91,6 +104,21 @@ mod tests {
             aux_xml(32619),
             "<PAMDataset><SRS dataAxisToSRSAxisMapping=\"1,2\">EPSG:32619</SRS></PAMDataset>\n"
         );
+    }
+
+    #[test]
+    fn a_national_grid_frame_writes_its_epsg_wkt_and_a_utm_frame_the_esri_one() {
+        // crs-definitions' WKT of EPSG:27700 ends with its EPSG authority (from the EPSG
+        // registry); the UTM text is the projinfo one checked below.
+        let bng = seekgrid_core::Frame::from_epsg(27700, None).unwrap();
+        let prj = frame_prj(&bng).unwrap();
+        assert!(
+            prj.starts_with("PROJCS[\"OSGB 1936 / British National Grid\""),
+            "{prj}"
+        );
+        assert!(prj.ends_with("AUTHORITY[\"EPSG\",\"27700\"]]"), "{prj}");
+        let utm = seekgrid_core::Frame::from_epsg(32620, None).unwrap();
+        assert_eq!(frame_prj(&utm).unwrap(), utm_wkt1_esri(32620).unwrap());
     }
 
     #[test]

@@ -2,7 +2,7 @@
 
 use crate::canvas::{BODY, Canvas, Rgba8, rgb, text_width, wrap};
 use crate::error::RenderError;
-use crate::georef::{PixelGeometry, aux_xml, utm_wkt1_esri};
+use crate::georef::{PixelGeometry, aux_xml, frame_prj};
 use crate::output::OutputDir;
 use crate::probability::check_layer;
 use crate::vector::{unwrapped_lon_lat, wrap_lon};
@@ -368,7 +368,7 @@ pub fn heatmap_png(
         ColourScale::Fraction => 1.0,
     };
     check_layer("heatmap values", grid, values, hi)?;
-    let prj = utm_wkt1_esri(frame.epsg())?;
+    let prj = frame_prj(frame)?;
     let colouring = Colouring::new(
         style.scale,
         values,
@@ -432,7 +432,7 @@ pub fn data_png(
         ColourScale::Fraction => 1.0,
     };
     check_layer("heatmap values", grid, values, hi)?;
-    let prj = utm_wkt1_esri(frame.epsg())?;
+    let prj = crate::georef::frame_prj(frame)?;
     let colouring = Colouring::new(
         scale,
         values,
@@ -679,13 +679,18 @@ fn draw_panel(
     }
     draw_colour_bar(cv, colouring, p.x, p.bar_y, p.bar_h);
     draw_key(cv, layout, legend);
-    let zone = frame.zone();
-    let hemi = match zone.hemisphere() {
-        Hemisphere::North => 'N',
-        Hemisphere::South => 'S',
-    };
+    let name = frame.zone().map_or_else(
+        || "projected CRS".to_owned(),
+        |zone| {
+            let hemi = match zone.hemisphere() {
+                Hemisphere::North => 'N',
+                Hemisphere::South => 'S',
+            };
+            format!("WGS 84 / UTM {}{hemi}", zone.zone())
+        },
+    );
     let crs_lines = [
-        format!("WGS 84 / UTM {}{hemi}", zone.zone()),
+        name,
         format!("EPSG:{}", frame.epsg()),
         format!("cell {} m", fmt_len(grid.cell_m())),
     ];

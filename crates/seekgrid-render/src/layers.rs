@@ -13,6 +13,7 @@
 //! Writers write only through the [`Recorder`], which records each file it writes (sidecars
 //! included) for `summary.json` and refuses a file name the layer does not declare.
 
+use crate::gpx::GpsOptions;
 use crate::heatmap::{GeoreferencedPng, png_set_names, tagged_png};
 use crate::summary::{FileDetails, FileRecord, Summary};
 use crate::{OutputDir, RenderError, outputs, plan_outputs, summary, tasking};
@@ -183,12 +184,19 @@ layers! {
         plan_only: true,
         description: "one GPX route per unit for its navigation set: an area's waypoints from the commence search point, a segment's boundary",
     }
+    Waypoints {
+        name: "waypoints",
+        files: ["plan-waypoints.gpx"],
+        sidecars: [],
+        plan_only: true,
+        description: "GPX waypoints only, for sets that take no routes: each area's commence search point and corners and each segment's corners, named as in plan.gpx (written when chosen with `--outputs`)",
+    }
     Briefing {
         name: "briefing",
         files: ["plan.md"],
         sidecars: [],
         plan_only: true,
-        description: "the briefing: the plan's joint POS and its bound (the same numbers as summary.json), then per unit the area's corners and legs in degrees and minutes, spacing, coverage, POD, POS and time needed",
+        description: "the briefing: the plan's joint POS and its bound (the same numbers as summary.json), then per unit the area's corners and legs in its chosen position format (degrees and decimal minutes by default), spacing, coverage, POD, POS and time needed",
     }
     PlanMap {
         name: "plan-map",
@@ -270,7 +278,8 @@ impl OutputSelection {
     }
 
     /// The layers `seekgrid plan` writes by default: the summary, the belief at the start
-    /// (probability, containment, heatmap, segments, rasters) and every plan layer.
+    /// (probability, containment, heatmap, segments, rasters) and every plan layer but the
+    /// waypoints (for sets that take no routes, written when chosen).
     #[must_use]
     pub fn plan_default() -> Self {
         use Layer as L;
@@ -287,7 +296,7 @@ impl OutputSelection {
             Layer::ALL
                 .iter()
                 .copied()
-                .filter(|l| l.plan_only() || belief.contains(l))
+                .filter(|l| (l.plan_only() && *l != L::Waypoints) || belief.contains(l))
                 .collect(),
         )
     }
@@ -296,6 +305,13 @@ impl OutputSelection {
     #[must_use]
     pub fn of(layers: &[Layer]) -> Self {
         Self(layers.iter().copied().collect())
+    }
+
+    /// These layers and `layer`.
+    #[must_use]
+    pub fn with(mut self, layer: Layer) -> Self {
+        self.0.insert(layer);
+        self
     }
 
     /// Whether a layer is chosen.
@@ -331,6 +347,19 @@ pub struct Computed<'a> {
     pub map: &'a IncidentMap,
     /// The plan, when one was made.
     pub plan: Option<&'a PlanRun>,
+    /// The run's choices that shape the files (GPS names, the time the files are made).
+    pub settings: OutputSettings,
+}
+
+/// The run's choices that shape the files but not what is computed.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct OutputSettings {
+    /// How the GPS files name and split routes.
+    pub gps: GpsOptions,
+    /// When the files are made (the GPX `metadata/time`); `None` leaves it out.
+    pub made_at: Option<chrono::DateTime<chrono::Utc>>,
+    /// How positions are written (`--positions`): over the incident's choice, under a unit's.
+    pub positions: Option<seekgrid_incident::model::PositionFormat>,
 }
 
 impl<'a> Computed<'a> {
@@ -341,6 +370,7 @@ impl<'a> Computed<'a> {
             incident,
             map,
             plan: None,
+            settings: OutputSettings::default(),
         }
     }
 
@@ -351,7 +381,15 @@ impl<'a> Computed<'a> {
             incident,
             map: &run.map,
             plan: Some(run),
+            settings: OutputSettings::default(),
         }
+    }
+
+    /// The same, with the run's settings.
+    #[must_use]
+    pub fn with_settings(mut self, settings: OutputSettings) -> Self {
+        self.settings = settings;
+        self
     }
 }
 
@@ -518,6 +556,7 @@ fn write_layer(layer: Layer, c: &Computed, out: &mut Recorder) -> Result<(), Ren
         L::Plan => with_plan(layer, c, out, plan_outputs::geojson),
         L::Kml => with_plan(layer, c, out, plan_outputs::kml),
         L::Routes => with_plan(layer, c, out, plan_outputs::gpx),
+        L::Waypoints => with_plan(layer, c, out, plan_outputs::waypoints_gpx),
         L::Briefing => with_plan(layer, c, out, plan_outputs::briefing),
         L::Tasking => with_plan(layer, c, out, tasking::write),
         L::PlanMap => with_plan(layer, c, out, plan_outputs::picture),
@@ -758,5 +797,6 @@ mod tests {
         assert!(Layer::ALL.iter().all(|l| map.has(*l) != l.plan_only()));
         let plan = OutputSelection::plan_default();
         assert!(plan.has(Layer::Summary) && plan.has(Layer::Effort) && !plan.has(Layer::Pod));
+        assert!(plan.has(Layer::Routes) && !plan.has(Layer::Waypoints));
     }
 }

@@ -62,6 +62,7 @@ pub mod layers;
 pub mod output;
 pub mod outputs;
 pub mod plan_outputs;
+pub mod position;
 mod probability;
 pub mod provenance;
 pub mod record;
@@ -72,7 +73,7 @@ pub mod vector;
 
 pub use containment::containment_geojson;
 pub use error::RenderError;
-pub use georef::{PixelGeometry, aux_xml, utm_wkt1_esri};
+pub use georef::{PixelGeometry, aux_xml, frame_prj, utm_wkt1_esri};
 pub use heatmap::{
     ColourScale, GeoreferencedPng, MapStyle, Overlay, Rgb, data_png, heatmap_png, pixels_per_cell,
     png_set_names, write_png_set,

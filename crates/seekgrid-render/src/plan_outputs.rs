@@ -5,9 +5,10 @@
 //! Every headline number is computed once, by [`plan_totals`], so the briefing, the GIS layer,
 //! the picture and the summary say the same thing.
 
-use crate::gpx::{RouteSpec, routes_gpx};
+use crate::gpx::{self, GpxHeader, NamedPoint, PointNamer, RouteSpec, routes_gpx};
 use crate::layers::{Computed, Layer, Recorder};
 use crate::outputs::{self, collection_bytes};
+use crate::position::{self, format_position};
 use crate::summary::CAUTION;
 use crate::{self as render, ColourScale, MapStyle, Overlay, RenderError};
 use geo::{Area, Coord, Polygon};
@@ -15,6 +16,7 @@ use geojson::{Feature, JsonObject};
 use seekgrid_core::Frame;
 use seekgrid_core::units::{M2_PER_KM2, METRES_PER_KM, m_to_nm};
 use seekgrid_engine::PlanRun;
+use seekgrid_incident::model::PositionFormat;
 use seekgrid_plan::{SegmentAssignment, UnitAssignment};
 use serde::Serialize;
 use std::fmt::Write as _;
@@ -51,9 +53,18 @@ pub fn ddm(value_deg: f64, axis: Axis) -> String {
     }
 }
 
-fn lat_lon(frame: &Frame, c: Coord<f64>) -> String {
-    let (lon, lat) = frame.to_lon_lat(c);
-    format!("{} {}", ddm(lat, Axis::Latitude), ddm(lon, Axis::Longitude))
+/// How `unit`'s positions are written: the unit's own choice in the incident file, else the
+/// run's (`--positions`), else the incident's, else degrees and decimal minutes.
+#[must_use]
+pub fn unit_positions(c: &Computed, unit: &str) -> PositionFormat {
+    c.incident
+        .units
+        .iter()
+        .find(|u| u.id == unit)
+        .and_then(|u| u.positions)
+        .or(c.settings.positions)
+        .or(c.incident.positions)
+        .unwrap_or(PositionFormat::Ddm)
 }
 
 fn true_bearing(frame: &Frame, grid_bearing_deg: f64, at: Coord<f64>) -> f64 {
@@ -392,65 +403,223 @@ fn plan_features(c: &Computed, run: &PlanRun) -> Vec<Feature> {
     features
 }
 
-/// The routes layer's writer: `plan.gpx`, one route per area (its waypoints, from the commence
-/// search point) and per team's segment polygon (its boundary), when there is one.
-pub(crate) fn gpx(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(), RenderError> {
-    let frame = &c.map.prepared.frame;
-    let named_point = |name: String, p: &Coord<f64>| {
-        let (lon, lat) = frame.to_lon_lat(*p);
-        (name, lon, lat)
-    };
-    let mut routes = Vec::new();
+/// One unit's points for the GPS files: its routes (an area's turn points from the commence
+/// search point; each polygon of a team's segment, its boundary) and its waypoints (the
+/// commence search point and the corners).
+struct GpsUnit {
+    unit: String,
+    /// What the unit does, for the route's `desc`.
+    what: String,
+    /// Each route before splitting: (short label, full name, position in the frame).
+    routes: Vec<Vec<(String, String, Coord<f64>)>>,
+    /// The waypoints: (short label, full name, position in the frame).
+    waypoints: Vec<(String, String, Coord<f64>)>,
+}
+
+/// Every unit's GPS points, labelled; and the widest label.
+fn gps_units(run: &PlanRun) -> (Vec<GpsUnit>, usize) {
+    let mut units = Vec::new();
     for a in area_assignments(run) {
-        let points = a
+        let d = gpx::digits(a.waypoints.len().saturating_sub(1)).max(2);
+        let route = a
             .waypoints
             .iter()
             .enumerate()
             .map(|(k, p)| match k {
-                0 => named_point(format!("{} CSP", a.unit), p),
-                _ => named_point(format!("{} {k:02}", a.unit), p),
+                0 => (
+                    "CSP".to_owned(),
+                    format!("{} commence search point", a.unit),
+                    *p,
+                ),
+                _ => (format!("{k:0d$}"), format!("{} turn point {k}", a.unit), *p),
             })
             .collect();
-        routes.push(RouteSpec {
-            name: a.unit.clone(),
-            description: format!(
+        let area = a.pattern.area_polygon();
+        let corners = &area.exterior().0;
+        let corners = &corners[..corners.len().saturating_sub(1)];
+        let mut waypoints = vec![(
+            "CSP".to_owned(),
+            format!("{} commence search point", a.unit),
+            a.commence_search_point,
+        )];
+        waypoints.extend(corners.iter().enumerate().map(|(k, p)| {
+            (
+                format!("C{}", k + 1),
+                format!("{} area corner {}", a.unit, k + 1),
+                *p,
+            )
+        }));
+        units.push(GpsUnit {
+            unit: a.unit.clone(),
+            what: format!(
                 "{} at {:.0} m track spacing, {} legs",
                 a.pattern.kind(),
                 a.track_spacing_m,
                 a.legs.len()
             ),
-            points,
+            routes: vec![route],
+            waypoints,
         });
     }
     for (a, polygons) in team_assignments(run) {
+        let n: usize = polygons.iter().map(|p| p.exterior().0.len()).sum();
+        let d = gpx::digits(n).max(2);
+        let mut k = 0;
+        let mut routes = Vec::new();
+        let mut waypoints = Vec::new();
         for poly in polygons {
-            let points = poly
-                .exterior()
-                .0
+            let ring = &poly.exterior().0;
+            let mut route = Vec::new();
+            for (j, p) in ring.iter().enumerate() {
+                k += 1;
+                let point = (
+                    format!("{k:0d$}"),
+                    format!("{} segment {} corner {k}", a.team, a.segment),
+                    *p,
+                );
+                // The ring's closing point (the first again) is a route point, not a waypoint.
+                if j + 1 < ring.len() {
+                    waypoints.push(point.clone());
+                }
+                route.push(point);
+            }
+            routes.push(route);
+        }
+        units.push(GpsUnit {
+            unit: a.team.clone(),
+            what: format!("boundary of segment {}", a.segment),
+            routes,
+            waypoints,
+        });
+    }
+    let width = units
+        .iter()
+        .flat_map(|u| u.routes.iter().flatten().chain(&u.waypoints))
+        .map(|(label, _, _)| label.chars().count())
+        .max()
+        .unwrap_or(3)
+        .max(3);
+    (units, width)
+}
+
+/// The namer of the GPS files: every unit's code, unique within the name length.
+fn gps_namer(c: &Computed, units: &[GpsUnit], width: usize) -> Result<PointNamer, RenderError> {
+    let mut ids: Vec<&str> = Vec::new();
+    for u in units {
+        if !ids.contains(&u.unit.as_str()) {
+            ids.push(&u.unit);
+        }
+    }
+    PointNamer::new(&c.settings.gps, &ids, width)
+}
+
+fn gps_point(
+    c: &Computed,
+    namer: &PointNamer,
+    unit: &str,
+    (label, full, p): &(String, String, Coord<f64>),
+) -> Result<NamedPoint, RenderError> {
+    let frame = &c.map.prepared.frame;
+    let (lon, lat) = frame.to_lon_lat(*p);
+    Ok(NamedPoint {
+        name: namer.name(unit, label)?,
+        description: format!(
+            "{full}: {}",
+            format_position(frame, *p, unit_positions(c, unit))
+        ),
+        lon,
+        lat,
+    })
+}
+
+fn gps_header<'a>(c: &'a Computed, description: &'a str) -> GpxHeader<'a> {
+    GpxHeader {
+        title: &c.incident.title,
+        description,
+        time: c.settings.made_at,
+    }
+}
+
+/// The routes layer's writer: `plan.gpx`, one route per area (its waypoints, from the commence
+/// search point) and per team's segment polygon (its boundary), when there is one; a route of
+/// more points than the GPS options allow is split into numbered parts.
+pub(crate) fn gpx(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(), RenderError> {
+    let l = Layer::Routes;
+    let (units, width) = gps_units(run);
+    if units.is_empty() {
+        out.skip(l, "no unit has an area or a segment to follow");
+        return Ok(());
+    }
+    let namer = gps_namer(c, &units, width)?;
+    let max = c.settings.gps.route_points;
+    let mut routes = Vec::new();
+    for u in &units {
+        let parts: Vec<Vec<(String, String, Coord<f64>)>> = u
+            .routes
+            .iter()
+            .flat_map(|r| gpx::split_points(r, max))
+            .collect();
+        let n = parts.len();
+        for (i, part) in parts.iter().enumerate() {
+            let points = part
                 .iter()
-                .enumerate()
-                .map(|(k, p)| {
-                    named_point(format!("{} {} corner {:02}", a.team, a.segment, k + 1), p)
-                })
-                .collect();
+                .map(|p| gps_point(c, &namer, &u.unit, p))
+                .collect::<Result<Vec<_>, _>>()?;
+            let of = if n > 1 {
+                format!(
+                    " (part {} of {n}, {} to {})",
+                    i + 1,
+                    points[0].name,
+                    points[points.len() - 1].name
+                )
+            } else {
+                String::new()
+            };
             routes.push(RouteSpec {
-                name: format!("{} {}", a.team, a.segment),
-                description: format!("boundary of segment {}", a.segment),
+                name: namer.route_name(&u.unit, i + 1, n)?,
+                description: format!("{}: {}{of}", u.unit, u.what),
                 points,
             });
         }
-    }
-    let l = Layer::Routes;
-    if routes.is_empty() {
-        out.skip(l, "no unit has an area or a segment to follow");
-        return Ok(());
     }
     let description = format!(
         "seekgrid plan from {}, run {}. {CAUTION}",
         run.start.to_rfc3339(),
         out.run_id()
     );
-    let mut bytes = routes_gpx(&c.incident.title, &description, &routes)?;
+    let mut bytes = routes_gpx(&gps_header(c, &description), &routes)?;
+    if let Some(p) = out.provenance() {
+        bytes = crate::gpx::with_provenance(&bytes, p);
+    }
+    out.write(l, l.files()[0], &bytes, None)
+}
+
+/// The waypoints layer's writer: `plan-waypoints.gpx`, each unit's commence search point and
+/// area corners or segment corners as waypoints, named as in `plan.gpx`.
+pub(crate) fn waypoints_gpx(
+    c: &Computed,
+    run: &PlanRun,
+    out: &mut Recorder,
+) -> Result<(), RenderError> {
+    let l = Layer::Waypoints;
+    let (units, width) = gps_units(run);
+    if units.is_empty() {
+        out.skip(l, "no unit has an area or a segment to follow");
+        return Ok(());
+    }
+    let namer = gps_namer(c, &units, width)?;
+    let mut points = Vec::new();
+    for u in &units {
+        for p in &u.waypoints {
+            points.push(gps_point(c, &namer, &u.unit, p)?);
+        }
+    }
+    let description = format!(
+        "seekgrid plan from {}, run {}: waypoints only. {CAUTION}",
+        run.start.to_rfc3339(),
+        out.run_id()
+    );
+    let mut bytes = gpx::waypoints_gpx(&gps_header(c, &description), &points)?;
     if let Some(p) = out.provenance() {
         bytes = crate::gpx::with_provenance(&bytes, p);
     }
@@ -459,13 +628,12 @@ pub(crate) fn gpx(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(),
 
 /// The briefing layer's writer: `plan.md`.
 pub(crate) fn briefing(c: &Computed, run: &PlanRun, out: &mut Recorder) -> Result<(), RenderError> {
-    let frame = &c.map.prepared.frame;
     let mut md = String::new();
     briefing_header(&mut md, c, run, out.run_id());
     briefing_warnings(&mut md, c);
     briefing_headline(&mut md, run);
     if let Some(p) = &run.areas {
-        briefing_areas(&mut md, frame, p);
+        briefing_areas(&mut md, c, p);
     }
     if let Some(sp) = &run.segments {
         briefing_teams(&mut md, sp);
@@ -545,7 +713,7 @@ fn briefing_headline(md: &mut String, run: &PlanRun) {
 }
 
 /// The search areas: their own joint POS and bound, a section per unit, the planner's notes.
-fn briefing_areas(md: &mut String, frame: &Frame, p: &seekgrid_plan::Plan) {
+fn briefing_areas(md: &mut String, c: &Computed, p: &seekgrid_plan::Plan) {
     let units: Vec<&str> = p.assignments.iter().map(|a| a.unit.as_str()).collect();
     let _ = writeln!(md, "## Search areas\n");
     let _ = writeln!(
@@ -558,13 +726,16 @@ fn briefing_areas(md: &mut String, frame: &Frame, p: &seekgrid_plan::Plan) {
         100.0 * p.turn_allowance
     );
     for a in &p.assignments {
-        briefing_unit(md, frame, a);
+        briefing_unit(md, c, a);
     }
     briefing_notes(md, &p.notes);
 }
 
 /// One unit's table and its legs.
-fn briefing_unit(md: &mut String, frame: &Frame, a: &UnitAssignment) {
+fn briefing_unit(md: &mut String, c: &Computed, a: &UnitAssignment) {
+    let frame = &c.map.prepared.frame;
+    let format = unit_positions(c, &a.unit);
+    let lat_lon = |frame: &Frame, p: Coord<f64>| format_position(frame, p, format);
     let area = a.pattern.area_polygon();
     let ring = &area.exterior().0;
     let corners: Vec<String> = ring
@@ -575,6 +746,7 @@ fn briefing_unit(md: &mut String, frame: &Frame, a: &UnitAssignment) {
     let _ = writeln!(md, "### {}\n", a.unit);
     let _ = writeln!(md, "| item | value |\n|---|---|");
     let rows = [
+        ("positions", position::label(format).to_owned()),
         ("pattern", a.pattern.kind().to_owned()),
         (
             "commence search point",

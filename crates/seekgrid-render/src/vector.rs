@@ -43,7 +43,7 @@ pub fn ring_signed_area2(ring: &[[f64; 2]]) -> f64 {
 /// antimeridian has continuous longitudes (they may leave -180..180).
 pub(crate) fn unwrapped_lon_lat(frame: &Frame, p: Coord<f64>) -> [f64; 2] {
     let (lon, lat) = frame.to_lon_lat(p);
-    let lon0 = frame.zone().central_meridian_deg();
+    let lon0 = frame.central_meridian_deg();
     let d = (lon - lon0 + 180.0).rem_euclid(360.0) - 180.0;
     [lon0 + d, lat]
 }

@@ -1,4 +1,4 @@
-//! Running external reference tools (GDAL, PROJ, xmllint) from tests.
+//! Running external reference tools (GDAL, PROJ, xmllint, GPSBabel) from tests.
 //!
 //! In CI (`CI=true`) a missing tool is a failure; elsewhere the test says loudly that it
 //! skipped the check and passes.
@@ -16,11 +16,11 @@ pub fn have(tool: &str) -> bool {
     if !found {
         if std::env::var("CI").is_ok_and(|v| v == "true") {
             panic!(
-                "{tool} is not installed; .ci/run installs it (gdal-bin, proj-bin, libxml2-utils)"
+                "{tool} is not installed; .ci/run installs it (gdal-bin, proj-bin, libxml2-utils, gpsbabel)"
             );
         }
         eprintln!(
-            "SKIPPED: {tool} not installed; install gdal-bin proj-bin libxml2-utils to run this check"
+            "SKIPPED: {tool} not installed; install gdal-bin proj-bin libxml2-utils gpsbabel to run this check"
         );
     }
     found

@@ -102,3 +102,19 @@ fn utm_matches_proj_in_the_south() {
     check_zone(32756, (-70.0, -0.5));
     check_zone(32723, (-40.0, -10.0));
 }
+
+#[test]
+fn the_crs_codes_refused_as_geographic_are_geographic_for_proj() {
+    // PROJ's projinfo (Debian proj-bin) writes a geographic CRS as +proj=longlat.
+    if !have("projinfo") {
+        return;
+    }
+    for code in seekgrid_incident::crs::GEOGRAPHIC_EPSG {
+        let o = crate::external::run("projinfo", &[&format!("EPSG:{code}"), "-o", "PROJ", "-q"]);
+        let text = String::from_utf8_lossy(&o.stdout);
+        assert!(
+            o.status.success() && text.trim_start().starts_with("+proj=longlat"),
+            "EPSG:{code}: {text}"
+        );
+    }
+}

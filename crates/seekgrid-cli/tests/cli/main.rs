@@ -9,6 +9,7 @@ mod external;
 mod forecast;
 mod frame_vs_proj;
 mod golden;
+mod gps;
 mod kml;
 mod layers;
 mod located;
