@@ -1183,22 +1183,11 @@ pub(crate) fn with_text_chunk(
     text: &str,
 ) -> Result<Vec<u8>, RenderError> {
     use png::text_metadata::{EncodableTextChunk, TEXtChunk};
-    const SIGNATURE: [u8; 8] = [137, 80, 78, 71, 13, 10, 26, 10];
-    const AFTER_IHDR: usize = 8 + 4 + 4 + 13 + 4;
-    if png.len() < AFTER_IHDR || png[..8] != SIGNATURE || &png[8..16] != b"\0\0\0\x0dIHDR" {
-        return Err(RenderError::Png(
-            "the picture does not start with a PNG signature and IHDR chunk".into(),
-        ));
-    }
     let mut chunk = Vec::new();
     TEXtChunk::new(keyword, text)
         .encode(&mut chunk)
         .map_err(|e| RenderError::Png(e.to_string()))?;
-    let mut out = Vec::with_capacity(png.len() + chunk.len());
-    out.extend_from_slice(&png[..AFTER_IHDR]);
-    out.extend_from_slice(&chunk);
-    out.extend_from_slice(&png[AFTER_IHDR..]);
-    Ok(out)
+    after_ihdr(png, &chunk)
 }
 
 /// `png` with an `iTXt` chunk `keyword`, `text` (UTF-8, uncompressed) inserted after its
@@ -1209,6 +1198,15 @@ pub(crate) fn with_itxt_chunk(
     text: &str,
 ) -> Result<Vec<u8>, RenderError> {
     use png::text_metadata::{EncodableTextChunk, ITXtChunk};
+    let mut chunk = Vec::new();
+    ITXtChunk::new(keyword, text)
+        .encode(&mut chunk)
+        .map_err(|e| RenderError::Png(e.to_string()))?;
+    after_ihdr(png, &chunk)
+}
+
+/// `png` with the encoded `chunk` inserted right after its `IHDR` chunk.
+fn after_ihdr(png: &[u8], chunk: &[u8]) -> Result<Vec<u8>, RenderError> {
     const SIGNATURE: [u8; 8] = [137, 80, 78, 71, 13, 10, 26, 10];
     const AFTER_IHDR: usize = 8 + 4 + 4 + 13 + 4;
     if png.len() < AFTER_IHDR || png[..8] != SIGNATURE || &png[8..16] != b"\0\0\0\x0dIHDR" {
@@ -1216,13 +1214,9 @@ pub(crate) fn with_itxt_chunk(
             "the picture does not start with a PNG signature and IHDR chunk".into(),
         ));
     }
-    let mut chunk = Vec::new();
-    ITXtChunk::new(keyword, text)
-        .encode(&mut chunk)
-        .map_err(|e| RenderError::Png(e.to_string()))?;
     let mut out = Vec::with_capacity(png.len() + chunk.len());
     out.extend_from_slice(&png[..AFTER_IHDR]);
-    out.extend_from_slice(&chunk);
+    out.extend_from_slice(chunk);
     out.extend_from_slice(&png[AFTER_IHDR..]);
     Ok(out)
 }
