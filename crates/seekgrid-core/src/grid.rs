@@ -78,6 +78,12 @@ impl ProjectedBox {
         }
     }
 
+    /// Whether `p` lies in the box, edges included (never for a NaN coordinate).
+    #[must_use]
+    pub fn contains(&self, p: Coord<f64>) -> bool {
+        p.x >= self.west_m && p.x <= self.east_m && p.y >= self.south_m && p.y <= self.north_m
+    }
+
     /// The box grown by `margin_m` on every side.
     #[must_use]
     pub fn expanded(&self, margin_m: f64) -> Self {

@@ -188,15 +188,9 @@ fn interpolated_pod_at(
     width_m: f64,
 ) -> Vec<f64> {
     let within = track_box(track).expanded(kernel.reach_m());
-    let inside = |p: &Coord<f64>| {
-        p.x >= within.west_m
-            && p.x <= within.east_m
-            && p.y >= within.south_m
-            && p.y <= within.north_m
-    };
-    let mut out = vec![0.0; points.len()];
+    let inside = |p: &Coord<f64>| within.contains(*p);
     let Some(bounds) = ProjectedBox::of_points(points.iter().copied().filter(inside)) else {
-        return out;
+        return vec![0.0; points.len()];
     };
     let (w, h) = (bounds.width_m(), bounds.height_m());
     let spacing_m = (0.5 * width_m).max((w * h / MAX_POINT_LATTICE_NODES).sqrt());
@@ -228,13 +222,9 @@ fn interpolated_pod_at(
         .collect();
     let exact: Vec<usize> = (0..points.len()).filter(|&i| read[i].is_nan()).collect();
     let exact_points: Vec<Coord<f64>> = exact.iter().map(|&i| points[i]).collect();
+    let mut out = read;
     for (i, pod) in exact.iter().zip(exact_pod_at(&exact_points, track, kernel)) {
         out[*i] = pod;
-    }
-    for (o, r) in out.iter_mut().zip(read) {
-        if !r.is_nan() {
-            *o = r;
-        }
     }
     out
 }
@@ -246,13 +236,7 @@ fn field_pod_at(points: &[Coord<f64>], track: &[Coord<f64>], kernel: Kernel) -> 
     let reach = kernel.reach_m();
     let within = track_box(track).expanded(reach);
     let inside: Vec<usize> = (0..points.len())
-        .filter(|&i| {
-            let p = points[i];
-            p.x >= within.west_m
-                && p.x <= within.east_m
-                && p.y >= within.south_m
-                && p.y <= within.north_m
-        })
+        .filter(|&i| within.contains(points[i]))
         .collect();
     let mut out = vec![0.0; points.len()];
     let Some(bounds) = ProjectedBox::of_points(inside.iter().map(|&i| points[i])) else {
@@ -431,12 +415,7 @@ fn smooth_cells(
             Block::Exact { rows, cols } => Some(scorer.cells_box(rows, cols)),
             Block::Interpolated { .. } => None,
         })
-        .reduce(|a, b| ProjectedBox {
-            west_m: a.west_m.min(b.west_m),
-            south_m: a.south_m.min(b.south_m),
-            east_m: a.east_m.max(b.east_m),
-            north_m: a.north_m.max(b.north_m),
-        });
+        .reduce(|a, b| a.union(&b));
     // Mesh through the cell centres, as fine as the sub-points near the track or coarser.
     let per_side = match sampling {
         Sampling::Uniform(n) | Sampling::Adaptive(n) => n,
